@@ -1,0 +1,33 @@
+# Thin wrapper over CMake. The two set-up commands of the README are
+# `make demo` and `make test`; both install what is missing first.
+BUILD ?= build
+JOBS ?= 2
+CMAKE_FLAGS ?=
+
+.PHONY: all deps build test demo bench docs clean sanitize
+
+all: build
+
+deps:
+	@scripts/install-deps.sh
+
+$(BUILD)/CMakeCache.txt:
+	cmake -S . -B $(BUILD) $(CMAKE_FLAGS)
+
+build: deps $(BUILD)/CMakeCache.txt
+	cmake --build $(BUILD) -j$(JOBS)
+
+test: build
+	cd $(BUILD) && ctest --output-on-failure -j$(JOBS)
+
+demo: build
+	@examples/run-demo.sh $(BUILD)
+
+bench: build
+	@scripts/run-benchmarks.sh $(BUILD)
+
+docs: deps
+	doxygen docs/Doxyfile
+
+clean:
+	rm -rf $(BUILD)

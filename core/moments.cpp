@@ -1,0 +1,119 @@
+#include "moments.hpp"
+
+#include <cblas.h>
+
+#include <algorithm>
+#include <cmath>
+
+#include "error.hpp"
+
+namespace ellipsa::core {
+namespace {
+
+// Rows per chunk: large enough that the rank-k update runs at BLAS-3 speed,
+// small enough that the centred copy stays in cache.
+constexpr Index kChunkRows = 2048;
+
+// lower += c' c for a column-major chunk c (rows x p), lower triangle only.
+void add_gram_lower(const Eigen::MatrixXd& c, Eigen::MatrixXd& lower) {
+  if (c.rows() == 0 || c.cols() == 0) return;
+  cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(c.cols()),
+              static_cast<int>(c.rows()), 1.0, c.data(), static_cast<int>(c.rows()),
+              1.0, lower.data(), static_cast<int>(lower.outerStride()));
+}
+
+}  // namespace
+
+MomentAccumulator::MomentAccumulator(Index p)
+    : mean_(Eigen::VectorXd::Zero(p)), lower_(Eigen::MatrixXd::Zero(p, p)) {}
+
+Eigen::MatrixXd MomentAccumulator::cross_products() const {
+  Eigen::MatrixXd full = lower_.selfadjointView<Eigen::Lower>();
+  return full;
+}
+
+void MomentAccumulator::merge(double wb, Index rows_b, const Eigen::VectorXd& mb,
+                              const Eigen::MatrixXd& Mb) {
+  if (mb.size() != dimension() || Mb.rows() != dimension() || Mb.cols() != dimension())
+    throw Error(ErrorKind::Shape, "moment merge: dimensions differ");
+  if (!(wb > 0.0)) return;
+  const double wa = weight_;
+  const double w = wa + wb;
+  // Chan, Golub & LeVeque (1979): m = ma + delta*wb/w,
+  // M = Ma + Mb + delta*delta' * wa*wb/w.
+  const Eigen::VectorXd delta = mb - mean_;
+  mean_ += delta * (wb / w);
+  lower_.triangularView<Eigen::Lower>() += Mb;
+  if (wa > 0.0)
+    lower_.selfadjointView<Eigen::Lower>().rankUpdate(delta, wa * wb / w);
+  weight_ = w;
+  rows_ += rows_b;
+}
+
+void MomentAccumulator::merge(const MomentAccumulator& other) {
+  merge(other.weight_, other.rows_, other.mean_, other.cross_products());
+}
+
+void MomentAccumulator::add(DataView x) {
+  const Index p = dimension();
+  if (x.cols() != p) throw Error(ErrorKind::Shape, "moment accumulator: column count differs");
+  Eigen::MatrixXd chunk;
+  Eigen::MatrixXd gram(p, p);
+  for (Index start = 0; start < x.rows(); start += kChunkRows) {
+    const Index m = std::min(kChunkRows, x.rows() - start);
+    chunk = x.middleRows(start, m);
+    // Two passes inside the chunk: the mean, then a correction from the centred
+    // values, so data with a large offset keep their digits (NIST NumAcc4).
+    Eigen::RowVectorXd mu = chunk.colwise().mean();
+    chunk.rowwise() -= mu;
+    const Eigen::RowVectorXd correction = chunk.colwise().mean();
+    chunk.rowwise() -= correction;
+    mu += correction;
+    gram.setZero();
+    add_gram_lower(chunk, gram);
+    merge(static_cast<double>(m), m, mu.transpose(), gram.selfadjointView<Eigen::Lower>());
+  }
+}
+
+void MomentAccumulator::add(DataView x, const Eigen::Ref<const Eigen::VectorXd>& w) {
+  const Index p = dimension();
+  if (x.cols() != p) throw Error(ErrorKind::Shape, "moment accumulator: column count differs");
+  if (w.size() != x.rows()) throw Error(ErrorKind::Shape, "moment accumulator: one weight per row");
+  Eigen::MatrixXd chunk;
+  Eigen::MatrixXd gram(p, p);
+  for (Index start = 0; start < x.rows(); start += kChunkRows) {
+    const Index m = std::min(kChunkRows, x.rows() - start);
+    const auto wc = w.segment(start, m);
+    const double ws = wc.sum();
+    if (!(ws > 0.0)) continue;
+    const Index positive = (wc.array() > 0.0).count();
+    chunk = x.middleRows(start, m);
+    Eigen::RowVectorXd mu = (wc.transpose() * chunk) / ws;
+    chunk.rowwise() -= mu;
+    const Eigen::RowVectorXd correction = (wc.transpose() * chunk) / ws;
+    chunk.rowwise() -= correction;
+    mu += correction;
+    chunk.array().colwise() *= wc.array().sqrt();
+    gram.setZero();
+    add_gram_lower(chunk, gram);
+    merge(ws, positive, mu.transpose(), gram.selfadjointView<Eigen::Lower>());
+  }
+}
+
+Eigen::MatrixXd MomentAccumulator::covariance(Normalisation norm) const {
+  const double divisor = norm == Normalisation::ByCount ? weight_ : weight_ - 1.0;
+  if (!(divisor > 0.0))
+    throw Error(ErrorKind::Data,
+                norm == Normalisation::ByCount
+                    ? "covariance needs at least one row with positive weight"
+                    : "covariance with divisor n-1 needs a weight sum above 1 (at least 2 rows)");
+  return cross_products() / divisor;
+}
+
+MeanCovariance mean_covariance(DataView x, Normalisation norm) {
+  MomentAccumulator acc(x.cols());
+  acc.add(x);
+  return {acc.mean(), acc.covariance(norm)};
+}
+
+}  // namespace ellipsa::core

@@ -1,0 +1,34 @@
+#!/usr/bin/env bash
+# Installs the Debian 12 packages ellipsa needs, only those that are missing.
+# Idempotent; uses sudo when not root. No downloads other than Debian packages.
+set -euo pipefail
+
+packages=(
+  build-essential cmake pkg-config
+  libeigen3-dev libopenblas-dev liblapacke-dev libboost-math-dev
+  libgtest-dev libgmock-dev libbenchmark-dev
+  doxygen nlohmann-json3-dev libcli11-dev
+  r-mathlib                      # reference distribution functions for the tests
+  python3 python3-numpy          # Python binding and its smoke test
+  r-base-core                    # R binding and its smoke test
+  mono-mcs mono-runtime          # C# binding and its smoke test
+  clang libclang-rt-14-dev       # fuzz targets (libFuzzer)
+)
+
+missing=()
+for p in "${packages[@]}"; do
+  if ! dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed"; then
+    missing+=("$p")
+  fi
+done
+
+if [ ${#missing[@]} -eq 0 ]; then
+  echo "deps: all ${#packages[@]} packages present"
+  exit 0
+fi
+
+sudo=""
+if [ "$(id -u)" -ne 0 ]; then sudo="sudo"; fi
+echo "deps: installing ${missing[*]}"
+$sudo apt-get update -qq
+DEBIAN_FRONTEND=noninteractive $sudo apt-get install -y -qq --no-install-recommends "${missing[@]}"
