@@ -175,6 +175,99 @@ static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_
 typedef int (*ellipsa_progress_fn)(const char *stage, double fraction, void *user);
 /** @} */
 
+/* ======================================================================== */
+/** @name Distributions and control limits
+ *  Thin, checked access to the distribution functions behind every p-value and
+ *  cutoff (Boost.Math underneath). All are thread-safe and allocate nothing.
+ *  @{ */
+/**
+ * @brief Quantile of the chi-square distribution: x with P(X <= x) = probability.
+ * @param[out] out         The quantile; written only on success.
+ * @param      probability In [0, 1).
+ * @param      df          Degrees of freedom, finite and > 0.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL if out is NULL; ::ELLIPSA_ERR_ARGUMENT
+ *         for a probability or df outside its range (NaN included).
+ */
+ELLIPSA_API ellipsa_status ellipsa_chi2_quantile(double *out, double probability, double df);
+
+/**
+ * @brief Upper-tail probability P(X > x) of the chi-square distribution.
+ *
+ * Computed directly, so p-values far below 1e-16 keep their digits.
+ * @param[out] out The probability in [0, 1].
+ * @param      x   Any value except NaN (x <= 0 gives 1, +inf gives 0).
+ * @param      df  Degrees of freedom, finite and > 0.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_chi2_tail(double *out, double x, double df);
+
+/**
+ * @brief Quantile of the F distribution with (df1, df2) degrees of freedom.
+ * @param[out] out The quantile.
+ * @param probability In [0, 1).
+ * @param df1 Numerator degrees of freedom, finite and > 0.
+ * @param df2 Denominator degrees of freedom, finite and > 0.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_f_quantile(double *out, double probability, double df1,
+                                              double df2);
+
+/**
+ * @brief Upper-tail probability P(X > x) of the F distribution.
+ * @param[out] out The probability in [0, 1].
+ * @param x   Any value except NaN.
+ * @param df1 Numerator degrees of freedom, finite and > 0.
+ * @param df2 Denominator degrees of freedom, finite and > 0.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_f_tail(double *out, double x, double df1, double df2);
+
+/**
+ * @brief Quantile of the Beta(a, b) distribution.
+ * @param[out] out The quantile in [0, 1].
+ * @param probability In [0, 1].
+ * @param a First shape, finite and > 0.
+ * @param b Second shape, finite and > 0.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_beta_quantile(double *out, double probability, double a,
+                                                 double b);
+
+/**
+ * @brief Upper-tail probability P(X > x) of the Beta(a, b) distribution.
+ * @param[out] out The probability in [0, 1].
+ * @param x Any value except NaN.
+ * @param a First shape, finite and > 0.
+ * @param b Second shape, finite and > 0.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_beta_tail(double *out, double x, double a, double b);
+
+/** Phase I: the rows that were used to estimate the mean and covariance. */
+#define ELLIPSA_PHASE_ONE 1
+/** Phase II: new rows scored against an estimate from m other rows. */
+#define ELLIPSA_PHASE_TWO 2
+
+/**
+ * @brief Upper control limit for Hotelling T^2 of individual observations.
+ *
+ * Tracy, Young & Mason (1992): with m reference rows and p variables,
+ * phase I: UCL = ((m-1)^2/m) * BetaQ(1-alpha; p/2, (m-p-1)/2);
+ * phase II: UCL = p(m+1)(m-1) / (m(m-p)) * FQ(1-alpha; p, m-p).
+ * The statistic compared with it is the squared Mahalanobis distance under the
+ * unbiased (n-1) classical fit of the m reference rows.
+ * @param[out] out   The limit.
+ * @param phase      ::ELLIPSA_PHASE_ONE or ::ELLIPSA_PHASE_TWO.
+ * @param m          Reference rows; phase I needs m > p + 1, phase II m > p.
+ * @param p          Variables, >= 1.
+ * @param alpha      False-alarm probability per row, in (0, 1).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT for an unknown
+ *         phase, alpha outside (0,1) or m too small for p.
+ */
+ELLIPSA_API ellipsa_status ellipsa_hotelling_limit(double *out, int32_t phase, int64_t m,
+                                                   int64_t p, double alpha);
+/** @} */
+
 #ifdef __cplusplus
 } /* extern "C" */
 #endif

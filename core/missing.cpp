@@ -1,0 +1,88 @@
+#include "missing.hpp"
+
+#include <cmath>
+#include <numeric>
+#include <string>
+
+#include "error.hpp"
+
+namespace ellipsa::core {
+namespace {
+
+std::vector<Index> all_or(const std::vector<Index>& columns, Index p) {
+  if (!columns.empty()) {
+    for (Index c : columns)
+      if (c < 0 || c >= p)
+        throw Error(ErrorKind::Argument, "column index " + std::to_string(c) +
+                                             " outside 0.." + std::to_string(p - 1));
+    return columns;
+  }
+  std::vector<Index> all(static_cast<std::size_t>(p));
+  std::iota(all.begin(), all.end(), Index{0});
+  return all;
+}
+
+[[noreturn]] void throw_non_finite(Index row, Index col, double v, const char* what) {
+  const std::string where = std::string(what) + ": row " + std::to_string(row) +
+                            ", column " + std::to_string(col) + " (0-based) ";
+  if (std::isnan(v))
+    throw Error(ErrorKind::Data, where + "is missing (NaN); select the complete rows first");
+  throw Error(ErrorKind::Data, where + "is non-finite (" + (v > 0 ? "+Inf" : "-Inf") +
+                                   "); NaN marks a missing value, Inf is not accepted");
+}
+
+}  // namespace
+
+CompleteRows select_complete_rows(DataView x, const std::vector<Index>& columns) {
+  const std::vector<Index> cols = all_or(columns, x.cols());
+  CompleteRows out;
+  std::vector<Index> present(cols.size(), 0);
+  out.rows.reserve(static_cast<std::size_t>(x.rows()));
+  for (Index i = 0; i < x.rows(); ++i) {
+    bool complete = true;
+    for (std::size_t k = 0; k < cols.size(); ++k) {
+      const double v = x(i, cols[k]);
+      if (std::isnan(v)) {
+        complete = false;
+      } else {
+        if (std::isinf(v)) throw_non_finite(i, cols[k], v, "complete rows");
+        ++present[k];
+      }
+    }
+    if (complete) out.rows.push_back(i); else ++out.dropped;
+  }
+  for (std::size_t k = 0; k < cols.size(); ++k)
+    if (present[k] == 0) out.all_missing_columns.push_back(cols[k]);
+  return out;
+}
+
+std::vector<Index> all_missing_columns(DataView x) {
+  std::vector<Index> out;
+  for (Index j = 0; j < x.cols(); ++j) {
+    bool any = false;
+    for (Index i = 0; i < x.rows() && !any; ++i) any = !std::isnan(x(i, j));
+    if (!any) out.push_back(j);
+  }
+  return out;
+}
+
+Eigen::MatrixXd gather(DataView x, const std::vector<Index>& rows,
+                       const std::vector<Index>& columns) {
+  const std::vector<Index> cols = all_or(columns, x.cols());
+  Eigen::MatrixXd out(static_cast<Index>(rows.size()), static_cast<Index>(cols.size()));
+  for (std::size_t k = 0; k < cols.size(); ++k)
+    for (std::size_t r = 0; r < rows.size(); ++r) {
+      if (rows[r] < 0 || rows[r] >= x.rows())
+        throw Error(ErrorKind::Argument, "row index " + std::to_string(rows[r]) + " out of range");
+      out(static_cast<Index>(r), static_cast<Index>(k)) = x(rows[r], cols[k]);
+    }
+  return out;
+}
+
+void require_finite(DataView x, const char* what) {
+  for (Index j = 0; j < x.cols(); ++j)
+    for (Index i = 0; i < x.rows(); ++i)
+      if (!std::isfinite(x(i, j))) throw_non_finite(i, j, x(i, j), what);
+}
+
+}  // namespace ellipsa::core

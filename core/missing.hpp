@@ -1,0 +1,37 @@
+// Missing values: NaN marks a missing entry; +-Inf is not "missing" but a value
+// the estimators cannot use, and is reported as such so that a division by zero
+// upstream is not silently treated like an empty cell. Nothing here imputes.
+#pragma once
+#include <Eigen/Core>
+#include <vector>
+
+#include "data_view.hpp"
+
+namespace ellipsa::core {
+
+// Rows whose chosen columns are all finite.
+struct CompleteRows {
+  std::vector<Index> rows;                 // ascending row indices (0-based)
+  Index dropped = 0;                       // rows with a NaN in a chosen column
+  std::vector<Index> all_missing_columns;  // chosen columns that are NaN in every row
+};
+
+// Scans the chosen columns (all columns when `columns` is empty) of x. Throws
+// Error(Data) naming the first +-Inf (row, column), Error(Argument) for a column
+// index out of range. A column that is missing in every row makes every row
+// incomplete; it is listed so that the caller can say why nothing is left.
+CompleteRows select_complete_rows(DataView x, const std::vector<Index>& columns = {});
+
+// Columns (0-based) that are NaN in every row. With zero rows every column counts.
+std::vector<Index> all_missing_columns(DataView x);
+
+// Copies the listed rows and columns (all columns when `columns` is empty) of x
+// into a dense column-major matrix, in the order given.
+Eigen::MatrixXd gather(DataView x, const std::vector<Index>& rows,
+                       const std::vector<Index>& columns = {});
+
+// Throws Error(Data) naming the first entry of x that is NaN ("missing") or
+// +-Inf ("non-finite"); `what` names the caller in the message.
+void require_finite(DataView x, const char* what);
+
+}  // namespace ellipsa::core
