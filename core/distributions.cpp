@@ -3,7 +3,10 @@
 #include <boost/math/distributions/beta.hpp>
 #include <boost/math/distributions/chi_squared.hpp>
 #include <boost/math/distributions/fisher_f.hpp>
+#include <boost/math/tools/roots.hpp>
 #include <cmath>
+#include <cstdint>
+#include <limits>
 #include <string>
 
 #include "error.hpp"
@@ -28,6 +31,23 @@ void check_probability(double q, bool allow_one) {
 }
 void check_x(double x) {
   if (std::isnan(x)) throw Error(ErrorKind::Argument, "argument is NaN");
+}
+
+// Boost 1.74's inverse incomplete beta can miss deep in the lower tail (Beta(0.5, 2)
+// at q = 1e-12 returns 2.25e-27; the quantile is 4.44e-25, as R's qbeta and the
+// closed form (q/1.5)^2 agree). The answer is therefore checked against the cdf
+// and, when the cdf at it is off by more than 1e-10 relative, searched again with
+// a bracketed root finder on the cdf over [0, 1].
+template <class Distribution>
+double checked_unit_quantile(const Distribution& dist, double q, double x) {
+  if (!(q > 0.0 && q < 1.0)) return x;
+  const double at = cdf(dist, x);
+  if (std::isfinite(x) && std::abs(at - q) <= 1e-10 * q) return x;
+  boost::math::tools::eps_tolerance<double> tol(std::numeric_limits<double>::digits - 3);
+  std::uintmax_t iterations = 300;
+  const auto [lo, hi] = boost::math::tools::toms748_solve(
+      [&](double t) { return cdf(dist, t) - q; }, 0.0, 1.0, -q, 1.0 - q, tol, iterations);
+  return 0.5 * (lo + hi);
 }
 
 }  // namespace
@@ -69,7 +89,12 @@ double f_cdf(double x, double df1, double df2) {
   check_x(x);
   if (x <= 0.0) return 0.0;
   if (std::isinf(x)) return 1.0;
-  return cdf(boost::math::fisher_f_distribution<double, Policy>(df1, df2), x);
+  // Boost forms df1*x/(df1*x + df2), which rounds to 1 far in the upper tail
+  // (F(1,1) at 4e17 gives exactly 1 for 1 - 1e-9); there the complement is
+  // computed directly and subtracted from 1, which is exact to half an ulp.
+  const boost::math::fisher_f_distribution<double, Policy> dist(df1, df2);
+  const double lower = cdf(dist, x);
+  return lower > 0.5 ? 1.0 - cdf(complement(dist, x)) : lower;
 }
 
 double f_sf(double x, double df1, double df2) {
@@ -86,7 +111,12 @@ double f_quantile(double q, double df1, double df2) {
   check_positive(df2, "denominator degrees of freedom");
   check_probability(q, false);
   if (q == 0.0) return 0.0;
-  return quantile(boost::math::fisher_f_distribution<double, Policy>(df1, df2), q);
+  const double x = quantile(boost::math::fisher_f_distribution<double, Policy>(df1, df2), q);
+  if (std::isfinite(x) && std::abs(f_cdf(x, df1, df2) - q) <= 1e-10 * q) return x;
+  // Same inverse-beta miss as above (F(1, 4) at q = 1e-12): go through the
+  // checked Beta quantile, F = (df2/df1) y/(1-y) with y ~ Beta(df1/2, df2/2).
+  const double y = beta_quantile(q, df1 / 2.0, df2 / 2.0);
+  return df2 * y / (df1 * (1.0 - y));
 }
 
 double beta_cdf(double x, double a, double b) {
@@ -111,7 +141,8 @@ double beta_quantile(double q, double a, double b) {
   check_positive(a, "shape a");
   check_positive(b, "shape b");
   check_probability(q, true);
-  return quantile(boost::math::beta_distribution<double, Policy>(a, b), q);
+  const boost::math::beta_distribution<double, Policy> dist(a, b);
+  return checked_unit_quantile(dist, q, quantile(dist, q));
 }
 
 }  // namespace ellipsa::core

@@ -25,24 +25,26 @@ void add_gram_lower(const Eigen::MatrixXd& c, Eigen::MatrixXd& lower) {
 }  // namespace
 
 MomentAccumulator::MomentAccumulator(Index p)
-    : mean_(Eigen::VectorXd::Zero(p)), lower_(Eigen::MatrixXd::Zero(p, p)) {}
+    : shift_(Eigen::VectorXd::Zero(p)),
+      relative_mean_(Eigen::VectorXd::Zero(p)),
+      mean_(Eigen::VectorXd::Zero(p)),
+      lower_(Eigen::MatrixXd::Zero(p, p)) {}
 
 Eigen::MatrixXd MomentAccumulator::cross_products() const {
   Eigen::MatrixXd full = lower_.selfadjointView<Eigen::Lower>();
   return full;
 }
 
-void MomentAccumulator::merge(double wb, Index rows_b, const Eigen::VectorXd& mb,
-                              const Eigen::MatrixXd& Mb) {
-  if (mb.size() != dimension() || Mb.rows() != dimension() || Mb.cols() != dimension())
-    throw Error(ErrorKind::Shape, "moment merge: dimensions differ");
+void MomentAccumulator::merge_relative(double wb, Index rows_b, const Eigen::VectorXd& mb,
+                                       const Eigen::MatrixXd& Mb) {
   if (!(wb > 0.0)) return;
   const double wa = weight_;
   const double w = wa + wb;
   // Chan, Golub & LeVeque (1979): m = ma + delta*wb/w,
   // M = Ma + Mb + delta*delta' * wa*wb/w.
-  const Eigen::VectorXd delta = mb - mean_;
-  mean_ += delta * (wb / w);
+  const Eigen::VectorXd delta = mb - relative_mean_;
+  relative_mean_ += delta * (wb / w);
+  mean_ = shift_ + relative_mean_;
   lower_.triangularView<Eigen::Lower>() += Mb;
   if (wa > 0.0)
     lower_.selfadjointView<Eigen::Lower>().rankUpdate(delta, wa * wb / w);
@@ -50,8 +52,28 @@ void MomentAccumulator::merge(double wb, Index rows_b, const Eigen::VectorXd& mb
   rows_ += rows_b;
 }
 
+void MomentAccumulator::merge(double wb, Index rows_b, const Eigen::VectorXd& mb,
+                              const Eigen::MatrixXd& Mb) {
+  if (mb.size() != dimension() || Mb.rows() != dimension() || Mb.cols() != dimension())
+    throw Error(ErrorKind::Shape, "moment merge: dimensions differ");
+  if (!(wb > 0.0)) return;
+  if (!shifted_) {
+    shift_ = mb;
+    shifted_ = true;
+  }
+  merge_relative(wb, rows_b, mb - shift_, Mb);
+}
+
 void MomentAccumulator::merge(const MomentAccumulator& other) {
-  merge(other.weight_, other.rows_, other.mean_, other.cross_products());
+  if (other.dimension() != dimension()) throw Error(ErrorKind::Shape, "moment merge: dimensions differ");
+  if (!(other.weight_ > 0.0)) return;
+  if (!shifted_) {
+    shift_ = other.shift_;
+    shifted_ = true;
+  }
+  // Shifts are data rows, so their difference is exact for nearby data.
+  merge_relative(other.weight_, other.rows_, (other.shift_ - shift_) + other.relative_mean_,
+                 other.cross_products());
 }
 
 void MomentAccumulator::add(DataView x) {
@@ -59,9 +81,14 @@ void MomentAccumulator::add(DataView x) {
   if (x.cols() != p) throw Error(ErrorKind::Shape, "moment accumulator: column count differs");
   Eigen::MatrixXd chunk;
   Eigen::MatrixXd gram(p, p);
+  if (!shifted_ && x.rows() > 0) {
+    shift_ = x.row(0).transpose();
+    shifted_ = true;
+  }
   for (Index start = 0; start < x.rows(); start += kChunkRows) {
     const Index m = std::min(kChunkRows, x.rows() - start);
     chunk = x.middleRows(start, m);
+    chunk.rowwise() -= shift_.transpose();
     // Two passes inside the chunk: the mean, then a correction from the centred
     // values, so data with a large offset keep their digits (NIST NumAcc4).
     Eigen::RowVectorXd mu = chunk.colwise().mean();
@@ -71,7 +98,7 @@ void MomentAccumulator::add(DataView x) {
     mu += correction;
     gram.setZero();
     add_gram_lower(chunk, gram);
-    merge(static_cast<double>(m), m, mu.transpose(), gram.selfadjointView<Eigen::Lower>());
+    merge_relative(static_cast<double>(m), m, mu.transpose(), gram.selfadjointView<Eigen::Lower>());
   }
 }
 
@@ -87,7 +114,14 @@ void MomentAccumulator::add(DataView x, const Eigen::Ref<const Eigen::VectorXd>&
     const double ws = wc.sum();
     if (!(ws > 0.0)) continue;
     const Index positive = (wc.array() > 0.0).count();
+    if (!shifted_) {
+      Index first = 0;
+      while (!(wc(first) > 0.0)) ++first;
+      shift_ = x.row(start + first).transpose();
+      shifted_ = true;
+    }
     chunk = x.middleRows(start, m);
+    chunk.rowwise() -= shift_.transpose();
     Eigen::RowVectorXd mu = (wc.transpose() * chunk) / ws;
     chunk.rowwise() -= mu;
     const Eigen::RowVectorXd correction = (wc.transpose() * chunk) / ws;
@@ -96,7 +130,7 @@ void MomentAccumulator::add(DataView x, const Eigen::Ref<const Eigen::VectorXd>&
     chunk.array().colwise() *= wc.array().sqrt();
     gram.setZero();
     add_gram_lower(chunk, gram);
-    merge(ws, positive, mu.transpose(), gram.selfadjointView<Eigen::Lower>());
+    merge_relative(ws, positive, mu.transpose(), gram.selfadjointView<Eigen::Lower>());
   }
 }
 

@@ -45,9 +45,20 @@ class MomentAccumulator {
   Eigen::MatrixXd covariance(Normalisation norm) const;
 
  private:
+  // Merges moments whose mean is given relative to shift_.
+  void merge_relative(double weight, Index rows, const Eigen::VectorXd& relative_mean,
+                      const Eigen::MatrixXd& cross_products);
+
   double weight_ = 0.0;
   Index rows_ = 0;
-  Eigen::VectorXd mean_;
+  // Means are kept relative to a shift (the first row added): with data near
+  // 1e9 and spread 1e-3 an absolute chunk mean carries a rounding error of
+  // ulp(1e9)/2, which the merge term delta*delta' would amplify; differences of
+  // nearby data rows and of the relative means are (nearly) exact.
+  bool shifted_ = false;
+  Eigen::VectorXd shift_;
+  Eigen::VectorXd relative_mean_;
+  Eigen::VectorXd mean_;   // shift_ + relative_mean_, as returned by mean()
   Eigen::MatrixXd lower_;  // lower triangle of the cross-products is authoritative
 };
 

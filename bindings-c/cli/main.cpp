@@ -3,24 +3,49 @@
 #include <cstdio>
 #include <string>
 
+#include "commands.hpp"
+#include "csv_source.hpp"
 #include "ellipsa.h"
 
+namespace {
+constexpr const char* kExitCodes =
+    "Exit codes:\n"
+    "  0  success\n"
+    "  2  usage error (unknown option, bad value)\n"
+    "  3  bad data or file (unreadable CSV, no numeric columns, too few rows, bad model file)\n"
+    "  4  numerical failure (singular scatter, exact fit, no convergence)\n"
+    "  5  rows were flagged (only with --fail-on-flag)\n"
+    "  70 internal error (please report it)\n";
+}
+
 int main(int argc, char** argv) {
-  CLI::App app{
-      "ellipsa: robust normal profiles of multivariate measurements, and the rows that do not fit them."};
+  using namespace ellipsa::cli;
+  CLI::App app{"ellipsa: robust normal profiles of multivariate measurements, and the rows that do not fit them."};
   app.set_version_flag("--version", std::string("ellipsa ") + ellipsa_version());
   app.require_subcommand(0, 1);
-  app.footer(
-      "Exit codes: 0 success, 2 usage error, 3 bad data or file, 4 numerical failure,\n"
-      "            5 flagged rows found (with --fail-on-flag), 70 internal error.");
+  app.footer(kExitCodes);
+  std::vector<Command> commands{add_fit(app), add_score(app), add_screen(app), add_inspect(app)};
+  for (auto& c : commands) c.app->footer(kExitCodes);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
-    return app.exit(e) == 0 ? 0 : 2;
+    return app.exit(e) == 0 ? kExitOk : kExitUsage;
   }
-  if (app.get_subcommands().empty()) {
-    std::fputs(app.help().c_str(), stdout);
-    return 0;
+  for (auto& c : commands) {
+    if (!c.app->parsed()) continue;
+    try {
+      return c.run();
+    } catch (const CliError& e) {
+      std::fprintf(stderr, "ellipsa %s: %s\n", c.app->get_name().c_str(), e.what());
+      return e.code;
+    } catch (const CsvError& e) {
+      std::fprintf(stderr, "ellipsa %s: %s\n", c.app->get_name().c_str(), e.what());
+      return kExitData;
+    } catch (const std::exception& e) {
+      std::fprintf(stderr, "ellipsa %s: %s\n", c.app->get_name().c_str(), e.what());
+      return kExitData;
+    }
   }
-  return 0;
+  std::fputs(app.help().c_str(), stdout);
+  return kExitOk;
 }

@@ -268,6 +268,436 @@ ELLIPSA_API ellipsa_status ellipsa_hotelling_limit(double *out, int32_t phase, i
                                                    int64_t p, double alpha);
 /** @} */
 
+/* ======================================================================== */
+/** @name Fit options
+ *  An ::ellipsa_fit_options handle says how to fit: the method and its
+ *  settings. Create one, set what differs from the defaults, pass it to
+ *  ellipsa_model_fit(), reuse it or destroy it. A handle is used by one thread at
+ *  a time; ellipsa_model_fit() only reads it.
+ *  @{ */
+/** Opaque fit options. */
+typedef struct ellipsa_fit_options ellipsa_fit_options;
+
+/** Estimation method. */
+typedef int32_t ellipsa_method;
+#define ELLIPSA_METHOD_CLASSICAL 1   /**< Sample mean and covariance ("classical"). */
+#define ELLIPSA_METHOD_LEDOIT_WOLF 2 /**< Ledoit & Wolf (2004) shrinkage ("ledoit-wolf"). */
+#define ELLIPSA_METHOD_OAS 3         /**< Oracle approximating shrinkage, Chen et al. (2010) ("oas"). */
+#define ELLIPSA_METHOD_MCD 4         /**< FAST-MCD, Rousseeuw & Van Driessen (1999) ("mcd"). */
+#define ELLIPSA_METHOD_DETMCD 5      /**< Deterministic MCD, Hubert et al. (2012) ("detmcd"). */
+#define ELLIPSA_METHOD_MRCD 6        /**< Regularised MCD, Boudt et al. (2020) ("mrcd"). */
+#define ELLIPSA_METHOD_MIXTURE 7     /**< Gaussian mixture by EM ("mixture"). */
+
+/** Divisor of a classical covariance. */
+#define ELLIPSA_DIVISOR_N 1          /**< Divide by n: the maximum-likelihood estimate. */
+#define ELLIPSA_DIVISOR_N_MINUS_1 2  /**< Divide by n-1: the unbiased estimate (default). */
+
+/** What fitting does with rows that contain NaN. */
+#define ELLIPSA_MISSING_DROP_ROWS 1  /**< Use complete rows only and count the others (default). */
+#define ELLIPSA_MISSING_REFUSE 2     /**< Fail with ::ELLIPSA_ERR_DATA at the first NaN. */
+#define ELLIPSA_MISSING_EM 3         /**< Mixtures only: EM over the missing coordinates. */
+
+/** Covariance structure of mixture components. */
+#define ELLIPSA_STRUCTURE_FULL 1      /**< One full matrix per component. */
+#define ELLIPSA_STRUCTURE_DIAGONAL 2  /**< One diagonal matrix per component. */
+#define ELLIPSA_STRUCTURE_TIED 3      /**< One full matrix shared by all components. */
+#define ELLIPSA_STRUCTURE_SPHERICAL 4 /**< One variance per component. */
+#define ELLIPSA_STRUCTURE_ALL 5       /**< Model choice: try all four. */
+
+/**
+ * @brief Creates fit options for a method, every other setting at its default.
+ *
+ * Defaults: divisor n-1 (classical), missing rows dropped, alpha 0.5 (MCD
+ * family: h = floor((n+p+1)/2)), seed 0, components 1..1, structure full,
+ * restarts 5, at most 500 EM iterations, relative tolerance 1e-8,
+ * regularisation 1e-6 (mixtures), no progress callback.
+ * @param[out] out The new handle; destroy it with ellipsa_fit_options_destroy().
+ * @param method One of the ELLIPSA_METHOD_ values.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT for an unknown
+ *         method; ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_create(ellipsa_fit_options **out,
+                                                      ellipsa_method method);
+
+/** @brief Destroys fit options; NULL is a no-op. */
+ELLIPSA_API void ellipsa_fit_options_destroy(ellipsa_fit_options *options);
+
+/**
+ * @brief The method whose name (as the CLI spells it, e.g. "ledoit-wolf") is given.
+ * @param[out] out The method.
+ * @param name NUL-terminated name: classical, ledoit-wolf, oas, mcd, detmcd, mrcd, mixture.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT for an unknown name.
+ */
+ELLIPSA_API ellipsa_status ellipsa_method_from_name(ellipsa_method *out, const char *name);
+
+/**
+ * @brief The name of a method ("classical", "ledoit-wolf", ...).
+ * @return A static string; "unknown" for a value this version does not know.
+ */
+ELLIPSA_API const char *ellipsa_method_name(ellipsa_method method);
+
+/**
+ * @brief Divisor of the classical covariance: ::ELLIPSA_DIVISOR_N or ::ELLIPSA_DIVISOR_N_MINUS_1.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_divisor(ellipsa_fit_options *options,
+                                                           int32_t divisor);
+
+/**
+ * @brief What to do with rows that contain NaN (ELLIPSA_MISSING_ values).
+ *
+ * ::ELLIPSA_MISSING_EM is accepted for ::ELLIPSA_METHOD_MIXTURE only.
+ * Infinite values are never "missing": fitting refuses them with ::ELLIPSA_ERR_DATA.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_missing(ellipsa_fit_options *options,
+                                                           int32_t policy);
+
+/**
+ * @brief Names of the columns, carried into the model (and its file).
+ *
+ * Without names the columns are called "x1", "x2", ... The strings are copied.
+ * The count must equal the number of data columns at fit time.
+ * @param options The options.
+ * @param names   count NUL-terminated UTF-8 strings, none NULL.
+ * @param count   Number of names, >= 1.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (options, names or one name);
+ *         ::ELLIPSA_ERR_ARGUMENT (count < 1); ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_column_names(ellipsa_fit_options *options,
+                                                                const char *const *names,
+                                                                int64_t count);
+
+/**
+ * @brief MCD family: the fraction alpha in [0.5, 1] that sets h.
+ *
+ * MCD and DetMCD: h = floor(2*floor((n+p+1)/2) - n + 2*(n - floor((n+p+1)/2))*alpha);
+ * 0.5 (the default) gives the highest breakdown point, 1 uses every row.
+ * MRCD: h = ceil(alpha*n), default 0.75 (Boudt et al. 2020) until set.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT outside [0.5, 1].
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_alpha(ellipsa_fit_options *options,
+                                                         double alpha);
+
+/**
+ * @brief Seed of the methods that draw random numbers (FAST-MCD, mixtures).
+ *
+ * The same seed, data and options give bit-identical results on every run and
+ * platform with IEEE doubles.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_seed(ellipsa_fit_options *options,
+                                                        uint64_t seed);
+
+/**
+ * @brief Mixtures: the range of component counts to try, 1 <= k_min <= k_max.
+ *
+ * With k_min < k_max (or structure ::ELLIPSA_STRUCTURE_ALL) every candidate is
+ * fitted and the one with the lowest BIC is kept; the whole table is available
+ * from ellipsa_model_selection().
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_options *options,
+                                                              int32_t k_min, int32_t k_max);
+
+/**
+ * @brief Mixtures: covariance structure (ELLIPSA_STRUCTURE_ values).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_structure(ellipsa_fit_options *options,
+                                                             int32_t structure);
+
+/**
+ * @brief Mixtures: number of EM runs from different k-means++ starts (>= 1).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_restarts(ellipsa_fit_options *options,
+                                                            int32_t restarts);
+
+/**
+ * @brief Iterative methods: iteration cap (>= 1) and relative tolerance (> 0).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_options *options,
+                                                              int32_t max_iterations,
+                                                              double tolerance);
+
+/**
+ * @brief Mixtures: ridge added to every covariance diagonal, relative to the
+ *        mean column variance of the data (>= 0; default 1e-6).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_regularisation(ellipsa_fit_options *options,
+                                                                  double relative);
+
+/**
+ * @brief A progress callback for ellipsa_model_fit() (NULL removes it).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (options).
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_progress(ellipsa_fit_options *options,
+                                                            ellipsa_progress_fn callback,
+                                                            void *user);
+/** @} */
+
+/* ======================================================================== */
+/** @name Fitting
+ *  @{ */
+/** Opaque fitted model: read-only after creation, shareable between threads. */
+typedef struct ellipsa_model ellipsa_model;
+
+/**
+ * @brief Fits a model to the rows of data.
+ *
+ * Rows with NaN are handled as the options say (default: dropped and counted,
+ * see ellipsa_model_rows()). Infinite values are refused. The data are read
+ * during the call only.
+ *
+ * @param[out] out     The fitted model; destroy it with ellipsa_model_destroy().
+ *                     Set to NULL on failure.
+ * @param data         n x p view; p >= 1. Classical fits need n > p complete rows
+ *                     (shrinkage works for any p with n >= 2); the MCD and DetMCD
+ *                     need n > p (MRCD is for n <= p); mixtures need more complete
+ *                     rows than parameters.
+ * @param options      How to fit; not modified.
+ * @return ::ELLIPSA_OK;
+ *   ::ELLIPSA_ERR_NULL (out, data, options or data->data with a non-empty shape);
+ *   ::ELLIPSA_ERR_SHAPE (negative sizes or strides, column names that do not
+ *     match p, rows*cols overflowing);
+ *   ::ELLIPSA_ERR_ARGUMENT (a setting that does not apply to the method);
+ *   ::ELLIPSA_ERR_DATA (too few complete rows, an infinite value, an all-missing
+ *     or constant column: the message names the column);
+ *   ::ELLIPSA_NUM_SINGULAR (a covariance that is not positive definite: the
+ *     message names the columns involved and suggests shrinkage);
+ *   ::ELLIPSA_NUM_EXACT_FIT (MCD: at least h rows on a hyperplane; the message
+ *     gives the hyperplane);
+ *   ::ELLIPSA_NUM_NOT_CONVERGED (mixtures, when no candidate converged);
+ *   ::ELLIPSA_ERR_CANCELLED; ::ELLIPSA_ERR_MEMORY.
+ * Thread-safe for distinct options handles (and for one handle shared read-only).
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_fit(ellipsa_model **out, const ellipsa_matrix *data,
+                                             const ellipsa_fit_options *options);
+
+/** @brief Destroys a model; NULL is a no-op. */
+ELLIPSA_API void ellipsa_model_destroy(ellipsa_model *model);
+/** @} */
+
+/* ======================================================================== */
+/** @name Model queries
+ *  Read-only, thread-safe on a shared model. Matrices are written row-major
+ *  into caller buffers whose capacity (in elements) is passed and checked.
+ *  @{ */
+/** Kind of a model. */
+#define ELLIPSA_KIND_GAUSSIAN 1 /**< One location and scatter. */
+#define ELLIPSA_KIND_MIXTURE 2  /**< A Gaussian mixture. */
+
+/**
+ * @brief Kind (ELLIPSA_KIND_), method, dimension p and component count of a model.
+ *
+ * Any out-pointer may be NULL to skip it. A Gaussian model has 1 component.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (model).
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_describe(int32_t *kind, ellipsa_method *method,
+                                                  int64_t *dimension, int32_t *components,
+                                                  const ellipsa_model *model);
+
+/**
+ * @brief Rows of the fitting data: used by the fit, and dropped for missing values.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (model). NULL out-pointers are skipped.
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_rows(int64_t *used, int64_t *dropped,
+                                              const ellipsa_model *model);
+
+/**
+ * @brief Name of column j (0-based).
+ * @param[out] out A string owned by the model, valid while the model lives.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (j out of range).
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_column_name(const char **out, const ellipsa_model *model,
+                                                     int64_t j);
+
+/**
+ * @brief Location (p values) and scatter (p x p, row-major) of component k.
+ *
+ * For a Gaussian model k must be 0. For the MCD family these are the final
+ * (reweighted) estimates; raw ones come from ellipsa_model_raw_estimate().
+ * Either buffer may be NULL to skip it; weight may be NULL.
+ * @param[out] location         p doubles, or NULL.
+ * @param location_capacity     Elements available in location (>= p when not NULL).
+ * @param[out] scatter          p*p doubles, or NULL.
+ * @param scatter_capacity      Elements available in scatter (>= p*p when not NULL).
+ * @param[out] weight           Mixing weight (1 for a Gaussian model), or NULL.
+ * @param model                 The model.
+ * @param k                     Component, 0-based.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (model); ::ELLIPSA_ERR_ARGUMENT (k);
+ *         ::ELLIPSA_ERR_SHAPE (a capacity too small).
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_component(double *location, int64_t location_capacity,
+                                                   double *scatter, int64_t scatter_capacity,
+                                                   double *weight, const ellipsa_model *model,
+                                                   int32_t k);
+
+/**
+ * @brief MCD family: the raw (unreweighted, consistency-corrected) estimate.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (model); ::ELLIPSA_ERR_STATE (not an
+ *         MCD-family model); ::ELLIPSA_ERR_SHAPE (a capacity too small).
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_raw_estimate(double *location, int64_t location_capacity,
+                                                      double *scatter, int64_t scatter_capacity,
+                                                      const ellipsa_model *model);
+
+/**
+ * @brief A named number describing the fit.
+ *
+ * Names (each exists only for the methods listed; others give
+ * ::ELLIPSA_ERR_STATE): "shrinkage_intensity" (ledoit-wolf, oas, mrcd),
+ * "h", "consistency_factor", "reweight_factor", "raw_log_det" (mcd, detmcd,
+ * mrcd), "log_likelihood", "bic", "icl", "iterations", "converged",
+ * "parameters", "log_density_cutoff" (mixture), "log_det" (gaussian models),
+ * "divisor" (1 for n, 2 for n-1; classical).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (unknown name);
+ *         ::ELLIPSA_ERR_STATE (the name does not apply to this model).
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_diagnostic(double *out, const ellipsa_model *model,
+                                                    const char *name);
+
+/** Row sets recorded by a fit (indices are 0-based rows of the fitting data, NaN rows included in the count). */
+#define ELLIPSA_ROWS_H_SUBSET 1 /**< MCD family: the final h-subset. */
+#define ELLIPSA_ROWS_OUTLIERS 2 /**< MCD family: rows flagged by the reweighting rule. */
+#define ELLIPSA_ROWS_DROPPED 3  /**< Rows dropped for missing values. */
+
+/**
+ * @brief A set of fitting-data rows, ascending.
+ *
+ * Call with out = NULL to learn the count, then with a buffer.
+ * @param[out] out      Row indices, or NULL.
+ * @param capacity      Elements available in out.
+ * @param[out] count    Size of the set (always written on success).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (count, model); ::ELLIPSA_ERR_ARGUMENT
+ *         (unknown set); ::ELLIPSA_ERR_STATE (set not recorded by this method);
+ *         ::ELLIPSA_ERR_SHAPE (capacity too small; count is still written).
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_row_set(int64_t *out, int64_t capacity, int64_t *count,
+                                                 const ellipsa_model *model, int32_t which);
+
+/** One candidate of a mixture model choice. Grows only at the end. */
+typedef struct ellipsa_candidate {
+  int64_t struct_size;    /**< Set to sizeof(ellipsa_candidate) by the caller. */
+  int32_t components;     /**< K. */
+  int32_t structure;      /**< ELLIPSA_STRUCTURE_ value. */
+  double log_likelihood;  /**< Maximised log-likelihood (NaN if the fit failed). */
+  int64_t parameters;     /**< Free parameters. */
+  double bic;             /**< -2 logL + parameters * log n (lower is better). */
+  double icl;             /**< BIC plus the entropy term (lower is better). */
+  int32_t converged;      /**< 1 when EM met its tolerance. */
+  int32_t chosen;         /**< 1 for the candidate the model holds. */
+} ellipsa_candidate;
+
+/**
+ * @brief Mixtures: the model-choice table, one entry per candidate tried.
+ * @param[out] out      Array of capacity entries (each with struct_size set), or NULL.
+ * @param capacity      Entries available.
+ * @param[out] count    Number of candidates (always written on success).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_STATE (not a mixture);
+ *         ::ELLIPSA_ERR_SHAPE (capacity too small, or struct_size too small).
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_selection(ellipsa_candidate *out, int64_t capacity,
+                                                   int64_t *count, const ellipsa_model *model);
+/** @} */
+
+/* ======================================================================== */
+/** @name Scoring
+ *  @{ */
+/**
+ * @brief Caller-owned buffers that ellipsa_model_score() fills; NULL skips one.
+ *
+ * Initialise with ::ELLIPSA_SCORES_INIT (which sets struct_size), then point the
+ * wanted fields at buffers of the documented sizes for n scored rows, p
+ * variables and K components. Grows only at the end.
+ */
+typedef struct ellipsa_scores {
+  int64_t struct_size;        /**< sizeof(ellipsa_scores) as the caller compiled it. */
+  double *squared_distance;   /**< [n] squared Mahalanobis distance (mixture: to the most probable component). NaN when nothing is observed. */
+  double *p_value;            /**< [n] upper-tail chi-square probability of the distance with `observed` degrees of freedom. */
+  int32_t *flag;              /**< [n] 1 flagged, 0 not, -1 not scorable (no observed coordinate). */
+  int32_t *observed;          /**< [n] coordinates observed (the degrees of freedom used). */
+  double *contribution;       /**< [n*p] row-major: (x-T)_j (S^-1 (x-T))_j, summing to the distance; NaN for missing j. */
+  double *conditional_drop;   /**< [n*p] row-major: decrease of the distance when variable j is left out. */
+  int32_t *component;         /**< [n] mixtures: most probable component (0-based); Gaussian: 0. */
+  double *membership;         /**< [n*K] row-major: mixtures: posterior probabilities (rows sum to 1). */
+  double *log_density;        /**< [n] log-density of the row's observed coordinates under the model. */
+  int32_t *low_density;       /**< [n] mixtures: 1 when log_density < the model's "log_density_cutoff", 0 if not, -1 not scorable; Gaussian: same as flag. */
+} ellipsa_scores;
+
+/** Initialiser for ::ellipsa_scores: every buffer NULL. */
+#define ELLIPSA_SCORES_INIT \
+  { (int64_t)sizeof(ellipsa_scores), NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL, NULL }
+
+/**
+ * @brief Scores rows against a model.
+ *
+ * Gaussian models: the squared Mahalanobis distance d2 of each row from the
+ * location under the scatter (Cholesky solves, no inverse), its chi-square
+ * p-value with p degrees of freedom, a flag when d2 > chi2q(p, level), and the
+ * per-variable contributions. Rows with NaN coordinates are scored on the
+ * observed coordinates (the marginal Gaussian) with as many degrees of
+ * freedom as observed coordinates: nothing is imputed.
+ * Mixture models: memberships, most probable component, the log-density under
+ * the mixture, and the distance to the most probable component. `flag` applies
+ * the chi-square rule above to that distance (with that component's location
+ * and scatter); `low_density` applies the mixture-aware rule: the row's
+ * log-density is below the cutoff calibrated on the fitting rows at fit time
+ * (their lower 2.5% quantile; diagnostic "log_density_cutoff").
+ *
+ * @param[out] out  Buffers to fill (see ::ellipsa_scores); on failure their
+ *                  contents are unspecified.
+ * @param model     The model (read-only; may be shared by threads).
+ * @param data      n x p view with the model's p columns in the model's order.
+ * @param level     Flagging level in (0, 1), e.g. 0.975.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_SHAPE (column count,
+ *         negative sizes or strides, struct_size too small);
+ *         ::ELLIPSA_ERR_ARGUMENT (level); ::ELLIPSA_ERR_DATA (an infinite value);
+ *         ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_score(ellipsa_scores *out, const ellipsa_model *model,
+                                               const ellipsa_matrix *data, double level);
+/** @} */
+
+/* ======================================================================== */
+/** @name Model files
+ *  The model file is JSON (UTF-8), described in docs/model-format.md, with a
+ *  "format_version" field. Numbers are written with 17 significant digits, so
+ *  save -> load -> save gives identical bytes and identical scores.
+ *  @{ */
+/**
+ * @brief Serialises a model to JSON text.
+ * @param[out] text   NUL-terminated UTF-8, allocated by the library; free it with
+ *                    ellipsa_text_free().
+ * @param[out] length Bytes in text without the terminating NUL (may be NULL).
+ * @param model       The model.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_save(char **text, int64_t *length,
+                                              const ellipsa_model *model);
+
+/** @brief Frees text returned by the library; NULL is a no-op. */
+ELLIPSA_API void ellipsa_text_free(char *text);
+
+/**
+ * @brief Reads a model from JSON text written by ellipsa_model_save() (any binding).
+ *
+ * Everything is checked: format version, kind, method, dimensions, finite
+ * numbers, symmetric positive definite scatter matrices, weights summing to 1.
+ * @param[out] out  The model, or NULL on failure.
+ * @param text      The bytes (need not be NUL-terminated).
+ * @param length    Number of bytes, 0 < length <= 1 GiB.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (length);
+ *         ::ELLIPSA_ERR_FORMAT (the message says what is wrong and where);
+ *         ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_load(ellipsa_model **out, const char *text,
+                                              int64_t length);
+/** @} */
+
 #ifdef __cplusplus
 } /* extern "C" */
 #endif

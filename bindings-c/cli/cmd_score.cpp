@@ -1,0 +1,106 @@
+// ellipsa score: stream a CSV file through a model file, appending the scores
+// to every row. Memory stays bounded by the chunk size, whatever the file length.
+#include <sstream>
+
+#include "atomic_output.hpp"
+#include "commands.hpp"
+#include "csv_writer.hpp"
+
+namespace ellipsa::cli {
+namespace {
+
+struct ScoreArgs {
+  std::string model;
+  std::string data;
+  std::string output = "-";
+  double level = 0.975;
+  bool fail_on_flag = false;
+  DialectFlags dialect;
+  OutputFlags out;
+};
+
+constexpr std::size_t kChunkRows = 8192;
+
+}  // namespace
+
+Command add_score(CLI::App& parent) {
+  auto a = std::make_shared<ScoreArgs>();
+  CLI::App* app = parent.add_subcommand("score", "Score the rows of a CSV file against a model file");
+  app->add_option("model", a->model, "Model file written by 'ellipsa fit'")->required();
+  app->add_option("data", a->data, "CSV file to score ('-' reads standard input)")->required();
+  app->add_option("-o,--output", a->output, "Scored CSV to write (default: standard output)");
+  app->add_option("--level", a->level, "Flag rows whose distance exceeds this chi-square quantile")
+      ->capture_default_str();
+  app->add_flag("--fail-on-flag", a->fail_on_flag, "Exit with code 5 when any row is flagged");
+  add_dialect_flags(*app, a->dialect);
+  add_output_flags(*app, a->out);
+  return {app, [a]() {
+            if (a->out.json && a->output == "-")
+              throw CliError(kExitUsage, "--json prints the summary on standard output: give the scores a file with -o");
+            if (!(a->level > 0.0 && a->level < 1.0)) throw CliError(kExitUsage, "--level must lie in (0, 1)");
+            const ModelPtr model = load_model_file(a->model);
+            const ScoreColumns cols = score_columns(model.get());
+            CsvOptions options = a->dialect.to_options();
+            options.columns = model_columns(model.get());
+            options.keep_row_text = true;
+            CsvReader reader(a->data, options);
+            std::vector<std::string> header = reader.header();
+            header.insert(header.end(), cols.names.begin(), cols.names.end());
+
+            AtomicOutput out(a->output);
+            CsvWriteOptions wo;
+            wo.separator = reader.separator();
+            wo.decimal = options.decimal;
+            CsvWriter writer(out.stream(), wo);
+            writer.header(header);
+
+            CsvChunk chunk;
+            ScoreBlock block;
+            int64_t rows = 0, flagged = 0, unscorable = 0;
+            std::ostringstream first_flags;
+            int listed = 0;
+            while (reader.next_chunk(chunk, kChunkRows)) {
+              const auto x = ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()),
+                                                      static_cast<int64_t>(chunk.cols()));
+              block.score(model.get(), cols, x, a->level);
+              const auto p = static_cast<std::size_t>(cols.p);
+              for (std::size_t r = 0; r < chunk.rows(); ++r) {
+                writer.raw(chunk.row_text(r));
+                if (cols.kind == ELLIPSA_KIND_MIXTURE) {
+                  writer.integer(block.component[r] + 1);
+                  for (int32_t k = 0; k < cols.components; ++k)
+                    writer.number(block.membership[r * static_cast<std::size_t>(cols.components) + static_cast<std::size_t>(k)]);
+                  writer.number(block.log_density[r]).integer(block.low_density[r]);
+                }
+                writer.number(block.d2[r]).number(block.p_value[r]).integer(block.flag[r]).integer(block.observed[r]);
+                for (std::size_t j = 0; j < p; ++j) writer.number(block.contribution[r * p + j]);
+                writer.end_row();
+                const bool is_flagged = block.flag[r] == 1 ||
+                                        (cols.kind == ELLIPSA_KIND_MIXTURE && block.low_density[r] == 1);
+                if (is_flagged) {
+                  ++flagged;
+                  if (listed++ < 20)
+                    first_flags << "  line " << chunk.line(r) << ": squared distance " << block.d2[r]
+                                << "; most from " << top_contributors(block, cols, r, 3) << "\n";
+                }
+                if (block.flag[r] == -1) ++unscorable;
+              }
+              rows += static_cast<int64_t>(chunk.rows());
+            }
+            if (rows == 0) throw CliError(kExitData, reader.source_name() + ": the file has a header but no data rows");
+            writer.flush();
+            out.commit();
+            std::ostringstream human;
+            human << "scored " << rows << " rows; " << flagged << " flagged at level " << a->level;
+            if (unscorable > 0) human << "; " << unscorable << " rows with no observed value";
+            human << "\n" << first_flags.str();
+            if (flagged > 20) human << "  ... and " << flagged - 20 << " more\n";
+            if (a->output != "-") human << "scores written to " << a->output << "\n";
+            emit_summary(a->out, human.str(),
+                         {{"rows", rows}, {"flagged", flagged}, {"unscorable", unscorable},
+                          {"level", a->level}, {"output", a->output}});
+            return a->fail_on_flag && flagged > 0 ? static_cast<int>(kExitFlagged) : static_cast<int>(kExitOk);
+          }};
+}
+
+}  // namespace ellipsa::cli

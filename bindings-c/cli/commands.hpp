@@ -1,0 +1,60 @@
+// Registration of the subcommands. Each adds itself to the app and returns the
+// action main() runs when it was chosen.
+#pragma once
+#include <CLI/CLI.hpp>
+#include <functional>
+#include <string>
+#include <vector>
+
+#include "cli_common.hpp"
+
+namespace ellipsa::cli {
+
+using Action = std::function<int()>;
+
+struct Command {
+  CLI::App* app;
+  Action run;
+};
+
+Command add_fit(CLI::App& parent);
+Command add_score(CLI::App& parent);
+Command add_screen(CLI::App& parent);
+Command add_inspect(CLI::App& parent);
+
+// ---- pieces shared by fit and screen -------------------------------------
+struct FitFlags {
+  std::string method = "classical";
+  double alpha = 0.5;
+  std::uint64_t seed = 0;
+  std::string components = "1";
+  std::string structure = "full";
+  int restarts = 5;
+  std::string divisor = "n-1";
+  std::string missing = "drop";
+};
+void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method);
+OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& columns);
+void add_dialect_flags(CLI::App& app, DialectFlags& d);
+void add_output_flags(CLI::App& app, OutputFlags& o);
+
+// ---- scoring output shared by score and screen ---------------------------
+struct ScoreColumns {
+  int32_t kind = ELLIPSA_KIND_GAUSSIAN;
+  int64_t p = 0;
+  int32_t components = 1;
+  std::vector<std::string> names;  // appended output columns
+};
+ScoreColumns score_columns(const ellipsa_model* m);
+
+// Per-row scores of a block, owned buffers wired into an ellipsa_scores.
+struct ScoreBlock {
+  std::vector<double> d2, p_value, contribution, membership, log_density;
+  std::vector<int32_t> flag, observed, component, low_density;
+  void score(const ellipsa_model* m, const ScoreColumns& c, const ellipsa_matrix& x, double level);
+};
+
+// The variables that contribute most to row r's distance, as "name (share%)".
+std::string top_contributors(const ScoreBlock& b, const ScoreColumns& c, std::size_t r, int how_many);
+
+}  // namespace ellipsa::cli

@@ -1,0 +1,215 @@
+#include "csv_record_stream.hpp"
+
+#include <algorithm>
+#include <cstring>
+#include <utility>
+
+namespace ellipsa::cli::detail {
+namespace {
+
+constexpr std::size_t kMinimumBuffer = 4;  // room for a byte order mark
+
+std::string printable_char(char c) {
+  const auto u = static_cast<unsigned char>(c);
+  if (u >= 0x20 && u < 0x7f) return std::string(1, c);
+  static const char hex[] = "0123456789ABCDEF";
+  return std::string("\\x") + hex[u >> 4] + hex[u & 15];
+}
+
+}  // namespace
+
+RecordStream::RecordStream(CsvSource source, std::size_t buffer_size)
+    : source_(std::move(source)), buffer_(std::max(buffer_size, kMinimumBuffer)) {
+  set_separators(",");
+}
+
+void RecordStream::set_separators(std::string_view separators) {
+  separator_.fill(false);
+  stop_.fill(false);
+  for (char c : separators) {
+    separator_[static_cast<unsigned char>(c)] = true;
+    stop_[static_cast<unsigned char>(c)] = true;
+  }
+  stop_[static_cast<unsigned char>('\n')] = true;
+}
+
+RecordStream::Mark RecordStream::mark() {
+  if (!started_) start();
+  return {discarded_ + pos_, line_};
+}
+
+void RecordStream::reset(Mark mark) noexcept {
+  pos_ = static_cast<std::size_t>(mark.offset - discarded_);
+  line_ = mark.line;
+}
+
+void RecordStream::fail(std::int64_t line, std::size_t column, const std::string& message) const {
+  std::string column_name;
+  if (names_ != nullptr && column >= 1 && column <= names_->size()) column_name = (*names_)[column - 1];
+  throw CsvError(source_.name(), line, static_cast<std::int64_t>(column), column_name, message);
+}
+
+// Moves the unread tail to the front (or doubles the buffer when one record
+// fills all of it) and reads until the buffer is full or the input ends.
+void RecordStream::refill() {
+  if (pos_ > 0) {
+    std::memmove(buffer_.data(), buffer_.data() + pos_, filled_ - pos_);
+    filled_ -= pos_;
+    discarded_ += pos_;
+    pos_ = 0;
+  } else if (filled_ == buffer_.size()) {
+    buffer_.resize(buffer_.size() * 2);
+  }
+  while (filled_ < buffer_.size()) {
+    const std::size_t n = source_.read(buffer_.data() + filled_, buffer_.size() - filled_);
+    if (n == 0) {
+      eof_ = true;
+      break;
+    }
+    filled_ += n;
+  }
+}
+
+void RecordStream::start() {
+  started_ = true;
+  refill();
+  const auto* b = reinterpret_cast<const unsigned char*>(buffer_.data());
+  if (filled_ >= 3 && b[0] == 0xEF && b[1] == 0xBB && b[2] == 0xBF) {
+    pos_ = 3;  // UTF-8 byte order mark: not part of the first column name
+  } else if (filled_ >= 2 && ((b[0] == 0xFF && b[1] == 0xFE) || (b[0] == 0xFE && b[1] == 0xFF))) {
+    fail(1, 0, "the file is UTF-16 encoded; save it as UTF-8");
+  }
+}
+
+bool RecordStream::next(CsvRecord& record) {
+  if (!started_) start();
+  for (;;) {
+    if (pos_ == filled_) {
+      if (eof_) return false;
+      refill();
+      continue;
+    }
+    std::size_t record_end = 0, next_pos = 0;
+    std::int64_t lines_used = 0;
+    if (parse(record_end, next_pos, lines_used) == Parse::need_more) {
+      refill();
+      continue;
+    }
+    const char* b = buffer_.data();
+    record.line = line_;
+    record.text = std::string_view(b + pos_, record_end - pos_);
+    record.fields.resize(refs_.size());
+    for (std::size_t i = 0; i < refs_.size(); ++i) {
+      const FieldRef& r = refs_[i];
+      record.fields[i] = std::string_view((r.in_scratch ? scratch_.data() : b) + r.offset, r.length);
+    }
+    line_ += lines_used;
+    pos_ = next_pos;
+    return true;
+  }
+}
+
+// One record from pos_. Fields are recorded in refs_ (offsets, not pointers, as
+// scratch_ may move while it grows). need_more when the record (or the meaning
+// of its last byte) reaches past the data read so far.
+RecordStream::Parse RecordStream::parse(std::size_t& record_end, std::size_t& next_pos,
+                                        std::int64_t& lines_used) {
+  const char* b = buffer_.data();
+  const std::size_t n = filled_;
+  std::size_t i = pos_;
+  std::int64_t newlines = 0;
+  refs_.clear();
+  scratch_.clear();
+  for (;;) {
+    if (i < n && b[i] == '"') {
+      // Quoted field: runs to the next quote that is not doubled.
+      const std::int64_t quote_line = line_ + newlines;
+      const std::size_t open = i;
+      std::size_t segment = i + 1;
+      std::size_t scratch_start = scratch_.size();
+      bool escaped = false;
+      std::size_t close = 0;
+      for (std::size_t j = segment;;) {
+        const void* q = j < n ? std::memchr(b + j, '"', n - j) : nullptr;
+        if (q == nullptr) {
+          if (!eof_) return Parse::need_more;
+          fail(quote_line, refs_.size() + 1, "quoted field is not closed before the end of the file");
+        }
+        const std::size_t at = static_cast<std::size_t>(static_cast<const char*>(q) - b);
+        if (at + 1 == n && !eof_) return Parse::need_more;  // "" or closing? next byte decides
+        if (at + 1 < n && b[at + 1] == '"') {
+          escaped = true;
+          scratch_.append(b + segment, at + 1 - segment);  // keeps one quote
+          segment = j = at + 2;
+          continue;
+        }
+        close = at;
+        break;
+      }
+      newlines += std::count(b + open + 1, b + close, '\n');
+      if (escaped) {
+        scratch_.append(b + segment, close - segment);
+        refs_.push_back({scratch_start, scratch_.size() - scratch_start, true});
+      } else {
+        refs_.push_back({open + 1, close - open - 1, false});
+      }
+      i = close + 1;
+      if (i == n) {
+        if (!eof_) return Parse::need_more;
+        record_end = next_pos = n;
+        break;
+      }
+      const char c = b[i];
+      if (separator_[static_cast<unsigned char>(c)]) {
+        ++i;
+        continue;
+      }
+      if (c == '\n') {
+        record_end = i;
+        next_pos = i + 1;
+        ++newlines;
+        break;
+      }
+      if (c == '\r') {
+        if (i + 1 == n) {
+          if (!eof_) return Parse::need_more;
+          record_end = i;
+          next_pos = n;
+          break;
+        }
+        if (b[i + 1] == '\n') {
+          record_end = i;
+          next_pos = i + 2;
+          ++newlines;
+          break;
+        }
+      }
+      fail(line_ + newlines, refs_.size(),
+           "unexpected character '" + printable_char(c) + "' after the closing quote");
+    }
+    // Unquoted field: runs to a separator or the end of the line.
+    const std::size_t start = i;
+    while (i < n && !stop_[static_cast<unsigned char>(b[i])]) ++i;
+    if (i < n && b[i] != '\n') {  // separator
+      refs_.push_back({start, i - start, false});
+      ++i;
+      continue;
+    }
+    if (i == n && !eof_) return Parse::need_more;
+    std::size_t end = i;
+    if (end > start && b[end - 1] == '\r') --end;  // CRLF, or a lone CR before end of file
+    refs_.push_back({start, end - start, false});
+    record_end = end;
+    if (i < n) {
+      next_pos = i + 1;
+      ++newlines;
+    } else {
+      next_pos = n;
+    }
+    break;
+  }
+  lines_used = newlines;
+  return Parse::complete;
+}
+
+}  // namespace ellipsa::cli::detail

@@ -1,0 +1,140 @@
+#include "csv_writer.hpp"
+
+#include <cerrno>
+#include <charconv>
+#include <cmath>
+#include <cstring>
+#include <stdexcept>
+
+#include "atomic_output.hpp"
+
+namespace ellipsa::cli {
+namespace {
+
+constexpr std::size_t kDrainSize = std::size_t{1} << 16;
+
+std::size_t append_number(char* out, double value, char decimal) {
+  // 32 bytes hold the longest shortest form, e.g. -2.2250738585072014e-308.
+  const auto [end, ec] = std::to_chars(out, out + 32, value);
+  (void)ec;
+  const std::size_t n = static_cast<std::size_t>(end - out);
+  if (decimal != '.')
+    for (std::size_t i = 0; i < n; ++i)
+      if (out[i] == '.') out[i] = decimal;
+  return n;
+}
+
+}  // namespace
+
+CsvWriter::CsvWriter(std::FILE* out, CsvWriteOptions options) : out_(out), options_(std::move(options)) {
+  const char s = options_.separator;
+  if (s != ',' && s != ';' && s != '\t') throw std::invalid_argument("CSV separator must be ',', ';' or tab");
+  if (options_.decimal != '.' && options_.decimal != ',')
+    throw std::invalid_argument("decimal mark must be '.' or ','");
+  if (options_.decimal == ',' && s == ',')
+    throw std::invalid_argument("with decimal comma the separator must be ';' or tab");
+  buffer_.reserve(kDrainSize + 4096);
+}
+
+CsvWriter::~CsvWriter() {
+  if (!buffer_.empty() && out_ != nullptr) std::fwrite(buffer_.data(), 1, buffer_.size(), out_);
+}
+
+void CsvWriter::begin_field() {
+  if (fields_in_row_++ > 0) buffer_ += options_.separator;
+}
+
+void CsvWriter::header(std::span<const std::string> names) {
+  for (const std::string& name : names) text(name);
+  end_row();
+}
+
+CsvWriter& CsvWriter::text(std::string_view field) {
+  begin_field();
+  const char specials[] = {options_.separator, '"', '\n', '\r'};
+  if (field.find_first_of(std::string_view(specials, 4)) == std::string_view::npos) {
+    buffer_.append(field);
+  } else {
+    buffer_ += '"';
+    for (char c : field) {
+      if (c == '"') buffer_ += '"';
+      buffer_ += c;
+    }
+    buffer_ += '"';
+  }
+  last_field_empty_ = field.empty();
+  drain_if_full();
+  return *this;
+}
+
+CsvWriter& CsvWriter::number(double value) {
+  if (std::isnan(value)) return missing();
+  begin_field();
+  char digits[32];
+  buffer_.append(digits, append_number(digits, value, options_.decimal));
+  last_field_empty_ = false;
+  drain_if_full();
+  return *this;
+}
+
+CsvWriter& CsvWriter::integer(std::int64_t value) {
+  begin_field();
+  char digits[24];
+  const auto [end, ec] = std::to_chars(digits, digits + sizeof digits, value);
+  (void)ec;
+  buffer_.append(digits, end);
+  last_field_empty_ = false;
+  drain_if_full();
+  return *this;
+}
+
+CsvWriter& CsvWriter::missing() {
+  begin_field();
+  buffer_ += options_.missing;
+  last_field_empty_ = options_.missing.empty();
+  drain_if_full();
+  return *this;
+}
+
+CsvWriter& CsvWriter::raw(std::string_view fields) {
+  begin_field();
+  buffer_.append(fields);
+  last_field_empty_ = fields.empty();
+  drain_if_full();
+  return *this;
+}
+
+void CsvWriter::end_row() {
+  // A row of one empty field would be a blank line, which readers skip at the
+  // end of a file; the quotes keep the row.
+  if (fields_in_row_ == 1 && last_field_empty_) buffer_ += "\"\"";
+  buffer_ += options_.crlf ? "\r\n" : "\n";
+  fields_in_row_ = 0;
+  drain_if_full();
+}
+
+void CsvWriter::drain_if_full() {
+  if (buffer_.size() >= kDrainSize) write_buffer();
+}
+
+void CsvWriter::write_buffer() {
+  if (buffer_.empty()) return;
+  if (std::fwrite(buffer_.data(), 1, buffer_.size(), out_) != buffer_.size()) {
+    buffer_.clear();
+    throw OutputError(std::string("cannot write output: ") + std::strerror(errno));
+  }
+  buffer_.clear();
+}
+
+void CsvWriter::flush() {
+  write_buffer();
+  if (std::fflush(out_) != 0) throw OutputError(std::string("cannot write output: ") + std::strerror(errno));
+}
+
+std::string CsvWriter::format_number(double value, char decimal, std::string_view missing) {
+  if (std::isnan(value)) return std::string(missing);
+  char digits[32];
+  return std::string(digits, append_number(digits, value, decimal));
+}
+
+}  // namespace ellipsa::cli

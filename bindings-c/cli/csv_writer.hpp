@@ -1,0 +1,69 @@
+// CSV output that the reader (and spreadsheets, R, NumPy) read back exactly:
+// numbers in the shortest form that round-trips (std::to_chars), fields quoted
+// only when they hold the separator, a quote, CR or LF, and "\n" line ends
+// unless CRLF is asked for.
+//
+// Usage:
+//   CsvWriter w(out.stream(), {.separator = ','});
+//   w.header(names);
+//   w.raw(chunk.row_text(r)).number(d2).text("flagged").end_row();
+//   w.flush();   // then AtomicOutput::commit()
+#pragma once
+
+#include <cstdint>
+#include <cstdio>
+#include <span>
+#include <string>
+#include <string_view>
+
+namespace ellipsa::cli {
+
+struct CsvWriteOptions {
+  char separator = ',';        ///< ',', ';' or '\t'
+  char decimal = '.';          ///< '.' or ',' (then the separator cannot be ',')
+  bool crlf = false;           ///< "\r\n" line ends instead of "\n"
+  std::string missing = "NA";  ///< written for NaN (one of the reader's missing markers)
+};
+
+class CsvWriter {
+ public:
+  /// `out` stays owned by the caller. Throws std::invalid_argument on bad options.
+  explicit CsvWriter(std::FILE* out, CsvWriteOptions options = {});
+  /// Writes what is still buffered, ignoring errors: call flush() to see them.
+  ~CsvWriter();
+  CsvWriter(const CsvWriter&) = delete;
+  CsvWriter& operator=(const CsvWriter&) = delete;
+
+  /// One row of names.
+  void header(std::span<const std::string> names);
+  /// A text field, quoted when needed.
+  CsvWriter& text(std::string_view field);
+  /// A number (shortest round-trip form; NaN as options.missing; +-inf as inf/-inf).
+  CsvWriter& number(double value);
+  CsvWriter& integer(std::int64_t value);
+  /// options.missing.
+  CsvWriter& missing();
+  /// One or more fields already in the output dialect (e.g. CsvChunk::row_text
+  /// of an input read with the same separator), copied unchanged.
+  CsvWriter& raw(std::string_view fields);
+  void end_row();
+  /// Passes everything to the stream and flushes it. Throws OutputError.
+  void flush();
+
+  char separator() const noexcept { return options_.separator; }
+  /// The text number() writes for `value`.
+  static std::string format_number(double value, char decimal = '.', std::string_view missing = "NA");
+
+ private:
+  void begin_field();
+  void drain_if_full();
+  void write_buffer();
+
+  std::FILE* out_;
+  CsvWriteOptions options_;
+  std::string buffer_;
+  std::size_t fields_in_row_ = 0;
+  bool last_field_empty_ = false;
+};
+
+}  // namespace ellipsa::cli

@@ -1,0 +1,93 @@
+// The MCD-family fit path: options -> FAST-MCD / DetMCD / MRCD -> model. An
+// exact fit cannot become a usable model (its scatter is singular), so it is
+// returned as ELLIPSA_NUM_EXACT_FIT with the hyperplane spelled out.
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+
+#include "boundary.hpp"
+#include "core/error.hpp"
+#include "core/mcd_deterministic.hpp"
+#include "core/mcd_fast.hpp"
+#include "core/mcd_regularised.hpp"
+#include "fit_common.hpp"
+
+namespace ellipsa::capi {
+namespace {
+
+std::string hyperplane_text(const core::RobustFit& r, const std::vector<std::string>& names, int64_t n) {
+  std::string s = std::to_string(r.hyperplane.rows_on) + " of " + std::to_string(n) +
+                  " rows lie on the hyperplane";
+  char buf[64];
+  bool first = true;
+  for (Eigen::Index j = 0; j < r.hyperplane.normal.size(); ++j) {
+    const double a = r.hyperplane.normal(j);
+    if (std::abs(a) < 1e-12) continue;
+    std::snprintf(buf, sizeof buf, "%s%.6g*", first ? " " : (a < 0 ? " - " : " + "), first ? a : std::abs(a));
+    s += buf;
+    s += "\"" + names[static_cast<size_t>(j)] + "\"";
+    first = false;
+  }
+  std::snprintf(buf, sizeof buf, " = %.6g", r.hyperplane.offset);
+  s += buf;
+  return s + " (at least h = " + std::to_string(r.h) +
+         "): the MCD scatter is singular there. Inspect or remove those rows, or use method mrcd.";
+}
+
+std::vector<int64_t> original_rows(const std::vector<core::Index>& rows, const PreparedData& d) {
+  std::vector<int64_t> out;
+  out.reserve(rows.size());
+  for (auto r : rows) out.push_back(d.kept_rows[static_cast<size_t>(r)]);
+  std::sort(out.begin(), out.end());
+  return out;
+}
+
+core::RobustFit run(const PreparedData& d, const ellipsa_fit_options& o) {
+  const core::DataView x = d.used();
+  if (o.method == ELLIPSA_METHOD_MCD) {
+    core::FastMcdOptions f;
+    f.alpha = o.alpha;
+    f.seed = o.seed;
+    f.progress = progress_of(o);
+    return core::fast_mcd(x, f);
+  }
+  if (o.method == ELLIPSA_METHOD_DETMCD) {
+    core::DetMcdOptions f;
+    f.alpha = o.alpha;
+    f.progress = progress_of(o);
+    return core::det_mcd(x, f);
+  }
+  core::MrcdOptions f;
+  if (o.alpha_set) f.alpha = o.alpha;
+  f.progress = progress_of(o);
+  return core::mrcd(x, f);
+}
+
+}  // namespace
+
+void fit_robust(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_options& o) {
+  const core::RobustFit r = run(d, o);
+  if (r.exact_fit)
+    throw core::Error(core::ErrorKind::ExactFit, hyperplane_text(r, m.columns, d.used().rows()));
+  RobustPart part;
+  part.h = r.h;
+  part.raw_location = r.raw_location;
+  part.raw_scatter = r.raw_scatter;
+  part.h_subset_rows = original_rows(r.h_subset, d);
+  std::vector<core::Index> flagged;
+  for (size_t i = 0; i < r.outlier.size(); ++i)
+    if (r.outlier[i]) flagged.push_back(static_cast<core::Index>(i));
+  part.outlier_rows = original_rows(flagged, d);
+  part.consistency_factor = r.consistency_factor;
+  part.reweight_factor = r.reweight_factor;
+  part.raw_log_det = r.raw_log_det;
+  if (o.method == ELLIPSA_METHOD_MRCD) {
+    part.regularisation = r.rho;
+    part.regularisation_target = r.target;
+    m.shrinkage_intensity = r.rho;
+  }
+  m.components.push_back({1.0, r.location, r.scatter, {}});
+  m.robust = std::move(part);
+}
+
+}  // namespace ellipsa::capi

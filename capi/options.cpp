@@ -1,0 +1,191 @@
+// Fit options: creation, typed setters and method names.
+#include "options.hpp"
+
+#include <cmath>
+#include <cstring>
+#include <new>
+
+#include "boundary.hpp"
+
+using ellipsa::capi::guard;
+using ellipsa::capi::Misuse;
+using ellipsa::capi::require_not_null;
+
+namespace ellipsa::capi {
+namespace {
+struct MethodName {
+  ellipsa_method method;
+  const char* name;
+};
+constexpr MethodName kMethodNames[] = {
+    {ELLIPSA_METHOD_CLASSICAL, "classical"}, {ELLIPSA_METHOD_LEDOIT_WOLF, "ledoit-wolf"},
+    {ELLIPSA_METHOD_OAS, "oas"},             {ELLIPSA_METHOD_MCD, "mcd"},
+    {ELLIPSA_METHOD_DETMCD, "detmcd"},       {ELLIPSA_METHOD_MRCD, "mrcd"},
+    {ELLIPSA_METHOD_MIXTURE, "mixture"}};
+}  // namespace
+
+bool is_known_method(ellipsa_method m) {
+  for (const auto& e : kMethodNames)
+    if (e.method == m) return true;
+  return false;
+}
+
+const char* method_name(ellipsa_method m) {
+  for (const auto& e : kMethodNames)
+    if (e.method == m) return e.name;
+  return "unknown";
+}
+
+bool method_from_name(const char* name, ellipsa_method* out) {
+  for (const auto& e : kMethodNames)
+    if (std::strcmp(e.name, name) == 0) {
+      *out = e.method;
+      return true;
+    }
+  return false;
+}
+}  // namespace ellipsa::capi
+
+namespace {
+template <class F>
+ellipsa_status set(const char* fn, ellipsa_fit_options* o, F&& f) {
+  return guard(fn, [&] {
+    require_not_null(o, "options");
+    f(*o);
+    return ELLIPSA_OK;
+  });
+}
+[[noreturn]] void bad(const char* message) { throw Misuse{ELLIPSA_ERR_ARGUMENT, message}; }
+}  // namespace
+
+extern "C" {
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_create(ellipsa_fit_options** out, ellipsa_method method) {
+  return guard("ellipsa_fit_options_create", [&] {
+    require_not_null(out, "out");
+    if (!ellipsa::capi::is_known_method(method)) bad("unknown method");
+    auto* o = new ellipsa_fit_options();
+    o->method = method;
+    *out = o;
+    return ELLIPSA_OK;
+  });
+}
+
+ELLIPSA_API void ellipsa_fit_options_destroy(ellipsa_fit_options* options) { delete options; }
+
+ELLIPSA_API ellipsa_status ellipsa_method_from_name(ellipsa_method* out, const char* name) {
+  return guard("ellipsa_method_from_name", [&] {
+    require_not_null(out, "out");
+    require_not_null(name, "name");
+    ellipsa_method m{};
+    if (!ellipsa::capi::method_from_name(name, &m))
+      throw Misuse{ELLIPSA_ERR_ARGUMENT,
+                   std::string("unknown method '") + name +
+                       "' (known: classical, ledoit-wolf, oas, mcd, detmcd, mrcd, mixture)"};
+    *out = m;
+    return ELLIPSA_OK;
+  });
+}
+
+ELLIPSA_API const char* ellipsa_method_name(ellipsa_method method) {
+  return ellipsa::capi::method_name(method);
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_divisor(ellipsa_fit_options* o, int32_t divisor) {
+  return set("ellipsa_fit_options_set_divisor", o, [&](ellipsa_fit_options& x) {
+    if (divisor != ELLIPSA_DIVISOR_N && divisor != ELLIPSA_DIVISOR_N_MINUS_1)
+      bad("divisor must be ELLIPSA_DIVISOR_N or ELLIPSA_DIVISOR_N_MINUS_1");
+    x.divisor = divisor;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_missing(ellipsa_fit_options* o, int32_t policy) {
+  return set("ellipsa_fit_options_set_missing", o, [&](ellipsa_fit_options& x) {
+    if (policy != ELLIPSA_MISSING_DROP_ROWS && policy != ELLIPSA_MISSING_REFUSE &&
+        policy != ELLIPSA_MISSING_EM)
+      bad("unknown missing-value policy");
+    if (policy == ELLIPSA_MISSING_EM && x.method != ELLIPSA_METHOD_MIXTURE)
+      bad("ELLIPSA_MISSING_EM applies to mixtures only");
+    x.missing = policy;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_column_names(ellipsa_fit_options* o,
+                                                                const char* const* names, int64_t count) {
+  return set("ellipsa_fit_options_set_column_names", o, [&](ellipsa_fit_options& x) {
+    require_not_null(names, "names");
+    if (count < 1) bad("count must be at least 1");
+    std::vector<std::string> copy;
+    copy.reserve(static_cast<size_t>(count));
+    for (int64_t j = 0; j < count; ++j) {
+      if (names[j] == nullptr)
+        throw Misuse{ELLIPSA_ERR_NULL, "names[" + std::to_string(j) + "] is NULL"};
+      copy.emplace_back(names[j]);
+    }
+    x.column_names = std::move(copy);
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_alpha(ellipsa_fit_options* o, double alpha) {
+  return set("ellipsa_fit_options_set_alpha", o, [&](ellipsa_fit_options& x) {
+    if (!(alpha >= 0.5 && alpha <= 1.0)) bad("alpha must lie in [0.5, 1]");
+    x.alpha = alpha;
+    x.alpha_set = true;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_seed(ellipsa_fit_options* o, uint64_t seed) {
+  return set("ellipsa_fit_options_set_seed", o, [&](ellipsa_fit_options& x) { x.seed = seed; });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_options* o, int32_t k_min,
+                                                              int32_t k_max) {
+  return set("ellipsa_fit_options_set_components", o, [&](ellipsa_fit_options& x) {
+    if (k_min < 1 || k_max < k_min) bad("components need 1 <= k_min <= k_max");
+    if (k_max > 100) bad("k_max above 100 is not supported");
+    x.k_min = k_min;
+    x.k_max = k_max;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_structure(ellipsa_fit_options* o, int32_t structure) {
+  return set("ellipsa_fit_options_set_structure", o, [&](ellipsa_fit_options& x) {
+    if (structure < ELLIPSA_STRUCTURE_FULL || structure > ELLIPSA_STRUCTURE_ALL)
+      bad("unknown covariance structure");
+    x.structure = structure;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_restarts(ellipsa_fit_options* o, int32_t restarts) {
+  return set("ellipsa_fit_options_set_restarts", o, [&](ellipsa_fit_options& x) {
+    if (restarts < 1 || restarts > 10000) bad("restarts must lie in [1, 10000]");
+    x.restarts = restarts;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_options* o,
+                                                              int32_t max_iterations, double tolerance) {
+  return set("ellipsa_fit_options_set_iterations", o, [&](ellipsa_fit_options& x) {
+    if (max_iterations < 1) bad("max_iterations must be at least 1");
+    if (!(tolerance > 0.0 && std::isfinite(tolerance))) bad("tolerance must be finite and positive");
+    x.max_iterations = max_iterations;
+    x.tolerance = tolerance;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_regularisation(ellipsa_fit_options* o, double relative) {
+  return set("ellipsa_fit_options_set_regularisation", o, [&](ellipsa_fit_options& x) {
+    if (!(relative >= 0.0 && std::isfinite(relative))) bad("regularisation must be finite and >= 0");
+    x.regularisation = relative;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_progress(ellipsa_fit_options* o,
+                                                            ellipsa_progress_fn callback, void* user) {
+  return set("ellipsa_fit_options_set_progress", o, [&](ellipsa_fit_options& x) {
+    x.progress = callback;
+    x.progress_user = user;
+  });
+}
+
+}  // extern "C"

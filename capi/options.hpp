@@ -1,0 +1,30 @@
+// The fit options handle behind the opaque ellipsa_fit_options.
+#pragma once
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "ellipsa.h"
+
+struct ellipsa_fit_options {
+  ellipsa_method method = ELLIPSA_METHOD_CLASSICAL;
+  int32_t divisor = ELLIPSA_DIVISOR_N_MINUS_1;
+  int32_t missing = ELLIPSA_MISSING_DROP_ROWS;
+  std::vector<std::string> column_names;
+  double alpha = 0.5;
+  bool alpha_set = false;  // MRCD's own default (0.75, Boudt et al. 2020) applies until set
+  uint64_t seed = 0;
+  int32_t k_min = 1;
+  int32_t k_max = 1;
+  int32_t structure = ELLIPSA_STRUCTURE_FULL;
+  int32_t restarts = 5;
+  int32_t max_iterations = 500;
+  double tolerance = 1e-8;
+  double regularisation = 1e-6;
+  ellipsa_progress_fn progress = nullptr;
+  void* progress_user = nullptr;
+};
+
+namespace ellipsa::capi {
+bool is_known_method(ellipsa_method m);
+}

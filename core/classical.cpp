@@ -1,0 +1,93 @@
+#include "classical.hpp"
+
+#include <cmath>
+#include <string>
+
+#include "error.hpp"
+#include "missing.hpp"
+
+namespace ellipsa::core {
+namespace {
+
+void check_shape(DataView x) {
+  if (x.cols() < 1) throw Error(ErrorKind::Shape, "classical estimate: no columns");
+  if (x.rows() < 2)
+    throw Error(ErrorKind::Data, "classical estimate: needs at least 2 rows, got " +
+                                     std::to_string(x.rows()));
+  require_finite(x, "classical estimate");
+}
+
+// A column is constant when every used row holds the same value. Tested on the
+// data, not on the variance: rounding in the mean can leave a constant column
+// with a variance of order (eps * value)^2 instead of an exact zero.
+void check_not_constant(DataView x, const double* w) {
+  for (Index j = 0; j < x.cols(); ++j) {
+    bool seen = false, varies = false;
+    double first = 0.0;
+    for (Index i = 0; i < x.rows() && !varies; ++i) {
+      if (w && !(w[i] > 0.0)) continue;
+      if (!seen) { first = x(i, j); seen = true; }
+      else varies = x(i, j) != first;
+    }
+    if (!varies)
+      throw Error(ErrorKind::Data, "classical estimate: column " + std::to_string(j) +
+                                       " (0-based) is constant (zero variance)");
+  }
+}
+
+ClassicalEstimate finish(const MomentAccumulator& acc, Normalisation norm, Index p) {
+  if (acc.rows() <= p)
+    throw Error(ErrorKind::Data,
+                "classical estimate: " + std::to_string(acc.rows()) + " rows for " +
+                    std::to_string(p) +
+                    " columns; with n <= p the covariance is singular, use a shrinkage "
+                    "estimate (Ledoit-Wolf or OAS) instead");
+  ClassicalEstimate out;
+  out.mean = acc.mean();
+  out.covariance = acc.covariance(norm);
+  // The data were checked for constant columns, so a zero (or infinite) variance
+  // here is a variance outside the range of double: values of order 1e-160 and
+  // below underflow when squared, values above 1e154 overflow.
+  for (Index j = 0; j < p; ++j)
+    if (!(out.covariance(j, j) > 0.0 && std::isfinite(out.covariance(j, j))))
+      throw Error(ErrorKind::Data, "classical estimate: the variance of column " + std::to_string(j) +
+                                       " (0-based) underflows or overflows double precision; rescale the data");
+  out.normalisation = norm;
+  out.weight_sum = acc.weight_sum();
+  out.rows = acc.rows();
+  return out;
+}
+
+}  // namespace
+
+ClassicalEstimate classical_estimate(DataView x, Normalisation norm) {
+  check_shape(x);
+  check_not_constant(x, nullptr);
+  MomentAccumulator acc(x.cols());
+  acc.add(x);
+  return finish(acc, norm, x.cols());
+}
+
+ClassicalEstimate classical_estimate(DataView x, const Eigen::Ref<const Eigen::VectorXd>& w,
+                                     Normalisation norm) {
+  if (w.size() != x.rows())
+    throw Error(ErrorKind::Shape, "classical estimate: " + std::to_string(w.size()) +
+                                      " weights for " + std::to_string(x.rows()) + " rows");
+  check_shape(x);
+  for (Index i = 0; i < w.size(); ++i)
+    if (!(std::isfinite(w(i)) && w(i) >= 0.0))
+      throw Error(ErrorKind::Argument, "classical estimate: weight of row " + std::to_string(i) +
+                                           " (0-based) is negative or not finite");
+  const double total = w.sum();
+  if (!(total > 0.0)) throw Error(ErrorKind::Data, "classical estimate: the weights sum to zero");
+  if (norm == Normalisation::ByCountMinusOne && !(total > 1.0))
+    throw Error(ErrorKind::Data,
+                "classical estimate: unbiased (frequency-weight) covariance needs a weight sum above 1");
+  const Eigen::VectorXd wc = w;
+  check_not_constant(x, wc.data());
+  MomentAccumulator acc(x.cols());
+  acc.add(x, w);
+  return finish(acc, norm, x.cols());
+}
+
+}  // namespace ellipsa::core

@@ -1,0 +1,35 @@
+// Classical (sample) mean and covariance with the input checks a caller needs:
+// the estimate is only computed when it exists and can be factored in principle.
+// The arithmetic is MomentAccumulator's (two passes per chunk, pairwise merges),
+// so data with a large offset keep their digits.
+#pragma once
+#include <Eigen/Core>
+
+#include "data_view.hpp"
+#include "moments.hpp"
+
+namespace ellipsa::core {
+
+struct ClassicalEstimate {
+  Eigen::VectorXd mean;
+  // Divisor: sum of weights (ByCount, the maximum-likelihood estimate) or
+  // sum of weights - 1 (ByCountMinusOne, unbiased; for weights: frequency weights).
+  Eigen::MatrixXd covariance;
+  Normalisation normalisation = Normalisation::ByCountMinusOne;
+  double weight_sum = 0.0;  // n when unweighted
+  Index rows = 0;           // rows that entered (weight > 0)
+};
+
+// Throws Error(Data) when: fewer than 2 rows; any entry NaN or +-Inf (select
+// complete rows first, see missing.hpp); n <= p (the covariance is singular: the
+// message points to shrinkage); a column is constant (zero variance, named).
+ClassicalEstimate classical_estimate(DataView x, Normalisation norm);
+
+// Weighted version: w(i) >= 0 and finite (else Error(Argument) naming the row),
+// one weight per row (else Error(Shape)); the weight sum must be positive, and
+// above 1 for ByCountMinusOne (Error(Data)). Rows with weight 0 do not count
+// towards n in the n <= p check.
+ClassicalEstimate classical_estimate(DataView x, const Eigen::Ref<const Eigen::VectorXd>& w,
+                                     Normalisation norm);
+
+}  // namespace ellipsa::core

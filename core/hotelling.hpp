@@ -1,0 +1,34 @@
+// Hotelling T^2: control limits for individual observations and the
+// one-sample test of a hypothesised mean.
+#pragma once
+#include <Eigen/Core>
+
+#include "data_view.hpp"
+
+namespace ellipsa::core {
+
+// Tracy, Young & Mason (1992), J. Quality Technology 24, 88-95: upper control
+// limits for T^2 = (x - xbar)' S^-1 (x - xbar) of individual observations, with
+// xbar, S (divisor m-1) from m reference rows of p variables, false-alarm
+// probability alpha in (0, 1).
+// Phase I (a row that was one of the m): UCL = ((m-1)^2/m) BetaQ(1-alpha; p/2, (m-p-1)/2);
+// needs m > p + 1. Phase II (a new row): UCL = p(m+1)(m-1)/(m(m-p)) FQ(1-alpha; p, m-p);
+// needs m > p. Throws Error(Argument) otherwise.
+double t2_phase1_limit(Index m, Index p, double alpha);
+double t2_phase2_limit(Index m, Index p, double alpha);
+
+struct OneSampleT2 {
+  Eigen::VectorXd mean;        // sample mean
+  Eigen::MatrixXd covariance;  // divisor n-1
+  double t2 = 0.0;             // n (xbar - mu0)' S^-1 (xbar - mu0)
+  double f = 0.0;              // (n-p)/((n-1)p) T^2 ~ F(p, n-p) under H0
+  double df1 = 0.0, df2 = 0.0; // p, n-p
+  double p_value = 0.0;        // P(F(p, n-p) > f)
+};
+
+// One-sample Hotelling T^2 test of H0: E x = mu0 (Hotelling 1931). x must be
+// finite (Error(Data)), n > p (Error(Data)), mu0 of length p (Error(Shape));
+// Error(Singular) when S is not positive definite.
+OneSampleT2 one_sample_t2(DataView x, const Eigen::VectorXd& mu0);
+
+}  // namespace ellipsa::core

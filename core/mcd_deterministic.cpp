@@ -1,0 +1,206 @@
+#include "mcd_deterministic.hpp"
+
+#include <Eigen/Eigenvalues>
+#include <algorithm>
+#include <boost/math/distributions/normal.hpp>
+#include <cmath>
+#include <numeric>
+#include <optional>
+
+#include "error.hpp"
+#include "mcd_fast.hpp"
+#include "robust_scale.hpp"
+
+namespace ellipsa::core {
+namespace mcd_detail {
+namespace {
+
+Eigen::MatrixXd correlation(const Eigen::MatrixXd& y) {
+  Eigen::MatrixXd c = y.rowwise() - y.colwise().mean();
+  Eigen::MatrixXd s = c.transpose() * c;
+  const Eigen::VectorXd sd = s.diagonal().cwiseSqrt();
+  for (Index j = 0; j < s.cols(); ++j)
+    for (Index i = 0; i < s.rows(); ++i)
+      s(i, j) = (sd(i) > 0.0 && sd(j) > 0.0) ? s(i, j) / (sd(i) * sd(j)) : (i == j ? 1.0 : 0.0);
+  return s;
+}
+
+// Ranks 1..n with average ranks for ties (a function of the values only).
+Eigen::VectorXd ranks(const Eigen::VectorXd& v) {
+  const Index n = v.size();
+  std::vector<Index> order(static_cast<std::size_t>(n));
+  std::iota(order.begin(), order.end(), Index{0});
+  std::sort(order.begin(), order.end(), [&v](Index a, Index b) { return v(a) < v(b); });
+  Eigen::VectorXd r(n);
+  for (Index i = 0; i < n;) {
+    Index j = i;
+    while (j + 1 < n && v(order[static_cast<std::size_t>(j + 1)]) == v(order[static_cast<std::size_t>(i)])) ++j;
+    const double avg = 0.5 * static_cast<double>(i + j) + 1.0;
+    for (Index k = i; k <= j; ++k) r(order[static_cast<std::size_t>(k)]) = avg;
+    i = j + 1;
+  }
+  return r;
+}
+
+// Spatial median by Weiszfeld iterations from the coordinatewise median.
+Eigen::VectorXd spatial_median(const Eigen::MatrixXd& z) {
+  const Index p = z.cols();
+  Eigen::VectorXd m(p);
+  for (Index j = 0; j < p; ++j) m(j) = median(z.col(j));
+  for (int it = 0; it < 200; ++it) {
+    const Eigen::VectorXd dist = (z.rowwise() - m.transpose()).rowwise().norm();
+    const Eigen::VectorXd w = (1.0 / dist.array().max(1e-12)).matrix();
+    const Eigen::VectorXd next = (z.transpose() * w) / w.sum();
+    const double step = (next - m).norm();
+    m = next;
+    if (step <= 1e-12 * (1.0 + m.norm())) break;
+  }
+  return m;
+}
+
+double positive_scale(const Eigen::VectorXd& v) { return qn_scale(v); }
+
+}  // namespace
+
+std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk) {
+  const Index n = z.rows(), p = z.cols();
+  std::vector<Eigen::MatrixXd> s;
+  // 1. Correlation of the tanh-transformed data.
+  s.push_back(correlation(z.array().tanh().matrix()));
+  // 2. Spearman correlation, 3. normal-scores correlation.
+  Eigen::MatrixXd r(n, p), t(n, p);
+  const boost::math::normal_distribution<double> normal;
+  std::vector<double> score(static_cast<std::size_t>(n));  // by integer rank
+  for (Index k = 0; k < n; ++k)
+    score[static_cast<std::size_t>(k)] =
+        boost::math::quantile(normal, (static_cast<double>(k + 1) - 1.0 / 3.0) / (static_cast<double>(n) + 1.0 / 3.0));
+  for (Index j = 0; j < p; ++j) {
+    r.col(j) = ranks(z.col(j));
+    for (Index i = 0; i < n; ++i) {
+      const double rk = r(i, j);
+      const double whole = std::floor(rk);
+      t(i, j) = rk == whole ? score[static_cast<std::size_t>(whole) - 1]
+                            : boost::math::quantile(normal, (rk - 1.0 / 3.0) / (static_cast<double>(n) + 1.0 / 3.0));
+    }
+  }
+  s.push_back(correlation(r));
+  s.push_back(correlation(t));
+  // 4. Spatial-sign covariance around the spatial median.
+  {
+    Eigen::MatrixXd k = z.rowwise() - spatial_median(z).transpose();
+    for (Index i = 0; i < n; ++i) {
+      const double nr = k.row(i).norm();
+      if (nr > 0.0) k.row(i) /= nr;
+    }
+    s.push_back((k.transpose() * k) / static_cast<double>(n));
+  }
+  // 5. Covariance of the ceil(n/2) rows nearest the coordinatewise median (0).
+  {
+    const Eigen::VectorXd norms = z.rowwise().squaredNorm();
+    s.push_back(fit_subset(z, smallest_h(norms, (n + 1) / 2, z)).cov);
+  }
+  // 6. Raw OGK (Maronna & Zamar 2002) with the Qn scale.
+  if (with_ogk) {
+    Eigen::MatrixXd u(p, p);
+    for (Index j = 0; j < p; ++j) {
+      const double sj = positive_scale(z.col(j));
+      u(j, j) = sj * sj;
+      for (Index k = 0; k < j; ++k) {
+        const double a = positive_scale(z.col(j) + z.col(k));
+        const double b = positive_scale(z.col(j) - z.col(k));
+        u(j, k) = u(k, j) = 0.25 * (a * a - b * b);
+      }
+    }
+    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(u);
+    const Eigen::MatrixXd v = z * es.eigenvectors();
+    Eigen::VectorXd lambda(p);
+    for (Index l = 0; l < p; ++l) {
+      const double q = positive_scale(v.col(l));
+      lambda(l) = q * q;
+    }
+    s.push_back(es.eigenvectors() * lambda.asDiagonal() * es.eigenvectors().transpose());
+  }
+  return s;
+}
+
+Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s) {
+  const Index p = z.cols();
+  Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(s);
+  const Eigen::MatrixXd& e = es.eigenvectors();
+  const Eigen::MatrixXd b = z * e;
+  Eigen::VectorXd root(p);  // Qn of the projections: the re-estimated sqrt eigenvalues
+  for (Index l = 0; l < p; ++l) {
+    root(l) = qn_scale(b.col(l));
+    if (!(root(l) > 0.0)) return {};
+  }
+  // Centre Sigma^{1/2} med(z Sigma^{-1/2}) with the symmetric square root;
+  // distances |(z_i - centre) Sigma^{-1/2}|^2 in those coordinates.
+  const Eigen::MatrixXd inv_root = e * root.cwiseInverse().asDiagonal() * e.transpose();
+  const Eigen::MatrixXd y = z * inv_root;
+  Eigen::RowVectorXd med(p);
+  for (Index j = 0; j < p; ++j) med(j) = median(y.col(j));
+  return (y.rowwise() - med).rowwise().squaredNorm();
+}
+
+}  // namespace mcd_detail
+
+// Hubert, Rousseeuw & Verdonck (2012), DetMCD.
+RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
+  if (opt.max_csteps < 1) throw Error(ErrorKind::Argument, "DetMCD: max_csteps must be positive");
+  mcd_detail::check_input(x, opt.alpha, true, "DetMCD");
+  const Index n = x.rows(), p = x.cols();
+  if (p == 1) return univariate_mcd(x, opt.alpha, opt.reweight_level);
+  const Index h = mcd_subset_size(n, p, opt.alpha);
+  mcd_detail::report_progress(opt.progress, "standardise", 0.0);
+  const mcd_detail::Standardised st = mcd_detail::standardise(x, mcd_detail::ColumnScale::Qn);
+  if (st.constant_column >= 0) return mcd_detail::constant_column_result(x, st, h);
+  const Eigen::MatrixXd& z = st.z;
+
+  // All rows on one hyperplane: no start can be nonsingular.
+  std::vector<Index> all(static_cast<std::size_t>(n));
+  std::iota(all.begin(), all.end(), Index{0});
+  {
+    const mcd_detail::SubsetFit whole = mcd_detail::fit_subset(z, all);
+    if (whole.singular) {
+      const auto ex = mcd_detail::exact_fit_subset(z, z, whole, h);
+      if (ex) return mcd_detail::exact_fit_result(x, st, *ex, h);
+    }
+    if (h == n) return mcd_detail::finish_fit(x, st, whole, h, opt.reweight_level);
+  }
+
+  mcd_detail::report_progress(opt.progress, "starting estimates", 0.05);
+  const std::vector<Eigen::MatrixXd> starts = mcd_detail::deterministic_starts(z, true);
+  std::optional<mcd_detail::SubsetFit> best;
+  int iterations = 0, usable = 0;
+  const Index half = (n + 1) / 2;
+  for (std::size_t k = 0; k < starts.size(); ++k) {
+    mcd_detail::report_progress(opt.progress, "C-steps",
+                                0.2 + 0.7 * static_cast<double>(k) / static_cast<double>(starts.size()));
+    const Eigen::VectorXd d2 = mcd_detail::start_distances(z, starts[k]);
+    if (d2.size() == 0) continue;
+    mcd_detail::SubsetFit f = mcd_detail::fit_subset(z, mcd_detail::smallest_h(d2, half, z));
+    if (!f.singular) iterations += mcd_detail::c_steps_to_convergence(z, h, f, opt.max_csteps);
+    if (f.singular) {
+      const auto ex = mcd_detail::exact_fit_subset(z, z, f, h);
+      if (ex) {
+        RobustFit r = mcd_detail::exact_fit_result(x, st, *ex, h);
+        r.iterations = iterations;
+        r.starts = usable + 1;
+        return r;
+      }
+      continue;
+    }
+    ++usable;
+    // Strictly lower only: on a tie the earlier start (fixed order) wins.
+    if (!best || f.log_det < best->log_det) best = std::move(f);
+  }
+  if (!best) throw Error(ErrorKind::Data, "DetMCD: no starting estimate gave a nonsingular subset");
+  mcd_detail::report_progress(opt.progress, "reweighting", 0.95);
+  RobustFit r = mcd_detail::finish_fit(x, st, *best, h, opt.reweight_level);
+  r.iterations = iterations;
+  r.starts = usable;
+  mcd_detail::report_progress(opt.progress, "done", 1.0);
+  return r;
+}
+
+}  // namespace ellipsa::core

@@ -1,0 +1,43 @@
+// Deterministic MCD (Hubert, Rousseeuw & Verdonck 2012, J. Comput. Graph.
+// Statist. 21, 618-637): the MCD from six deterministic starting estimates
+// instead of random subsets. No seed; the same data give the same answer.
+//
+// Row order: every step is a function of the values, not of the row order
+// (medians, Qn, ranks with average ties, the h smallest distances with ties
+// broken by the row values), so permuting the rows permutes h_subset, outlier
+// and the distances accordingly and leaves location and scatter unchanged up
+// to rounding (sums are formed in row order, so the last bits may differ; the
+// selected subsets are the same unless two distances tie within rounding).
+#pragma once
+#include "mcd_common.hpp"
+
+namespace ellipsa::core {
+
+struct DetMcdOptions {
+  double alpha = 0.5;             // h = mcd_subset_size(n, p, alpha)
+  int max_csteps = 200;           // cap for "to convergence"
+  double reweight_level = 0.975;  // reweighting cutoff chi2q(p, level)
+  ProgressCallback progress;      // optional; false cancels
+};
+
+// Same input contract and errors as fast_mcd() (n > p, finite values, not all
+// rows identical, alpha in [0.5, 1]); an exact fit is reported in the result.
+// RobustFit::starts is the number of the six starts that gave a usable subset.
+RobustFit det_mcd(DataView x, const DetMcdOptions& options = {});
+
+namespace mcd_detail {
+// The six starting scatter matrices of Hubert, Rousseeuw & Verdonck (2012) on
+// standardised data z (p x p each, possibly singular): tanh correlation,
+// Spearman correlation, normal-scores correlation, spatial-sign covariance,
+// covariance of the ceil(n/2) rows nearest the origin, raw OGK (Maronna &
+// Zamar 2002) with Qn. with_ogk = false leaves out the last (used by MRCD
+// for large p, where p^2 Qn evaluations dominate).
+std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk);
+// Step 3 of DetMCD for one start: eigenvalues re-estimated as Qn^2 of the
+// projections on the eigenvectors of s; returns the squared distances of all
+// rows to the centre Sigma^{1/2} med(z Sigma^{-1/2}), or an empty vector when
+// a projection has zero scale.
+Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s);
+}  // namespace mcd_detail
+
+}  // namespace ellipsa::core

@@ -1,0 +1,498 @@
+#include "mixture_em.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <memory>
+#include <string>
+
+#include "cholesky.hpp"
+#include "error.hpp"
+#include "kmeans_seed.hpp"
+#include "mixture_missing.hpp"
+#include "mixture_score.hpp"
+#include "moments.hpp"
+
+namespace ellipsa::core {
+
+Index mixture_parameter_count(Index k, Index p, CovarianceStructure structure) {
+  if (k < 1 || p < 1) throw Error(ErrorKind::Argument, "parameter count: K and p must be at least 1");
+  const Index shared = (k - 1) + k * p;  // mixing weights and means
+  switch (structure) {
+    case CovarianceStructure::Full: return shared + k * p * (p + 1) / 2;
+    case CovarianceStructure::Diagonal: return shared + k * p;
+    case CovarianceStructure::Tied: return shared + p * (p + 1) / 2;
+    case CovarianceStructure::Spherical: return shared + k;
+  }
+  throw Error(ErrorKind::Argument, "unknown covariance structure");
+}
+
+namespace {
+
+const char* structure_name(CovarianceStructure s) {
+  switch (s) {
+    case CovarianceStructure::Full: return "full";
+    case CovarianceStructure::Diagonal: return "diagonal";
+    case CovarianceStructure::Tied: return "tied";
+    case CovarianceStructure::Spherical: return "spherical";
+  }
+  return "?";
+}
+
+// The two ways the EM sees its data: complete rows, or rows with missing
+// coordinates handled by conditional expectations.
+class EmData {
+ public:
+  virtual ~EmData() = default;
+  virtual Index rows() const = 0;
+  virtual Eigen::MatrixXd log_joint(const MixtureModel& m, const std::vector<CholeskyFactor>& f) const = 0;
+  // Responsibilities (into t) and the posterior summary under m.
+  virtual Posterior e_step(const MixtureModel& m, const std::vector<CholeskyFactor>& f,
+                           Eigen::MatrixXd& t) const {
+    t = log_joint(m, f);
+    return normalise_posterior(t);
+  }
+  virtual ComponentMoments moments(const MixtureModel& current, Index k, const Eigen::VectorXd& t) const = 0;
+  // A complete row to restart a component at (missing coordinates filled from fill).
+  virtual Eigen::RowVectorXd seed_row(Index i, const Eigen::RowVectorXd& fill) const = 0;
+};
+
+class CompleteData final : public EmData {
+ public:
+  explicit CompleteData(DataView x) : x_(x) {}
+  Index rows() const override { return x_.rows(); }
+  Eigen::MatrixXd log_joint(const MixtureModel& m, const std::vector<CholeskyFactor>& f) const override {
+    return weighted_log_densities(m, f, x_);
+  }
+  Posterior e_step(const MixtureModel& m, const std::vector<CholeskyFactor>& f,
+                   Eigen::MatrixXd& t) const override {
+    return ::ellipsa::core::e_step(m, f, x_, t);
+  }
+  ComponentMoments moments(const MixtureModel&, Index, const Eigen::VectorXd& t) const override {
+    // The M-step of Dempster, Laird & Rubin (1977) is a weighted mean and scatter
+    // with the responsibilities as weights: one MomentAccumulator pass.
+    MomentAccumulator acc(x_.cols());
+    acc.add(x_, t);
+    return {acc.weight_sum(), acc.mean(), acc.cross_products()};
+  }
+  Eigen::RowVectorXd seed_row(Index i, const Eigen::RowVectorXd&) const override { return x_.row(i); }
+
+ private:
+  DataView x_;
+};
+
+class IncompleteData final : public EmData {
+ public:
+  explicit IncompleteData(DataView x) : x_(x), layout_(group_missing_patterns(x)) {}
+  Index rows() const override { return x_.rows(); }
+  Eigen::MatrixXd log_joint(const MixtureModel& m, const std::vector<CholeskyFactor>&) const override {
+    return observed_weighted_log_densities(m, layout_, x_);
+  }
+  ComponentMoments moments(const MixtureModel& current, Index k, const Eigen::VectorXd& t) const override {
+    return missing_component_moments(current, k, layout_, x_, t);
+  }
+  Eigen::RowVectorXd seed_row(Index i, const Eigen::RowVectorXd& fill) const override {
+    Eigen::RowVectorXd r = x_.row(i);
+    for (Index j = 0; j < r.size(); ++j)
+      if (std::isnan(r(j))) r(j) = fill(j);
+    return r;
+  }
+
+ private:
+  DataView x_;
+  MissingLayout layout_;
+};
+
+struct StartOutcome {
+  MixtureModel model;
+  Eigen::MatrixXd responsibilities;  // used rows x K
+  Posterior posterior;
+  std::vector<double> trace;
+  bool converged = false;
+  int iterations = 0;
+};
+
+struct Settings {
+  const MixtureOptions* options;
+  double reg_abs;
+  double min_rows;
+  Index p;
+};
+
+// M-step: parameters from responsibilities. `current` supplies the conditional
+// expectations when coordinates are missing (ignored for complete data).
+MixtureModel m_step(const EmData& data, const MixtureModel& current, const Eigen::MatrixXd& t,
+                    const Settings& set) {
+  const Index k_count = t.cols();
+  const Index p = set.p;
+  const double n = static_cast<double>(data.rows());
+  MixtureModel model;
+  model.structure = set.options->structure;
+  model.weights.resize(k_count);
+  model.means.resize(k_count, p);
+  model.covariances.resize(static_cast<std::size_t>(k_count));
+  Eigen::MatrixXd pooled = Eigen::MatrixXd::Zero(p, p);
+  const Eigen::MatrixXd ridge = set.reg_abs * Eigen::MatrixXd::Identity(p, p);
+  for (Index k = 0; k < k_count; ++k) {
+    const ComponentMoments mom = data.moments(current, k, t.col(k));
+    model.weights(k) = mom.weight / n;
+    model.means.row(k) = mom.mean.transpose();
+    Eigen::MatrixXd& cov = model.covariances[static_cast<std::size_t>(k)];
+    if (!(mom.weight > 0.0)) {
+      cov = Eigen::MatrixXd::Constant(p, p, std::numeric_limits<double>::quiet_NaN());
+      continue;
+    }
+    switch (model.structure) {
+      case CovarianceStructure::Full:
+        cov = mom.scatter / mom.weight + ridge;
+        break;
+      case CovarianceStructure::Diagonal:
+        cov = (mom.scatter.diagonal() / mom.weight).asDiagonal();
+        cov += ridge;
+        break;
+      case CovarianceStructure::Spherical:
+        cov = (mom.scatter.trace() / (mom.weight * static_cast<double>(p)) + set.reg_abs) *
+              Eigen::MatrixXd::Identity(p, p);
+        break;
+      case CovarianceStructure::Tied:
+        pooled += mom.scatter;
+        break;
+    }
+  }
+  if (model.structure == CovarianceStructure::Tied) {
+    const Eigen::MatrixXd shared = pooled / n + ridge;
+    for (auto& c : model.covariances) c = shared;
+  }
+  return model;
+}
+
+void check_progress(const MixtureOptions& o, const char* stage, double fraction) {
+  if (o.progress && !o.progress(stage, std::clamp(fraction, 0.0, 1.0)))
+    throw Error(ErrorKind::Cancelled, "mixture fit cancelled by the progress callback");
+}
+
+// Finds collapsed components and re-seeds or removes them (model and t in step).
+// Returns true when something was done.
+bool handle_collapse(const EmData& data, MixtureModel& model, Eigen::MatrixXd& t,
+                     const Settings& set, int start, int iteration, int& reseeds,
+                     std::vector<CollapseEvent>& events) {
+  const Index k_count = model.components();
+  const double n = static_cast<double>(data.rows());
+  std::vector<CollapseEvent> found;
+  std::vector<bool> healthy(static_cast<std::size_t>(k_count), true);
+  for (Index k = 0; k < k_count; ++k) {
+    CollapseEvent e;
+    e.start = start;
+    e.iteration = iteration;
+    e.component = k;
+    CholeskyFactor f;
+    if (!(model.weights(k) * n >= set.min_rows)) {
+      e.reason = CollapseReason::SmallWeight;
+    } else if (!f.compute(model.covariances[static_cast<std::size_t>(k)])) {
+      e.reason = CollapseReason::NotPositiveDefinite;
+    } else {
+      continue;
+    }
+    healthy[static_cast<std::size_t>(k)] = false;
+    found.push_back(e);
+  }
+  if (found.empty()) return false;
+  if (found.size() == static_cast<std::size_t>(k_count))
+    throw Error(ErrorKind::Singular,
+                "every mixture component collapsed (weight below " + std::to_string(set.min_rows) +
+                    " rows or covariance not positive definite); raise the regularisation or lower K");
+
+  // The mixture of the healthy components explains each row; the worst-explained
+  // rows are where a re-seeded component restarts.
+  MixtureModel healthy_model;
+  healthy_model.structure = model.structure;
+  std::vector<Index> keep;
+  for (Index k = 0; k < k_count; ++k)
+    if (healthy[static_cast<std::size_t>(k)]) keep.push_back(k);
+  const Index h = static_cast<Index>(keep.size());
+  healthy_model.weights.resize(h);
+  healthy_model.means.resize(h, set.p);
+  Eigen::MatrixXd mean_cov = Eigen::MatrixXd::Zero(set.p, set.p);
+  for (Index j = 0; j < h; ++j) {
+    healthy_model.weights(j) = model.weights(keep[static_cast<std::size_t>(j)]);
+    healthy_model.means.row(j) = model.means.row(keep[static_cast<std::size_t>(j)]);
+    healthy_model.covariances.push_back(model.covariances[static_cast<std::size_t>(keep[static_cast<std::size_t>(j)])]);
+    mean_cov += healthy_model.weights(j) * healthy_model.covariances.back();
+  }
+  const double healthy_weight = healthy_model.weights.sum();
+  healthy_model.weights /= healthy_weight;
+  mean_cov /= healthy_weight;
+
+  const bool reseed = set.options->on_collapse == CollapseAction::Reseed &&
+                      reseeds + static_cast<int>(found.size()) <= 2 * static_cast<int>(k_count);
+  if (!reseed) {
+    for (auto& e : found) {
+      e.action = CollapseAction::Remove;
+      events.push_back(e);
+    }
+    MixtureModel kept = healthy_model;
+    Eigen::MatrixXd kept_t(t.rows(), h);
+    for (Index j = 0; j < h; ++j) kept_t.col(j) = t.col(keep[static_cast<std::size_t>(j)]);
+    model = std::move(kept);
+    t = std::move(kept_t);
+    return true;
+  }
+
+  const auto factors = factor_components(healthy_model);
+  Eigen::MatrixXd lj = data.log_joint(healthy_model, factors);
+  const Eigen::VectorXd log_f = normalise_posterior(lj).log_density;
+  std::vector<Index> order(static_cast<std::size_t>(log_f.size()));
+  for (std::size_t i = 0; i < order.size(); ++i) order[i] = static_cast<Index>(i);
+  std::stable_sort(order.begin(), order.end(),
+                   [&](Index a, Index b) { return log_f(a) < log_f(b); });
+  const Eigen::RowVectorXd overall = healthy_model.weights.transpose() * healthy_model.means;
+  std::size_t next = 0;
+  for (auto& e : found) {
+    const Index row = order[std::min(next++, order.size() - 1)];
+    e.action = CollapseAction::Reseed;
+    e.seed_row = row;
+    events.push_back(e);
+    model.means.row(e.component) = data.seed_row(row, overall);
+    if (model.structure != CovarianceStructure::Tied || e.reason == CollapseReason::NotPositiveDefinite)
+      model.covariances[static_cast<std::size_t>(e.component)] = mean_cov;
+    model.weights(e.component) = 1.0 / static_cast<double>(k_count);
+    ++reseeds;
+  }
+  model.weights /= model.weights.sum();
+  return true;
+}
+
+StartOutcome run_em(const EmData& data, const MixtureModel& provisional, Eigen::MatrixXd t,
+                    const Settings& set, int start, std::vector<CollapseEvent>& events) {
+  const MixtureOptions& o = *set.options;
+  StartOutcome out;
+  int reseeds = 0;
+  MixtureModel model = provisional;
+  for (int it = 0;; ++it) {
+    model = m_step(data, model, t, set);
+    const bool collapsed = handle_collapse(data, model, t, set, start, it, reseeds, events);
+    const auto factors = factor_components(model);
+    out.posterior = data.e_step(model, factors, t);
+    const double ll = out.posterior.log_density.sum();
+    out.trace.push_back(ll);
+    out.iterations = it;
+    check_progress(o, "EM", (start + static_cast<double>(it) / o.max_iterations) / o.restarts);
+    if (it > 0 && !collapsed) {
+      const double prev = out.trace[out.trace.size() - 2];
+      if (std::abs(ll - prev) <= o.tolerance * std::abs(ll)) {
+        out.converged = true;
+        break;
+      }
+    }
+    if (it >= o.max_iterations) break;
+  }
+  out.model = std::move(model);
+  out.responsibilities = std::move(t);
+  return out;
+}
+
+void validate_options(const MixtureOptions& o, Index n_input) {
+  if (o.components < 1)
+    throw Error(ErrorKind::Argument, "mixture: the number of components K must be at least 1");
+  if (o.components > n_input)
+    throw Error(ErrorKind::Argument, "mixture: K = " + std::to_string(o.components) +
+                                         " exceeds the number of rows (" + std::to_string(n_input) + ")");
+  if (o.restarts < 1) throw Error(ErrorKind::Argument, "mixture: restarts must be at least 1");
+  if (o.max_iterations < 1) throw Error(ErrorKind::Argument, "mixture: max_iterations must be at least 1");
+  if (o.lloyd_steps < 0) throw Error(ErrorKind::Argument, "mixture: lloyd_steps must be >= 0");
+  if (!(o.tolerance >= 0.0) || !std::isfinite(o.tolerance))
+    throw Error(ErrorKind::Argument, "mixture: tolerance must be finite and >= 0");
+  if (!(o.regularisation >= 0.0) || !std::isfinite(o.regularisation))
+    throw Error(ErrorKind::Argument, "mixture: regularisation must be finite and >= 0");
+  if (std::isnan(o.min_component_rows))
+    throw Error(ErrorKind::Argument, "mixture: min_component_rows is NaN");
+  if (o.initial_labels.size() > 0 && o.initial_responsibilities.size() > 0)
+    throw Error(ErrorKind::Argument, "mixture: give initial labels or initial responsibilities, not both");
+  if (o.initial_labels.size() > 0) {
+    if (o.initial_labels.size() != n_input)
+      throw Error(ErrorKind::Shape, "mixture: one initial label per input row is required");
+    if (o.initial_labels.minCoeff() < 0 || o.initial_labels.maxCoeff() >= o.components)
+      throw Error(ErrorKind::Argument, "mixture: initial labels must lie in [0, K)");
+  }
+  if (o.initial_responsibilities.size() > 0) {
+    if (o.initial_responsibilities.rows() != n_input || o.initial_responsibilities.cols() != o.components)
+      throw Error(ErrorKind::Shape, "mixture: initial responsibilities must be rows x K");
+    if (!o.initial_responsibilities.allFinite() || o.initial_responsibilities.minCoeff() < 0.0)
+      throw Error(ErrorKind::Argument, "mixture: initial responsibilities must be finite and >= 0");
+  }
+}
+
+// Rejects columns without spread where the regularisation cannot (or should not)
+// stand in for it; returns the mean of the column variances.
+double check_columns(const Eigen::VectorXd& variance, const MixtureOptions& o) {
+  std::string constant;
+  Index count = 0;
+  for (Index j = 0; j < variance.size(); ++j)
+    if (!(variance(j) > 0.0)) {
+      constant += (count++ ? ", " : "") + std::to_string(j);
+    }
+  if (count == variance.size())
+    throw Error(ErrorKind::Data, "mixture: all usable rows are identical (every column is constant)");
+  // A constant column under a diagonal or spherical structure only adds the same
+  // regularised variance to every component, so a positive regularisation rescues
+  // it; full and tied matrices would be fitted around a degenerate direction.
+  const bool rescued = o.regularisation > 0.0 && (o.structure == CovarianceStructure::Diagonal ||
+                                                  o.structure == CovarianceStructure::Spherical);
+  if (count > 0 && !rescued)
+    throw Error(ErrorKind::Data, "mixture: constant column(s) " + constant +
+                                     " (zero variance over the usable rows); drop them, or use a "
+                                     "diagonal or spherical structure with a positive regularisation");
+  return variance.mean();
+}
+
+Eigen::MatrixXd one_hot(const Eigen::VectorXi& labels, Index k_count) {
+  Eigen::MatrixXd t = Eigen::MatrixXd::Zero(labels.size(), k_count);
+  for (Index i = 0; i < labels.size(); ++i) t(i, labels(i)) = 1.0;
+  return t;
+}
+
+}  // namespace
+
+MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
+  const Index n_input = x.rows();
+  const Index p = x.cols();
+  if (p < 1) throw Error(ErrorKind::Shape, "mixture: the data have no column");
+  validate_options(o, n_input);
+  const Index k_count = o.components;
+
+  // Which rows take part.
+  const MissingLayout layout = group_missing_patterns(x);  // rejects infinite values
+  const bool em_missing = o.missing == MissingHandling::EmOverMissing;
+  if (em_missing && !layout.all_missing_rows.empty())
+    throw Error(ErrorKind::Data, "mixture: row " + std::to_string(layout.all_missing_rows.front()) +
+                                     " has no observed value");
+  std::vector<Index> used;
+  if (em_missing || layout.incomplete_rows == 0) {
+    used.resize(static_cast<std::size_t>(n_input));
+    for (Index i = 0; i < n_input; ++i) used[static_cast<std::size_t>(i)] = i;
+  } else {
+    for (const auto& pat : layout.patterns)
+      if (pat.missing.empty()) used = pat.rows;
+  }
+  const Index n = static_cast<Index>(used.size());
+  const Index needed = mixture_parameter_count(k_count, p, o.structure);
+  if (n < needed || n < k_count)
+    throw Error(ErrorKind::Data, "mixture: " + std::to_string(n) + " usable rows (" +
+                                     std::to_string(n_input - n) + " dropped for missing values), fewer than the " +
+                                     std::to_string(needed) + " free parameters of a " +
+                                     std::to_string(k_count) + "-component " + structure_name(o.structure) +
+                                     " mixture in " + std::to_string(p) + " dimensions");
+  Eigen::MatrixXd compact;
+  if (n < n_input) {
+    compact.resize(n, p);
+    for (Index i = 0; i < n; ++i) compact.row(i) = x.row(used[static_cast<std::size_t>(i)]);
+  }
+  const DataView xu = n < n_input ? make_view(compact) : x;
+
+  // Column variances over the observed values (divisor: their count).
+  Eigen::VectorXd variance(p);
+  Eigen::RowVectorXd column_mean(p);
+  for (Index j = 0; j < p; ++j) {
+    double count = 0.0, mean = 0.0, m2 = 0.0;
+    for (Index i = 0; i < n; ++i) {
+      const double v = xu(i, j);
+      if (std::isnan(v)) continue;
+      count += 1.0;
+      const double d = v - mean;
+      mean += d / count;
+      m2 += d * (v - mean);
+    }
+    variance(j) = m2 / count;
+    column_mean(j) = mean;
+  }
+  Settings set{&o, o.regularisation * check_columns(variance, o), 0.0, p};
+  if (o.min_component_rows >= 0.0) {
+    set.min_rows = o.min_component_rows;
+  } else {
+    set.min_rows = o.structure == CovarianceStructure::Full   ? static_cast<double>(p + 1)
+                   : o.structure == CovarianceStructure::Tied ? 1.0
+                                                              : 2.0;
+  }
+
+  std::unique_ptr<EmData> data;
+  Eigen::MatrixXd imputed;  // the k-means++ start needs complete rows
+  if (em_missing) {
+    data = std::make_unique<IncompleteData>(xu);
+    imputed = xu;
+    for (Index j = 0; j < p; ++j)
+      for (Index i = 0; i < n; ++i)
+        if (std::isnan(imputed(i, j))) imputed(i, j) = column_mean(j);
+  } else {
+    data = std::make_unique<CompleteData>(xu);
+  }
+  const DataView seed_view = em_missing ? make_view(imputed) : xu;
+
+  PortableRandom rng(o.seed);
+  MixtureResult result;
+  std::vector<CollapseEvent> events;
+  StartOutcome best;
+  bool have_best = false;
+  for (int s = 0; s < o.restarts; ++s) {
+    check_progress(o, "seeding", static_cast<double>(s) / o.restarts);
+    Eigen::MatrixXd t;
+    if (s == 0 && o.initial_labels.size() > 0) {
+      Eigen::VectorXi lab(n);
+      for (Index i = 0; i < n; ++i) lab(i) = o.initial_labels(used[static_cast<std::size_t>(i)]);
+      t = one_hot(lab, k_count);
+    } else if (s == 0 && o.initial_responsibilities.size() > 0) {
+      t.resize(n, k_count);
+      for (Index i = 0; i < n; ++i) {
+        t.row(i) = o.initial_responsibilities.row(used[static_cast<std::size_t>(i)]);
+        const double sum = t.row(i).sum();
+        if (!(sum > 0.0))
+          throw Error(ErrorKind::Argument, "mixture: initial responsibilities of row " +
+                                               std::to_string(used[static_cast<std::size_t>(i)]) + " sum to 0");
+        t.row(i) /= sum;
+      }
+    } else {
+      t = one_hot(kmeans_seed(seed_view, k_count, o.lloyd_steps, rng).labels, k_count);
+    }
+    MixtureModel provisional;
+    if (em_missing) {
+      provisional = provisional_missing_model(xu, t, o.structure);
+      for (auto& c : provisional.covariances) c.diagonal().array() += set.reg_abs;
+    }
+    StartOutcome outcome = run_em(*data, provisional, std::move(t), set, s, events);
+    // A later start replaces the kept one only when it is higher by more than
+    // rounding: starts that reach the same optimum in another component order
+    // then keep the first, so tiny perturbations of the data do not relabel.
+    if (!have_best || outcome.trace.back() > best.trace.back() + 1e-12 * std::abs(best.trace.back())) {
+      best = std::move(outcome);
+      result.best_start = s;
+      have_best = true;
+    }
+  }
+  check_progress(o, "done", 1.0);
+
+  const Index k_final = best.model.components();
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  result.responsibilities = Eigen::MatrixXd::Constant(n_input, k_final, nan);
+  result.log_density = Eigen::VectorXd::Constant(n_input, nan);
+  for (Index i = 0; i < n; ++i) {
+    const Index row = used[static_cast<std::size_t>(i)];
+    result.responsibilities.row(row) = best.responsibilities.row(i);
+    result.log_density(row) = best.posterior.log_density(i);
+  }
+  result.labels = hard_labels(result.responsibilities);
+  result.model = std::move(best.model);
+  result.log_likelihood = best.trace.back();
+  result.n_parameters = mixture_parameter_count(k_final, p, o.structure);
+  // Schwarz (1978); Biernacki, Celeux & Govaert (2000).
+  result.bic = -2.0 * result.log_likelihood + static_cast<double>(result.n_parameters) * std::log(static_cast<double>(n));
+  result.icl = result.bic - 2.0 * best.posterior.sum_t_log_t;
+  result.converged = best.converged;
+  result.iterations = best.iterations;
+  result.loglik_trace = std::move(best.trace);
+  result.collapses = std::move(events);
+  result.rows_used = n;
+  result.rows_dropped = n_input - n;
+  result.regularisation_added = set.reg_abs;
+  return result;
+}
+
+}  // namespace ellipsa::core

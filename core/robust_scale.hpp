@@ -1,0 +1,48 @@
+// Univariate robust location and scale: median, MAD and the Qn scale of
+// Rousseeuw & Croux (1993). They standardise columns before the MCD algorithms
+// and re-estimate the spread of projections in the deterministic MCD.
+//
+// Every function takes its sample by value or const reference and never
+// reorders the caller's data. Values must be finite (not checked here: the MCD
+// entry points screen their input); an empty sample throws Error(Data).
+#pragma once
+#include <Eigen/Core>
+
+#include "data_view.hpp"
+
+namespace ellipsa::core {
+
+// Sample median; for even n the mean of the two middle order statistics.
+double median(const Eigen::Ref<const Eigen::VectorXd>& x);
+
+// Median absolute deviation from the median, multiplied by 1/Phi^-1(3/4)
+// (about 1.4826) so that it estimates sigma at the normal distribution.
+// No small-sample correction.
+double mad(const Eigen::Ref<const Eigen::VectorXd>& x);
+
+// Consistency constant of Qn at the normal: 1/(sqrt(2) Phi^-1(5/8)), about
+// 2.21914. Derived from the definition (the first quartile of |X-Y| for X, Y
+// i.i.d. N(0, sigma^2) is sqrt(2) sigma Phi^-1(5/8)).
+double qn_consistency_constant();
+
+// Qn scale (Rousseeuw & Croux 1993): d * {|x_i - x_j|; i < j}_(k) with
+// k = C(floor(n/2)+1, 2) and d = qn_consistency_constant(). The published
+// finite-sample factors d_n are NOT applied (we do not have the published
+// values here); the estimate is the asymptotically consistent one. n = 1
+// gives 0.
+//
+// Exact order statistic in O(n log^2 n) time and O(n) memory: after one sort
+// the pairwise differences form a matrix whose rows and columns are sorted;
+// each round takes the weighted median of the row medians among the remaining
+// candidates as a trial value, counts the differences below it in O(n) with
+// two pointers and discards at least a quarter of the candidates (the
+// selection scheme of Johnson & Mizoguchi 1978, as used by Croux & Rousseeuw
+// 1992). No n x n array is formed, so n = 1e5 and beyond is fine.
+double qn_scale(const Eigen::Ref<const Eigen::VectorXd>& x);
+
+// The raw order statistic {|x_i - x_j|; i < j}_(k), k 1-based in
+// [1, n(n-1)/2]. Exposed for tests and for callers needing another quantile.
+double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x,
+                                           long long k);
+
+}  // namespace ellipsa::core

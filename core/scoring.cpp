@@ -1,0 +1,193 @@
+#include "scoring.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <string>
+#include <unordered_map>
+#include <vector>
+
+#include "distributions.hpp"
+#include "error.hpp"
+
+namespace ellipsa::core {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+// Rows per block: the centred block (rows x p doubles) and its whitened copy stay
+// in cache while the triangular solve runs at BLAS-3 speed.
+constexpr Index kChunkRows = 1024;
+
+// What one factor needs to score a dense block of centred rows.
+struct Model {
+  const Eigen::MatrixXd* lower;   // L with S_oo = L L'
+  Eigen::VectorXd inverse_diagonal;  // diag(S_oo^-1), only for conditional drops
+  const std::vector<Index>* columns;  // observed columns, nullptr = all
+};
+
+Eigen::VectorXd inverse_diagonal(const Eigen::MatrixXd& lower) {
+  // (S^-1)_jj = |L^-1 e_j|^2: the column norms of L^-1. Only the diagonal of
+  // S^-1 is kept; it is needed for the closed-form conditional drop.
+  Eigen::MatrixXd inv = Eigen::MatrixXd::Identity(lower.rows(), lower.rows());
+  lower.triangularView<Eigen::Lower>().solveInPlace(inv);
+  return inv.colwise().squaredNorm().transpose();
+}
+
+// Scores `block` (m x q, already centred; overwritten) whose rows are output
+// rows rows[0..m). `work` is scratch of at least m x q, used only when z is needed.
+void score_block(const Model& model, Eigen::Ref<Eigen::MatrixXd> block, Eigen::MatrixXd& work,
+                 const Index* rows, const ScoringOptions& opt, RowScores& out) {
+  const Index m = block.rows(), q = block.cols();
+  const auto upper = model.lower->transpose().triangularView<Eigen::Upper>();
+  // Row k of the result is (L^-1 d_k)': one triangular solve from the right with
+  // U = L' whitens all m rows at once (d' U^-1 = (L^-1 d)'), with no transposed copy.
+  if (!(opt.contributions || opt.conditional_drops)) {
+    upper.solveInPlace<Eigen::OnTheRight>(block);
+    for (Index k = 0; k < m; ++k) out.d2(rows[k]) = block.row(k).squaredNorm();
+    return;
+  }
+  auto w = work.topLeftCorner(m, q);
+  w = block;
+  upper.solveInPlace<Eigen::OnTheRight>(w);
+  for (Index k = 0; k < m; ++k) out.d2(rows[k]) = w.row(k).squaredNorm();
+  // z' = (L^-1 d)' L^-1, i.e. z = L^-T L^-1 d = S^-1 d.
+  model.lower->triangularView<Eigen::Lower>().solveInPlace<Eigen::OnTheRight>(w);
+  for (Index a = 0; a < q; ++a) {
+    const Index j = model.columns ? (*model.columns)[static_cast<std::size_t>(a)] : a;
+    for (Index k = 0; k < m; ++k) {
+      const double z = w(k, a);
+      if (opt.contributions) out.contributions(rows[k], j) = block(k, a) * z;
+      if (opt.conditional_drops) out.conditional_drops(rows[k], j) = z * z / model.inverse_diagonal(a);
+    }
+  }
+}
+
+[[noreturn]] void throw_infinite(Index row, Index col, double v) {
+  throw Error(ErrorKind::Data, "scoring: row " + std::to_string(row) + ", column " + std::to_string(col) +
+                                   " (0-based) is non-finite (" + (v > 0 ? "+Inf" : "-Inf") +
+                                   "); NaN marks a missing value, Inf is not accepted");
+}
+
+}  // namespace
+
+MahalanobisScorer::MahalanobisScorer(const Eigen::VectorXd& location, const Eigen::MatrixXd& scatter)
+    : location_(location), scatter_(scatter) {
+  if (scatter.rows() != scatter.cols() || scatter.rows() != location.size())
+    throw Error(ErrorKind::Shape, "scorer: location has " + std::to_string(location.size()) +
+                                      " entries, scatter is " + std::to_string(scatter.rows()) + " x " +
+                                      std::to_string(scatter.cols()));
+  if (location.size() == 0) throw Error(ErrorKind::Shape, "scorer: no variables");
+  if (!location.allFinite()) throw Error(ErrorKind::Data, "scorer: location has a NaN or Inf entry");
+  if (!factor_.compute(scatter))
+    throw Error(ErrorKind::Singular,
+                "scorer: scatter matrix is not positive definite (diagnose it for constant or collinear "
+                "columns, or use a shrinkage estimate)");
+}
+
+MahalanobisScorer::MahalanobisScorer(const Eigen::VectorXd& location, const CholeskyFactor& factor)
+    : location_(location), factor_(factor) {
+  if (!factor.ok()) throw Error(ErrorKind::Singular, "scorer: the Cholesky factor is not valid");
+  if (factor.dimension() != location.size() || location.size() == 0)
+    throw Error(ErrorKind::Shape, "scorer: location and factor dimensions differ");
+  if (!location.allFinite()) throw Error(ErrorKind::Data, "scorer: location has a NaN or Inf entry");
+}
+
+RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const {
+  const Index n = x.rows(), p = dimension();
+  if (x.cols() != p)
+    throw Error(ErrorKind::Shape, "scorer: data have " + std::to_string(x.cols()) + " columns, model has " +
+                                      std::to_string(p));
+  if (!(opt.level > 0.0 && opt.level < 1.0))
+    throw Error(ErrorKind::Argument, "scorer: level must lie in (0, 1)");
+
+  RowScores out;
+  out.d2.resize(n);
+  out.df = IndexVector::Constant(n, p);
+  if (opt.contributions) out.contributions.setConstant(n, p, kNaN);
+  if (opt.conditional_drops) out.conditional_drops.setConstant(n, p, kNaN);
+
+  const Eigen::MatrixXd& lower = factor_.lower();
+  Model full{&lower, {}, nullptr};
+  if (opt.conditional_drops) full.inverse_diagonal = inverse_diagonal(lower);
+
+  // Complete rows: block copy, centre, one triangular solve per block. Rows
+  // with a NaN are set aside by pattern and scored afterwards.
+  std::unordered_map<std::vector<bool>, std::vector<Index>> patterns;
+  Eigen::MatrixXd block(std::min(kChunkRows, std::max<Index>(n, 1)), p);
+  Eigen::MatrixXd work(opt.contributions || opt.conditional_drops ? block.rows() : 0, p);
+  std::vector<Index> rows(static_cast<std::size_t>(block.rows()));
+  for (Index start = 0; start < n; start += kChunkRows) {
+    const Index m = std::min(kChunkRows, n - start);
+    block.topRows(m) = x.middleRows(start, m);
+    Index kept = 0;
+    for (Index k = 0; k < m; ++k) {
+      const Index i = start + k;
+      if (block.row(k).allFinite()) {
+        if (kept != k) block.row(kept) = block.row(k);
+        rows[static_cast<std::size_t>(kept++)] = i;
+        continue;
+      }
+      std::vector<bool> missing(static_cast<std::size_t>(p));
+      for (Index j = 0; j < p; ++j) {
+        const double v = block(k, j);
+        if (std::isinf(v)) throw_infinite(i, j, v);
+        missing[static_cast<std::size_t>(j)] = std::isnan(v);
+      }
+      patterns[std::move(missing)].push_back(i);
+    }
+    if (kept == 0) continue;
+    block.topRows(kept).rowwise() -= location_.transpose();
+    score_block(full, block.topRows(kept), work, rows.data(), opt, out);
+  }
+
+  // One factorisation per missingness pattern: the marginal of the observed
+  // coordinates o is N(T_o, S_oo).
+  for (const auto& [missing, members] : patterns) {
+    std::vector<Index> observed;
+    for (Index j = 0; j < p; ++j)
+      if (!missing[static_cast<std::size_t>(j)]) observed.push_back(j);
+    const Index q = static_cast<Index>(observed.size());
+    if (q == 0) {
+      for (Index i : members) { out.d2(i) = kNaN; out.df(i) = 0; }
+      continue;
+    }
+    ++out.missing_patterns;
+    Eigen::MatrixXd sub(q, q);
+    for (Index b = 0; b < q; ++b)
+      for (Index a = 0; a < q; ++a)
+        sub(a, b) = scatter_.size() ? scatter_(observed[a], observed[b])
+                                    : lower.row(observed[a]).dot(lower.row(observed[b]));
+    CholeskyFactor sub_factor;
+    if (!sub_factor.compute(sub))
+      throw Error(ErrorKind::Singular, "scorer: the scatter sub-matrix of a missingness pattern is not positive "
+                                       "definite (the scatter is too ill-conditioned)");
+    Model marginal{&sub_factor.lower(), {}, &observed};
+    if (opt.conditional_drops) marginal.inverse_diagonal = inverse_diagonal(sub_factor.lower());
+    Eigen::MatrixXd sub_block(std::min<Index>(kChunkRows, static_cast<Index>(members.size())), q);
+    Eigen::MatrixXd sub_work(opt.contributions || opt.conditional_drops ? sub_block.rows() : 0, q);
+    for (std::size_t first = 0; first < members.size(); first += static_cast<std::size_t>(kChunkRows)) {
+      const Index m = std::min<Index>(kChunkRows, static_cast<Index>(members.size() - first));
+      for (Index k = 0; k < m; ++k) {
+        const Index i = members[first + static_cast<std::size_t>(k)];
+        out.df(i) = q;
+        for (Index a = 0; a < q; ++a) sub_block(k, a) = x(i, observed[a]) - location_(observed[a]);
+      }
+      score_block(marginal, sub_block.topRows(m), sub_work, members.data() + first, opt, out);
+    }
+  }
+
+  // Cutoffs and p-values depend on the row's degrees of freedom only.
+  Eigen::VectorXd cutoff(p + 1);
+  cutoff(0) = kNaN;
+  for (Index df = 1; df <= p; ++df) cutoff(df) = chi2_quantile(opt.level, static_cast<double>(df));
+  out.flagged.resize(n);
+  for (Index i = 0; i < n; ++i) out.flagged(i) = out.df(i) > 0 && out.d2(i) > cutoff(out.df(i));
+  if (opt.p_values) {
+    out.p_value.resize(n);
+    for (Index i = 0; i < n; ++i)
+      out.p_value(i) = out.df(i) > 0 ? chi2_sf(out.d2(i), static_cast<double>(out.df(i))) : kNaN;
+  }
+  return out;
+}
+
+}  // namespace ellipsa::core

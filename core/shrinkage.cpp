@@ -1,0 +1,89 @@
+#include "shrinkage.hpp"
+
+#include <algorithm>
+#include <string>
+
+#include "error.hpp"
+#include "missing.hpp"
+#include "moments.hpp"
+
+namespace ellipsa::core {
+namespace {
+
+constexpr Index kChunkRows = 4096;
+
+// sum_k |x_k - mean|^4 over the rows, chunked so that no n x p centred copy exists.
+double sum_fourth_powers_of_norms(DataView x, const Eigen::VectorXd& mean) {
+  double total = 0.0;
+  Eigen::MatrixXd chunk;
+  for (Index start = 0; start < x.rows(); start += kChunkRows) {
+    const Index m = std::min(kChunkRows, x.rows() - start);
+    chunk = x.middleRows(start, m);
+    chunk.rowwise() -= mean.transpose();
+    total += chunk.rowwise().squaredNorm().array().square().sum();
+  }
+  return total;
+}
+
+// Ledoit & Wolf (2004), the consistent estimators of their Section 3, with the normalised
+// Frobenius norm |A|^2 = tr(AA')/p:
+//   d2 = |S - mu I|^2 = tr(S^2)/p - mu^2,
+//   b2bar = (1/n^2) sum_k |x_k x_k' - S|^2.
+// Expanding |x x' - S|^2 = (|x|^4 - 2 x'Sx + tr(S^2))/p and using
+// sum_k x_k' S x_k = n tr(S^2) gives b2bar = (sum_k |x_k|^4 - n tr(S^2)) / (p n^2),
+// so no p x p matrix is formed per row.
+// d2 is evaluated as |S - mu I|_F^2 / p directly, not as a difference of traces,
+// which would cancel when S is close to the target.
+double ledoit_wolf_intensity(double trace_s2, double spread, double sum_fourth, double n, double p) {
+  const double d2 = spread / p;
+  const double b2bar = std::max(0.0, (sum_fourth - n * trace_s2) / (p * n * n));
+  const double b2 = std::min(b2bar, d2);
+  if (!(d2 > 0.0)) return 1.0;  // S is already mu*I
+  return std::clamp(b2 / d2, 0.0, 1.0);
+}
+
+// Chen, Wiesel, Eldar & Hero (2010), the OAS intensity:
+//   rho = min(1, ((1-2/p) tr(S^2) + tr(S)^2) / ((n+1-2/p) (tr(S^2) - tr(S)^2/p))).
+// The denominator's tr(S^2) - tr(S)^2/p equals |S - mu I|_F^2 (`spread`).
+double oas_intensity(double trace_s2, double trace_s, double spread, double n, double p) {
+  const double numerator = (1.0 - 2.0 / p) * trace_s2 + trace_s * trace_s;
+  if (!(spread > 0.0)) return 1.0;  // S is already a multiple of I
+  return std::clamp(numerator / ((n + 1.0 - 2.0 / p) * spread), 0.0, 1.0);
+}
+
+}  // namespace
+
+ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method) {
+  const Index n = x.rows(), p = x.cols();
+  if (p < 1) throw Error(ErrorKind::Shape, "shrinkage estimate: no columns");
+  if (n < 2)
+    throw Error(ErrorKind::Data, "shrinkage estimate: needs at least 2 rows, got " + std::to_string(n));
+  require_finite(x, "shrinkage estimate");
+
+  MomentAccumulator acc(p);
+  acc.add(x);
+  ShrinkageEstimate out;
+  out.rows = n;
+  out.mean = acc.mean();
+  out.sample_covariance = acc.covariance(Normalisation::ByCount);
+  const Eigen::MatrixXd& s = out.sample_covariance;
+  const double trace_s = s.trace();
+  const double mu = trace_s / static_cast<double>(p);
+  if (!(mu > 0.0))
+    throw Error(ErrorKind::Data, "shrinkage estimate: every column is constant (trace of S is 0)");
+  const double trace_s2 = s.squaredNorm();
+  Eigen::MatrixXd deviation = s;
+  deviation.diagonal().array() -= mu;
+  const double spread = deviation.squaredNorm();
+  const double nd = static_cast<double>(n), pd = static_cast<double>(p);
+
+  out.target_scale = mu;
+  out.intensity = method == ShrinkageMethod::LedoitWolf
+                      ? ledoit_wolf_intensity(trace_s2, spread, sum_fourth_powers_of_norms(x, out.mean), nd, pd)
+                      : oas_intensity(trace_s2, trace_s, spread, nd, pd);
+  out.covariance = (1.0 - out.intensity) * s;
+  out.covariance.diagonal().array() += out.intensity * mu;
+  return out;
+}
+
+}  // namespace ellipsa::core

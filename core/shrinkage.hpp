@@ -1,0 +1,34 @@
+// Shrinkage covariance estimates for p close to n or p > n: a convex
+// combination of the sample covariance S (divisor n) and the scaled identity
+// mu*I, mu = tr(S)/p. Both estimates are positive definite whenever mu > 0 and
+// the intensity is positive, which the sample covariance is not for n <= p.
+#pragma once
+#include <Eigen/Core>
+
+#include "data_view.hpp"
+
+namespace ellipsa::core {
+
+enum class ShrinkageMethod {
+  LedoitWolf,           // Ledoit & Wolf (2004), J. Multivariate Anal. 88, 365-411
+  OracleApproximating,  // OAS, Chen, Wiesel, Eldar & Hero (2010), IEEE TSP 58, 5016-5029
+};
+
+struct ShrinkageEstimate {
+  Eigen::VectorXd mean;                // sample mean
+  Eigen::MatrixXd covariance;          // intensity*mu*I + (1-intensity)*S
+  Eigen::MatrixXd sample_covariance;   // S, divisor n (maximum likelihood)
+  double intensity = 0.0;              // weight on the target, in [0, 1]
+  double target_scale = 0.0;           // mu = tr(S)/p
+  Index rows = 0;                      // n
+};
+
+// Throws Error(Data) for fewer than 2 rows or a NaN/Inf entry (select complete
+// rows first), Error(Shape) for no columns, Error(Data) when every column is
+// constant (mu = 0: the target is the zero matrix). When S is already a
+// multiple of the identity (always so for p = 1) the target equals S and any
+// intensity gives the same estimate; the reported intensity is then 1, the
+// limit of both formulas as S approaches the target.
+ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method);
+
+}  // namespace ellipsa::core
