@@ -67,24 +67,39 @@ PreparedData prepare(const ellipsa_matrix* data, const ellipsa_fit_options& o) {
   return d;
 }
 
+namespace {
+// Pivot ratio (min L_ii / max L_ii)^2 below which the scatter is examined for
+// constant and collinear columns: an exactly collinear set of columns usually
+// factors "successfully" with a pivot at rounding level, and distances computed
+// with it would be noise.
+constexpr double kExaminePivotRatio = 1e-9;
+
+[[noreturn]] void explain_singular(const ellipsa_model& m, const core::SingularityReport& report) {
+  std::string msg = "the scatter matrix is singular or nearly so";
+  auto name = [&](core::Index j) { return "\"" + m.columns[static_cast<size_t>(j)] + "\""; };
+  if (!report.constant_columns.empty()) {
+    msg += "; constant columns:";
+    for (auto j : report.constant_columns) msg += " " + name(j);
+  }
+  for (const auto& g : report.collinear_groups) {
+    msg += "; collinear columns:";
+    for (auto j : g.columns) msg += " " + name(j);
+  }
+  msg += ". Remove those columns, or fit with method ledoit-wolf or oas (shrinkage).";
+  throw core::Error(core::ErrorKind::Singular, msg);
+}
+}  // namespace
+
 void finalise_or_explain(ellipsa_model& m) {
   try {
     finalise(m);
   } catch (const core::Error& e) {
     if (e.kind() != core::ErrorKind::Singular || m.components.size() != 1) throw;
+    explain_singular(m, core::diagnose_scatter(m.components.front().scatter));
+  }
+  if (m.kind == ELLIPSA_KIND_GAUSSIAN && m.components.front().factor.pivot_ratio() < kExaminePivotRatio) {
     const auto report = core::diagnose_scatter(m.components.front().scatter);
-    std::string msg = "the scatter matrix is not positive definite";
-    auto name = [&](core::Index j) { return "\"" + m.columns[static_cast<size_t>(j)] + "\""; };
-    if (!report.constant_columns.empty()) {
-      msg += "; constant columns:";
-      for (auto j : report.constant_columns) msg += " " + name(j);
-    }
-    for (const auto& g : report.collinear_groups) {
-      msg += "; collinear columns:";
-      for (auto j : g.columns) msg += " " + name(j);
-    }
-    msg += ". Remove those columns, or fit with method ledoit-wolf or oas (shrinkage).";
-    throw core::Error(core::ErrorKind::Singular, msg);
+    if (report.singular) explain_singular(m, report);
   }
 }
 

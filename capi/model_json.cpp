@@ -204,7 +204,8 @@ ellipsa_model model_from_json(const char* text, int64_t length) {
       return true;
     };
     j = json::parse(text, text + length, depth_guard);
-  } catch (const json::parse_error& e) {
+  } catch (const json::exception& e) {
+    // parse_error, and out_of_range for numbers beyond double (1e999).
     format_error(std::string("not valid JSON: ") + e.what());
   }
   if (!j.is_object()) format_error("the top level must be a JSON object");

@@ -19,7 +19,7 @@ struct ellipsa_fit_options {
   int32_t structure = ELLIPSA_STRUCTURE_FULL;
   int32_t restarts = 5;
   int32_t max_iterations = 500;
-  double tolerance = 1e-8;
+  double tolerance = 1e-6;
   double regularisation = 1e-6;
   ellipsa_progress_fn progress = nullptr;
   void* progress_user = nullptr;

@@ -309,7 +309,7 @@ typedef int32_t ellipsa_method;
  *
  * Defaults: divisor n-1 (classical), missing rows dropped, alpha 0.5 (MCD
  * family: h = floor((n+p+1)/2)), seed 0, components 1..1, structure full,
- * restarts 5, at most 500 EM iterations, relative tolerance 1e-8,
+ * restarts 5, at most 500 EM iterations, relative log-likelihood tolerance 1e-6,
  * regularisation 1e-6 (mixtures), no progress callback.
  * @param[out] out The new handle; destroy it with ellipsa_fit_options_destroy().
  * @param method One of the ELLIPSA_METHOD_ values.
