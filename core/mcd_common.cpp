@@ -114,12 +114,15 @@ SubsetFit fit_subset(const Eigen::MatrixXd& z, std::vector<Index> rows) {
   f.cov /= static_cast<double>(k);
   f.cov = f.cov.selfadjointView<Eigen::Lower>();
   bool regular = f.chol.compute(f.cov);
-  // Cheap screen first: min/max Cholesky pivot ratio bounds the eigenvalue
-  // ratio from above; only doubtful cases pay for an eigen-decomposition.
-  if (regular && f.chol.pivot_ratio() < 1e-6) {
-    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(f.cov, Eigen::EigenvaluesOnly);
-    const auto& ev = es.eigenvalues();
-    regular = ev(0) > kExactFitEigenRatio * ev(p - 1);
+  // lambda_min >= 1 / trace(cov^-1) = 1 / |L^-1|_F^2 >= lambda_min / p: a cheap
+  // lower bound clears most subsets; only doubtful ones pay for eigenvalues.
+  if (regular) {
+    const Eigen::MatrixXd linv =
+        f.chol.lower().triangularView<Eigen::Lower>().solve(Eigen::MatrixXd::Identity(p, p));
+    if (!(1.0 / linv.squaredNorm() > kExactFitEigenvalue)) {
+      Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(f.cov, Eigen::EigenvaluesOnly);
+      regular = es.eigenvalues()(0) > kExactFitEigenvalue;
+    }
   }
   f.singular = !regular;
   f.log_det = regular ? f.chol.log_determinant() : -std::numeric_limits<double>::infinity();

@@ -97,10 +97,13 @@ Eigen::MatrixXd complete_rows(DataView x, Index* dropped);
 
 namespace mcd_detail {
 
-// Eigenvalue ratio lambda_min / lambda_max of a subset covariance (in
-// standardised units) at or below which the subset is treated as lying on a
-// hyperplane, i.e. an exact fit (a spread 1e-6 times the largest).
-inline constexpr double kExactFitEigenRatio = 1e-12;
+// Smallest eigenvalue of a subset covariance, in units of the robust column
+// variances (the data are standardised by median and MAD or Qn), at or below
+// which the subset is treated as lying on a hyperplane (an exact fit): a
+// spread of 1e-6 robust standard deviations across the plane. Absolute in
+// those units, not relative to the largest eigenvalue, so that a subset that
+// contains gross outliers (huge largest eigenvalue) is not mistaken for a plane.
+inline constexpr double kExactFitEigenvalue = 1e-12;
 
 void report_progress(const ProgressCallback& cb, const char* stage, double fraction);
 

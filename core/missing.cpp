@@ -80,6 +80,14 @@ Eigen::MatrixXd gather(DataView x, const std::vector<Index>& rows,
 }
 
 void require_finite(DataView x, const char* what) {
+  // Fast vectorised test on contiguous columns first; the element-wise scan
+  // below only runs to name the offending entry.
+  if (x.innerStride() == 1) {
+    using ColumnMajor = Eigen::Map<const Eigen::MatrixXd, Eigen::Unaligned, Eigen::OuterStride<>>;
+    if (ColumnMajor(x.data(), x.rows(), x.cols(), Eigen::OuterStride<>(x.outerStride())).allFinite()) return;
+  } else if (x.allFinite()) {
+    return;
+  }
   for (Index j = 0; j < x.cols(); ++j)
     for (Index i = 0; i < x.rows(); ++i)
       if (!std::isfinite(x(i, j))) throw_non_finite(i, j, x(i, j), what);

@@ -10,9 +10,10 @@
 namespace ellipsa::core {
 namespace {
 
-// Rows per chunk: large enough that the rank-k update runs at BLAS-3 speed,
-// small enough that the centred copy stays in cache.
-constexpr Index kChunkRows = 2048;
+// Rows per chunk: large enough that the rank-k update runs at BLAS-3 speed and
+// the per-chunk overhead vanishes. 256..4096 measured within noise of each other
+// in bench_classical (1e6 x 50); 4096 was the fastest.
+constexpr Index kChunkRows = 4096;
 
 // lower += c' c for a column-major chunk c (rows x p), lower triangle only.
 void add_gram_lower(const Eigen::MatrixXd& c, Eigen::MatrixXd& lower) {
@@ -76,26 +77,44 @@ void MomentAccumulator::merge(const MomentAccumulator& other) {
                  other.cross_products());
 }
 
+namespace {
+
+// chunk = rows of src minus the shift, then centred by their own mean, which is
+// returned (relative to the shift). Subtracting a data row first leaves values
+// of the size of the spread, so their mean is accurate to eps*spread and one
+// centring pass keeps every digit: the error it leaves in the cross-products is
+// m*delta*delta', second order in that tiny delta.
+template <class Source>
+void shifted_centred_chunk(const Source& src, const Eigen::VectorXd& shift, Eigen::MatrixXd& chunk,
+                           Eigen::RowVectorXd& mu) {
+  chunk = src.rowwise() - shift.transpose();
+  mu = chunk.colwise().mean();
+  chunk.rowwise() -= mu;
+}
+
+}  // namespace
+
 void MomentAccumulator::add(DataView x) {
   const Index p = dimension();
   if (x.cols() != p) throw Error(ErrorKind::Shape, "moment accumulator: column count differs");
-  Eigen::MatrixXd chunk;
-  Eigen::MatrixXd gram(p, p);
   if (!shifted_ && x.rows() > 0) {
     shift_ = x.row(0).transpose();
     shifted_ = true;
   }
+  // Contiguous columns (column-major caller data) take a map with a compile-time
+  // unit inner stride, so the chunk copy vectorises.
+  using ColumnMajor = Eigen::Map<const Eigen::MatrixXd, Eigen::Unaligned, Eigen::OuterStride<>>;
+  const bool contiguous = x.innerStride() == 1;
+  const ColumnMajor cm(x.data(), x.rows(), x.cols(), Eigen::OuterStride<>(contiguous ? x.outerStride() : 1));
+  Eigen::MatrixXd chunk;
+  Eigen::RowVectorXd mu;
+  Eigen::MatrixXd gram(p, p);
   for (Index start = 0; start < x.rows(); start += kChunkRows) {
     const Index m = std::min(kChunkRows, x.rows() - start);
-    chunk = x.middleRows(start, m);
-    chunk.rowwise() -= shift_.transpose();
-    // Two passes inside the chunk: the mean, then a correction from the centred
-    // values, so data with a large offset keep their digits (NIST NumAcc4).
-    Eigen::RowVectorXd mu = chunk.colwise().mean();
-    chunk.rowwise() -= mu;
-    const Eigen::RowVectorXd correction = chunk.colwise().mean();
-    chunk.rowwise() -= correction;
-    mu += correction;
+    if (contiguous)
+      shifted_centred_chunk(cm.middleRows(start, m), shift_, chunk, mu);
+    else
+      shifted_centred_chunk(x.middleRows(start, m), shift_, chunk, mu);
     gram.setZero();
     add_gram_lower(chunk, gram);
     merge_relative(static_cast<double>(m), m, mu.transpose(), gram.selfadjointView<Eigen::Lower>());

@@ -26,6 +26,29 @@ double median_in_place(std::vector<double>& v) {
   return lower + (upper - lower) / 2.0;
 }
 
+// Smallest value whose cumulative weight (in increasing order) reaches half
+// the total: quickselect, expected O(size). Reorders v.
+double weighted_median(std::vector<std::pair<double, long long>>& v, long long total) {
+  auto by_value = [](const auto& a, const auto& b) { return a.first < b.first; };
+  std::size_t lo = 0, hi = v.size();
+  long long before = 0;  // weight of everything left of lo
+  for (;;) {
+    const std::size_t mid = lo + (hi - lo) / 2;
+    std::nth_element(v.begin() + static_cast<std::ptrdiff_t>(lo), v.begin() + static_cast<std::ptrdiff_t>(mid),
+                     v.begin() + static_cast<std::ptrdiff_t>(hi), by_value);
+    long long left = 0;
+    for (std::size_t i = lo; i < mid; ++i) left += v[i].second;
+    if (mid > lo && 2 * (before + left) >= total) {
+      hi = mid;
+    } else if (2 * (before + left + v[mid].second) >= total) {
+      return v[mid].first;
+    } else {
+      before += left + v[mid].second;
+      lo = mid + 1;
+    }
+  }
+}
+
 }  // namespace
 
 double median(const Eigen::Ref<const Eigen::VectorXd>& x) {
@@ -84,16 +107,7 @@ double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorX
     if (remaining <= std::max<long long>(n, 64)) break;
     // Weighted median of the row medians: at least a quarter of the remaining
     // candidates lie on each side of it.
-    std::sort(row_medians.begin(), row_medians.end());
-    double trial = row_medians.back().first;
-    long long cumulative = 0;
-    for (const auto& [value, w] : row_medians) {
-      cumulative += w;
-      if (2 * cumulative >= remaining) {
-        trial = value;
-        break;
-      }
-    }
+    const double trial = weighted_median(row_medians, remaining);
     // below[i]: first column j > i with y[j]-y[i] >= trial; not_above[i]: first
     // with y[j]-y[i] > trial. Both are non-decreasing in i (rounded differences
     // are monotone), so two pointers do each count in O(n).
