@@ -22,6 +22,21 @@ struct ScreenArgs {
   OutputFlags out;
 };
 
+// Removes a used column from a table (values and names).
+void drop_column(Table& t, const std::string& name) {
+  const auto it = std::find(t.columns.begin(), t.columns.end(), name);
+  if (it == t.columns.end()) return;
+  const auto j = static_cast<std::size_t>(it - t.columns.begin());
+  const std::size_t p = t.columns.size();
+  std::vector<double> kept;
+  kept.reserve(t.values.size() / p * (p - 1));
+  for (std::size_t k = 0; k < t.values.size(); ++k)
+    if (k % p != j) kept.push_back(t.values[k]);
+  t.values = std::move(kept);
+  t.columns.erase(it);
+  if (t.columns.empty()) throw CliError(kExitData, "no numeric columns left besides the --by column");
+}
+
 struct GroupResult {
   std::string name;
   std::vector<std::size_t> rows;  // rows of the table
@@ -48,13 +63,14 @@ Command add_screen(CLI::App& parent) {
   add_output_flags(*app, a->out);
   return {app, [a]() {
             if (!(a->level > 0.0 && a->level < 1.0)) throw CliError(kExitUsage, "--level must lie in (0, 1)");
-            CsvOptions options = a->dialect.to_options();
-            if (!a->by.empty()) options.exclude.push_back(a->by);
-            const Table t = read_table(a->data, options, true);
+            // The group column is checked against the header here (a usage
+            // error), and taken out of the variables if it happens to be numeric.
+            Table t = read_table(a->data, a->dialect.to_options(), true);
             const auto by_it = std::find(t.header.begin(), t.header.end(), a->by);
             if (!a->by.empty() && by_it == t.header.end())
               throw CliError(kExitUsage, "--by: no column named '" + a->by + "'");
             const auto by_index = static_cast<std::size_t>(by_it - t.header.begin());
+            if (!a->by.empty()) drop_column(t, a->by);
 
             std::map<std::string, std::vector<std::size_t>> members;
             for (std::size_t r = 0; r < static_cast<std::size_t>(t.rows()); ++r)

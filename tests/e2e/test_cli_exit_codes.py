@@ -1,0 +1,73 @@
+"""Documented exit codes and messages for every class of failure."""
+import os
+import sys
+
+sys.path.insert(0, os.path.dirname(__file__))
+from e2e_util import EXAMPLES, run, scratch, write  # noqa: E402
+
+failures = []
+
+
+def expect(args, code, needle=None, stdin=None):
+    got, out, err = run(*args, stdin=stdin)
+    ok = got == code and (needle is None or needle in err)
+    if not ok:
+        failures.append(f"ellipsa {' '.join(args)}: exit {got} (want {code}); stderr: {err.strip()[:300]}")
+        print("FAIL:", failures[-1])
+    return out, err
+
+
+tmp = scratch()
+good = os.path.join(EXAMPLES, "moulding_reference.csv")
+
+# 0: success, --help and --version.
+expect(["--version"], 0)
+out, _ = expect(["--help"], 0)
+if "Exit codes" not in out or "5  rows were flagged" not in out:
+    failures.append("--help documents the exit codes")
+for sub in ("fit", "score", "screen", "inspect"):
+    out, _ = expect([sub, "--help"], 0)
+    if "Exit codes" not in out:
+        failures.append(f"{sub} --help documents the exit codes")
+
+# 2: usage errors.
+expect(["fit", "--no-such-option", good], 2)
+expect(["fit", "--method", "banana", good], 2, "banana")
+expect(["fit", "--method", "mcd", "--alpha", "0.3", good], 2, "alpha")
+expect(["score", "m.json", good, "--level", "1.5"], 2, "level")
+expect(["fit", "--method", "mixture", "--components", "x", good], 2, "whole number")
+expect(["screen", good, "--by", "no_such_column"], 2, "no_such_column")
+
+# 3: bad data or files, each named with line and column where there is one.
+ragged = write(os.path.join(tmp, "ragged.csv"), "a,b,c\n1,2,3\n4,5\n")
+expect(["fit", ragged], 3, ":3")
+text = write(os.path.join(tmp, "text.csv"), "a,b\n1,2\n3,4\n5,abc\n")
+expect(["fit", text, "--columns", "a,b"], 3, "abc")
+notnum = write(os.path.join(tmp, "names.csv"), "name,place\nx,y\nz,w\n")
+expect(["fit", notnum], 3, "no numeric columns")
+expect(["fit", os.path.join(tmp, "missing.csv")], 3, "missing.csv")
+header_only = write(os.path.join(tmp, "header.csv"), "a,b\n")
+expect(["fit", header_only], 3, "no data rows")
+few = write(os.path.join(tmp, "few.csv"), "a,b,c\n1,2,3\n")
+expect(["fit", few], 3, "rows")
+const = write(os.path.join(tmp, "const.csv"), "a,b\n1,5\n2,5\n3,5\n4,5\n")
+expect(["fit", const], 3, "constant")
+bad_model = write(os.path.join(tmp, "bad.json"), '{"format": "ellipsa-model", "format_version": 99}')
+expect(["score", bad_model, good], 3, "format_version")
+expect(["inspect", bad_model], 3, "format_version")
+
+# 4: numerical failures: collinear columns (c = a + b exactly).
+rows = "\n".join(f"{i},{(i * 7) % 11},{i + (i * 7) % 11}" for i in range(1, 40))
+collinear = write(os.path.join(tmp, "collinear.csv"), "a,b,c\n" + rows + "\n")
+expect(["fit", collinear], 4, "collinear")
+
+# 5: flagged rows with --fail-on-flag (and 0 without it).
+model = os.path.join(tmp, "model.json")
+expect(["fit", "--method", "mcd", "--seed", "1", good, "-o", model], 0)
+batch = os.path.join(EXAMPLES, "moulding_new_batch.csv")
+expect(["score", model, batch, "-o", os.path.join(tmp, "s.csv")], 0)
+expect(["score", model, batch, "-o", os.path.join(tmp, "s.csv"), "--fail-on-flag"], 5)
+expect(["screen", batch, "--by", "mould", "--fail-on-flag", "--quiet"], 5)
+
+print(f"{len(failures)} failures")
+sys.exit(1 if failures else 0)
