@@ -14,7 +14,11 @@ void check_shape(DataView x) {
   if (x.rows() < 2)
     throw Error(ErrorKind::Data, "classical estimate: needs at least 2 rows, got " +
                                      std::to_string(x.rows()));
-  require_finite(x, "classical estimate");
+}
+
+void throw_constant(Index j) {
+  throw Error(ErrorKind::Data, "classical estimate: column " + std::to_string(j) +
+                                   " (0-based) is constant (zero variance)");
 }
 
 // A column is constant when every used row holds the same value. Tested on the
@@ -29,9 +33,7 @@ void check_not_constant(DataView x, const double* w) {
       if (!seen) { first = x(i, j); seen = true; }
       else varies = x(i, j) != first;
     }
-    if (!varies)
-      throw Error(ErrorKind::Data, "classical estimate: column " + std::to_string(j) +
-                                       " (0-based) is constant (zero variance)");
+    if (!varies) throw_constant(j);
   }
 }
 
@@ -62,9 +64,17 @@ ClassicalEstimate finish(const MomentAccumulator& acc, Normalisation norm, Index
 
 ClassicalEstimate classical_estimate(DataView x, Normalisation norm) {
   check_shape(x);
-  check_not_constant(x, nullptr);
+  // The finite and constant-column checks come from the accumulator's own pass
+  // over each chunk (while it is in cache) instead of two more passes over x.
   MomentAccumulator acc(x.cols());
-  acc.add(x);
+  ColumnScreen screen;
+  acc.add(x, &screen);
+  // Names the first NaN or +-Inf; returns only when every entry is finite and a
+  // column sum merely overflowed (values near the largest double), which the
+  // accumulator's shifted path handles.
+  if (!screen.finite) require_finite(x, "classical estimate");
+  for (Index j = 0; j < x.cols(); ++j)
+    if (screen.min(j) == screen.max(j)) throw_constant(j);
   return finish(acc, norm, x.cols());
 }
 
@@ -74,6 +84,7 @@ ClassicalEstimate classical_estimate(DataView x, const Eigen::Ref<const Eigen::V
     throw Error(ErrorKind::Shape, "classical estimate: " + std::to_string(w.size()) +
                                       " weights for " + std::to_string(x.rows()) + " rows");
   check_shape(x);
+  require_finite(x, "classical estimate");
   for (Index i = 0; i < w.size(); ++i)
     if (!(std::isfinite(w(i)) && w(i) >= 0.0))
       throw Error(ErrorKind::Argument, "classical estimate: weight of row " + std::to_string(i) +

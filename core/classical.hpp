@@ -1,7 +1,8 @@
 // Classical (sample) mean and covariance with the input checks a caller needs:
 // the estimate is only computed when it exists and can be factored in principle.
-// The arithmetic is MomentAccumulator's (two passes per chunk, pairwise merges),
-// so data with a large offset keep their digits.
+// The arithmetic is MomentAccumulator's (centred chunks, or the raw product only
+// where the offset is small; pairwise merges), so data with a large offset keep
+// their digits. The unweighted input checks share the accumulator's pass.
 #pragma once
 #include <Eigen/Core>
 

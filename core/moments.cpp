@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 
 #include "error.hpp"
 
@@ -14,6 +15,8 @@ namespace {
 // the per-chunk overhead vanishes. 256..4096 measured within noise of each other
 // in bench_classical (1e6 x 50); 4096 was the fastest.
 constexpr Index kChunkRows = 4096;
+// Rows per block when a chunk of a non-column-major view is copied.
+constexpr Index kCopyRows = 8;
 
 // lower += c' c for a column-major chunk c (rows x p), lower triangle only.
 void add_gram_lower(const Eigen::MatrixXd& c, Eigen::MatrixXd& lower) {
@@ -72,6 +75,7 @@ void MomentAccumulator::merge(const MomentAccumulator& other) {
     shift_ = other.shift_;
     shifted_ = true;
   }
+  direct_rows_ += other.direct_rows_;
   // Shifts are data rows, so their difference is exact for nearby data.
   merge_relative(other.weight_, other.rows_, (other.shift_ - shift_) + other.relative_mean_,
                  other.cross_products());
@@ -94,30 +98,157 @@ void shifted_centred_chunk(const Source& src, const Eigen::VectorXd& shift, Eige
 
 }  // namespace
 
-void MomentAccumulator::add(DataView x) {
+namespace {
+
+// Largest |chunk mean| / chunk sd (per column) for which a chunk's centred
+// cross-products may be taken from its raw product X'X - u xbar' (u = column
+// sums, xbar = u / m). Forming X'X rounds entry (j,k) by about
+// eps * sum_i |x_ij x_ik| and sum_i x_ij^2 = m (xbar_j^2 + sd_j^2), so the
+// centred result carries an error, relative to sd_j sd_k, of about
+// eps * (1 + B^2) on top of the centred path's own few eps: with B = 16 about
+// 260 eps = 6e-14 (test_moments measures 2.8e-14 at 10 sd, 2.5e-13 at 30 sd).
+// Data further from zero (NIST NumAcc4, values at 1e9 with sd 1e-3) take the
+// centred copy, which keeps every digit.
+constexpr double kMaxOffsetRatio = 16.0;
+
+// One pass over a column-major block (m rows, leading dimension ld): column
+// sums and, when wanted, column minima and maxima. The sums use 8 lanes and a
+// fixed combination order, so they depend on the values alone, not on the
+// address or the layout the block came from (the fit of a row-major and of a
+// column-major copy of the same data must be bit-identical).
+template <bool kRange>
+void column_pass(const double* a, Index m, Index p, Index ld, double* sum, double* lo, double* hi) {
+  constexpr int kLanes = 8;
+  const Index body = m - m % kLanes;
+  for (Index j = 0; j < p; ++j) {
+    const double* c = a + j * ld;
+    double s[kLanes] = {}, mn[kLanes], mx[kLanes];
+    for (int l = 0; l < kLanes; ++l) mn[l] = mx[l] = m > 0 ? c[0] : 0.0;
+    for (Index i = 0; i < body; i += kLanes)
+      for (int l = 0; l < kLanes; ++l) {
+        const double v = c[i + l];
+        s[l] += v;
+        if constexpr (kRange) {
+          mn[l] = v < mn[l] ? v : mn[l];
+          mx[l] = v > mx[l] ? v : mx[l];
+        }
+      }
+    double total = ((s[0] + s[4]) + (s[1] + s[5])) + ((s[2] + s[6]) + (s[3] + s[7]));
+    for (Index i = body; i < m; ++i) {
+      total += c[i];
+      if constexpr (kRange) {
+        mn[0] = c[i] < mn[0] ? c[i] : mn[0];
+        mx[0] = c[i] > mx[0] ? c[i] : mx[0];
+      }
+    }
+    sum[j] = total;
+    if constexpr (kRange)
+      for (int l = 0; l < kLanes; ++l) {
+        lo[j] = mn[l] < lo[j] ? mn[l] : lo[j];
+        hi[j] = mx[l] > hi[j] ? mx[l] : hi[j];
+      }
+  }
+}
+
+// raw = rows start..start+m-1 of x, column-major. Row-major rows (unit column
+// step) are transposed in blocks of kCopyRows rows, which stay in L1, instead
+// of p strided sweeps over the whole chunk; other layouts use Eigen's copy.
+void copy_rows_column_major(DataView x, Index start, Index m, Eigen::MatrixXd& raw) {
+  const Index p = x.cols();
+  raw.resize(m, p);
+  if (x.outerStride() != 1) {
+    raw = x.middleRows(start, m);
+    return;
+  }
+  const Index row_step = x.innerStride();
+  const double* src = x.data() + start * row_step;
+  double* dst = raw.data();
+  for (Index r = 0; r < m; r += kCopyRows) {
+    const Index b = std::min(kCopyRows, m - r);
+    for (Index j = 0; j < p; ++j)
+      for (Index l = 0; l < b; ++l) dst[j * m + r + l] = src[(r + l) * row_step + j];
+  }
+}
+
+}  // namespace
+
+bool MomentAccumulator::offset_allows_raw_product() const {
+  // Predicted from the moments so far; each chunk is checked again on its own
+  // moments before its raw product is used.
+  if (!(weight_ > 0.0)) return false;
+  for (Index j = 0; j < dimension(); ++j)
+    if (!(mean_(j) * mean_(j) * weight_ <= kMaxOffsetRatio * kMaxOffsetRatio * lower_(j, j))) return false;
+  return true;
+}
+
+void MomentAccumulator::add(DataView x, ColumnScreen* screen) {
   const Index p = dimension();
   if (x.cols() != p) throw Error(ErrorKind::Shape, "moment accumulator: column count differs");
+  if (screen) {
+    screen->finite = true;
+    screen->min = Eigen::VectorXd::Constant(p, std::numeric_limits<double>::infinity());
+    screen->max = Eigen::VectorXd::Constant(p, -std::numeric_limits<double>::infinity());
+  }
   if (!shifted_ && x.rows() > 0) {
     shift_ = x.row(0).transpose();
     shifted_ = true;
   }
-  // Contiguous columns (column-major caller data) take a map with a compile-time
-  // unit inner stride, so the chunk copy vectorises.
+  // Column-major caller data (unit row step, columns at least a chunk apart, an
+  // int leading dimension) are read in place: a chunk of rows is a BLAS
+  // sub-matrix. Other layouts are copied chunk by chunk into `raw` first; the
+  // arithmetic after that point is the same for every layout.
+  const bool in_place = x.innerStride() == 1 && x.outerStride() <= std::numeric_limits<int>::max() &&
+                        (p == 1 || x.outerStride() >= x.rows());
+  const Index ld_in_place = std::max<Index>(x.outerStride(), x.rows());
   using ColumnMajor = Eigen::Map<const Eigen::MatrixXd, Eigen::Unaligned, Eigen::OuterStride<>>;
-  const bool contiguous = x.innerStride() == 1;
-  const ColumnMajor cm(x.data(), x.rows(), x.cols(), Eigen::OuterStride<>(contiguous ? x.outerStride() : 1));
-  Eigen::MatrixXd chunk;
+  const ColumnMajor cm(x.data(), x.rows(), x.cols(), Eigen::OuterStride<>(in_place ? x.outerStride() : 1));
+  Eigen::MatrixXd raw, chunk, gram(p, p);
   Eigen::RowVectorXd mu;
-  Eigen::MatrixXd gram(p, p);
+  Eigen::VectorXd sum(p), xbar(p);
+  bool raw_product_ok = true;  // cleared for the rest of the call after a chunk fails its check
   for (Index start = 0; start < x.rows(); start += kChunkRows) {
     const Index m = std::min(kChunkRows, x.rows() - start);
-    if (contiguous)
+    if (!in_place) copy_rows_column_major(x, start, m, raw);
+    const double* block = in_place ? x.data() + start : raw.data();
+    const Index ld = in_place ? ld_in_place : m;
+    const bool try_raw = raw_product_ok && offset_allows_raw_product();
+    if (screen)
+      column_pass<true>(block, m, p, ld, sum.data(), screen->min.data(), screen->max.data());
+    else if (try_raw)
+      column_pass<false>(block, m, p, ld, sum.data(), nullptr, nullptr);
+    if (screen) screen->finite = screen->finite && sum.allFinite();
+    if (try_raw) {
+      // Centred cross-products from the raw product: X'X - u xbar' (u = column
+      // sums, xbar = u / m), lower triangle, accepted only when this chunk's
+      // own offset is within kMaxOffsetRatio sds (NaN fails the test).
+      const double md = static_cast<double>(m);
+      xbar = sum / md;
+      cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(p), static_cast<int>(m), 1.0, block,
+                  static_cast<int>(ld), 0.0, gram.data(), static_cast<int>(p));
+      bool accepted = true;
+      for (Index k = 0; k < p; ++k) {
+        for (Index i = k; i < p; ++i) gram(i, k) -= sum(i) * xbar(k);
+        accepted = accepted && md * xbar(k) * xbar(k) <= kMaxOffsetRatio * kMaxOffsetRatio * gram(k, k);
+      }
+      if (accepted) {
+        merge_relative(md, m, xbar - shift_, gram);
+        direct_rows_ += m;
+        continue;
+      }
+      raw_product_ok = false;
+    }
+    if (in_place) {
+      // The vectorised copy needs the compile-time unit row step of `cm`.
       shifted_centred_chunk(cm.middleRows(start, m), shift_, chunk, mu);
-    else
-      shifted_centred_chunk(x.middleRows(start, m), shift_, chunk, mu);
+    } else {
+      raw.rowwise() -= shift_.transpose();
+      mu = raw.colwise().mean();
+      raw.rowwise() -= mu;
+      chunk.swap(raw);
+    }
     gram.setZero();
     add_gram_lower(chunk, gram);
-    merge_relative(static_cast<double>(m), m, mu.transpose(), gram.selfadjointView<Eigen::Lower>());
+    merge_relative(static_cast<double>(m), m, mu.transpose(), gram);
   }
 }
 

@@ -15,6 +15,20 @@ namespace ellipsa::core {
 // the weights are frequency counts.
 enum class Normalisation { ByCount, ByCountMinusOne };
 
+// Facts about the raw data that MomentAccumulator::add reads anyway, handed to a
+// caller that must screen its input (finite values, non-constant columns)
+// without a second pass over the data.
+struct ColumnScreen {
+  // True when every column sum of the raw data is finite, which implies that
+  // every entry is finite. False when some entry is NaN or +-Inf, or (values
+  // near the largest double only) when a column sum overflowed: a caller that
+  // needs to tell these apart scans the data (require_finite in missing.hpp).
+  bool finite = true;
+  // Smallest and largest entry of each column; meaningful when every entry is
+  // finite. A column is constant exactly when min == max (+0 == -0).
+  Eigen::VectorXd min, max;
+};
+
 class MomentAccumulator {
  public:
   explicit MomentAccumulator(Index p = 0);
@@ -24,13 +38,18 @@ class MomentAccumulator {
   double weight_sum() const { return weight_; }
   // Rows added with a positive weight.
   Index rows() const { return rows_; }
+  // Rows whose cross-products came from the product of the raw (uncentred)
+  // data, the fast path of add(); see moments.cpp for when it is taken and its
+  // error bound. A diagnostic: the moments do not depend on it beyond rounding.
+  Index direct_rows() const { return direct_rows_; }
   const Eigen::VectorXd& mean() const { return mean_; }
   // sum_i w_i (x_i - mean)(x_i - mean)', full symmetric matrix.
   Eigen::MatrixXd cross_products() const;
 
-  // Adds every row of x with weight 1. Rows must be finite (not checked here;
-  // the callers screen missing values first).
-  void add(DataView x);
+  // Adds every row of x with weight 1. Rows must be finite (not checked here:
+  // the callers screen missing values first, or pass `screen`, which is filled
+  // from the same pass over the data; non-finite rows give non-finite moments).
+  void add(DataView x, ColumnScreen* screen = nullptr);
   // Adds row i of x with weight w(i); weights must be finite and >= 0.
   void add(DataView x, const Eigen::Ref<const Eigen::VectorXd>& w);
   // Adds the accumulated moments of another accumulator of the same dimension.
@@ -45,12 +64,16 @@ class MomentAccumulator {
   Eigen::MatrixXd covariance(Normalisation norm) const;
 
  private:
+  // Whether the moments so far put every column mean within kMaxOffsetRatio
+  // standard deviations of zero (moments.cpp): the raw-product path may be tried.
+  bool offset_allows_raw_product() const;
   // Merges moments whose mean is given relative to shift_.
   void merge_relative(double weight, Index rows, const Eigen::VectorXd& relative_mean,
                       const Eigen::MatrixXd& cross_products);
 
   double weight_ = 0.0;
   Index rows_ = 0;
+  Index direct_rows_ = 0;
   // Means are kept relative to a shift (the first row added): with data near
   // 1e9 and spread 1e-3 an absolute chunk mean carries a rounding error of
   // ulp(1e9)/2, which the merge term delta*delta' would amplify; differences of

@@ -7,6 +7,7 @@
 #include <algorithm>
 #include <cmath>
 #include <fstream>
+#include <functional>
 #include <limits>
 #include <numeric>
 #include <random>
@@ -264,6 +265,214 @@ TEST(ClassicalProperties, CorrelationFromCovariance) {
   EXPECT_THROW(correlation_from_covariance(Eigen::MatrixXd(2, 3)), Error);
 }
 
+// ---------------------------------------------------------------- raw-product path
+
+namespace {
+ErrorKind kind_of(const std::function<void()>& f) {
+  try {
+    f();
+  } catch (const Error& e) {
+    return e.kind();
+  }
+  ADD_FAILURE() << "no error thrown";
+  return ErrorKind::Format;
+}
+std::string message_of(const std::function<void()>& f) {
+  try {
+    f();
+  } catch (const Error& e) {
+    return e.what();
+  }
+  return "";
+}
+}  // namespace
+
+
+namespace {
+
+// Two-pass mean and centred cross-products in long double (64-bit mantissa).
+struct LongDoubleMoments {
+  Eigen::VectorXd mean;
+  Eigen::MatrixXd cross;
+};
+LongDoubleMoments long_double_moments(const Eigen::MatrixXd& x) {
+  const Index n = x.rows(), p = x.cols();
+  std::vector<long double> m(static_cast<std::size_t>(p), 0.0L);
+  LongDoubleMoments out{Eigen::VectorXd(p), Eigen::MatrixXd(p, p)};
+  for (Index j = 0; j < p; ++j) {
+    long double s = 0.0L;
+    for (Index i = 0; i < n; ++i) s += x(i, j);
+    m[static_cast<std::size_t>(j)] = s / n;
+    out.mean(j) = static_cast<double>(m[static_cast<std::size_t>(j)]);
+  }
+  for (Index k = 0; k < p; ++k)
+    for (Index j = 0; j < p; ++j) {
+      long double s = 0.0L;
+      for (Index i = 0; i < n; ++i)
+        s += (x(i, j) - m[static_cast<std::size_t>(j)]) * (x(i, k) - m[static_cast<std::size_t>(k)]);
+      out.cross(j, k) = static_cast<double>(s);
+    }
+  return out;
+}
+
+// Largest |a_jk - b_jk| / sqrt(b_jj b_kk): the error on the correlation scale,
+// meaningful for off-diagonal entries near zero too.
+double scaled_error(const Eigen::MatrixXd& a, const Eigen::MatrixXd& b) {
+  double worst = 0.0;
+  for (Index k = 0; k < b.cols(); ++k)
+    for (Index j = 0; j < b.rows(); ++j)
+      worst = std::max(worst, std::abs(a(j, k) - b(j, k)) / std::sqrt(b(j, j) * b(k, k)));
+  return worst;
+}
+
+// Largest |mean error| in units of the column sd.
+double mean_error_in_sd(const Eigen::VectorXd& a, const LongDoubleMoments& ref, Index n) {
+  double worst = 0.0;
+  for (Index j = 0; j < a.size(); ++j)
+    worst = std::max(worst, std::abs(a(j) - ref.mean(j)) / std::sqrt(ref.cross(j, j) / static_cast<double>(n)));
+  return worst;
+}
+
+// The centred-copy path only: each piece of at most 4096 rows (one chunk) goes
+// into a fresh accumulator, whose first chunk always takes that path.
+MomentAccumulator centred_copy_only(const Eigen::MatrixXd& x) {
+  MomentAccumulator acc(x.cols());
+  for (Index start = 0; start < x.rows(); start += 4096) {
+    MomentAccumulator piece(x.cols());
+    piece.add(make_view(x.middleRows(start, std::min<Index>(4096, x.rows() - start)).eval()));
+    EXPECT_EQ(piece.direct_rows(), 0);
+    acc.merge(piece);
+  }
+  return acc;
+}
+
+// Correlated data with every column moved by `offset_in_sd` of its own sd.
+Eigen::MatrixXd offset_data(std::mt19937_64& rng, Index n, Index p, double offset_in_sd) {
+  Eigen::MatrixXd x = correlated(rng, n, p);
+  for (Index j = 0; j < p; ++j) {
+    const double sd = std::sqrt((x.col(j).array() - x.col(j).mean()).square().sum() / static_cast<double>(n - 1));
+    x.col(j).array() += offset_in_sd * sd * (j % 2 ? -1.0 : 1.0);
+  }
+  return x;
+}
+
+}  // namespace
+
+TEST(ClassicalRawProduct, AgreesWithCentredPathAtSmallOffsets) {
+  std::mt19937_64 rng(21);
+  const Index n = 5 * 4096 + 77, p = 6;
+  // Offsets in column sds: up to 15 take the raw product after the first chunk
+  // (the limit is 16; a short last chunk may still be refused on its own
+  // moments), 30 and 1e3 must stay on the centred copy.
+  struct Case { double offset; bool raw; };
+  for (const Case c : {Case{0.0, true}, Case{10.0, true}, Case{15.0, true}, Case{30.0, false}, Case{1e3, false}}) {
+    const Eigen::MatrixXd x = offset_data(rng, n, p, c.offset);
+    MomentAccumulator acc(p);
+    acc.add(make_view(x));
+    if (c.raw)
+      EXPECT_GE(acc.direct_rows(), n - 2 * 4096) << c.offset;
+    else
+      EXPECT_EQ(acc.direct_rows(), 0) << c.offset;
+    if (c.offset == 0.0) EXPECT_EQ(acc.direct_rows(), n - 4096);
+    const MomentAccumulator copy = centred_copy_only(x);
+    const LongDoubleMoments ref = long_double_moments(x);
+    const double vs_copy = scaled_error(acc.cross_products(), copy.cross_products());
+    const double vs_ref = scaled_error(acc.cross_products(), ref.cross);
+    const double copy_vs_ref = scaled_error(copy.cross_products(), ref.cross);
+    std::printf("  offset %6.0f sd: raw rows %ld, error vs centred copy %.1e, vs long double %.1e "
+                "(centred copy vs long double %.1e)\n",
+                c.offset, static_cast<long>(acc.direct_rows()), vs_copy, vs_ref, copy_vs_ref);
+    EXPECT_LE(vs_copy, 1e-13) << c.offset;
+    EXPECT_LE(vs_ref, 1e-13) << c.offset;
+    EXPECT_LE(mean_error_in_sd(acc.mean(), ref, n), 1e-14 * (1.0 + c.offset)) << c.offset;
+  }
+}
+
+TEST(ClassicalRawProduct, LargeOffsetsFallBackAndKeepTheirDigits) {
+  std::mt19937_64 rng(22);
+  const Index n = 4 * 4096 + 5, p = 4;
+  // Stationary data at 1e6 sd: no chunk takes the raw product.
+  const Eigen::MatrixXd x = offset_data(rng, n, p, 1e6);
+  MomentAccumulator acc(p);
+  acc.add(make_view(x));
+  EXPECT_EQ(acc.direct_rows(), 0);
+  const LongDoubleMoments ref = long_double_moments(x);
+  EXPECT_LE(scaled_error(acc.cross_products(), ref.cross), 1e-13);
+  EXPECT_LE(mean_error_in_sd(acc.mean(), ref, n), 1e-9);  // the data themselves carry 1e6 * eps sd
+
+  // A level shift: three chunks near 0, then a jump to 1e6 sd. The prediction
+  // from the first chunks allows the raw product; the chunk's own check must
+  // refuse it, and the rest of the call stays on the centred copy.
+  Eigen::MatrixXd y = offset_data(rng, n, p, 0.0);
+  y.bottomRows(n - 3 * 4096).array() += 1e6 * 3.0;
+  MomentAccumulator acc_y(p);
+  acc_y.add(make_view(y));
+  EXPECT_EQ(acc_y.direct_rows(), 2 * 4096);
+  const LongDoubleMoments ref_y = long_double_moments(y);
+  const double err_y = scaled_error(acc_y.cross_products(), ref_y.cross);
+  std::printf("  offset 1e6 sd: error vs long double %.1e; level shift to 1e6 sd: %.1e\n",
+              scaled_error(acc.cross_products(), ref.cross), err_y);
+  EXPECT_LE(err_y, 1e-13);
+}
+
+TEST(ClassicalRawProduct, LayoutsGiveBitIdenticalMoments) {
+  // Column-major, a column-major block of a taller matrix, row-major and a
+  // row-major slice (every other row, padding columns) reach the same arithmetic.
+  std::mt19937_64 rng(23);
+  const Index n = 3 * 4096 + 123, p = 5;
+  using RowMajor = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
+  for (const double offset : {3.0, 1e4}) {
+    const Eigen::MatrixXd x = offset_data(rng, n, p, offset);
+    Eigen::MatrixXd tall = Eigen::MatrixXd::Constant(n + 9, p, -7.0);
+    tall.middleRows(4, n) = x;
+    const RowMajor xr = x;
+    RowMajor wide = RowMajor::Constant(2 * n, p + 3, -7.0);
+    for (Index i = 0; i < n; ++i) wide.block(2 * i, 1, 1, p) = x.row(i);
+    const DataView views[] = {make_view(x), make_view(tall.data() + 4, n, p, 1, n + 9),
+                              make_view(xr.data(), n, p, p, 1),
+                              make_view(wide.data() + 1, n, p, 2 * (p + 3), 1)};
+    std::vector<ClassicalEstimate> fits;
+    for (const DataView& v : views) {
+      MomentAccumulator acc(p);
+      acc.add(v);
+      EXPECT_EQ(acc.direct_rows(), offset < 16.0 ? n - 4096 : 0);
+      fits.push_back(classical_estimate(v, Normalisation::ByCountMinusOne));
+    }
+    for (std::size_t k = 1; k < fits.size(); ++k) {
+      EXPECT_EQ(fits[k].mean, fits[0].mean) << "view " << k << ", offset " << offset;  // bit-identical
+      EXPECT_EQ(fits[k].covariance, fits[0].covariance) << "view " << k << ", offset " << offset;
+    }
+  }
+}
+
+TEST(ClassicalRawProduct, ScreeningInTheSamePassFindsLateProblems) {
+  std::mt19937_64 rng(24);
+  const Index n = 3 * 4096 + 10, p = 3;
+  const Eigen::MatrixXd x = offset_data(rng, n, p, 2.0);
+  const auto cls = [](const Eigen::MatrixXd& m) { return classical_estimate(make_view(m), Normalisation::ByCount); };
+  // A NaN or Inf in the last chunk only.
+  Eigen::MatrixXd bad = x;
+  bad(n - 2, 1) = kNaN;
+  EXPECT_NE(message_of([&] { cls(bad); }).find("missing"), std::string::npos);
+  bad(n - 2, 1) = kInf;
+  EXPECT_NE(message_of([&] { cls(bad); }).find("non-finite"), std::string::npos);
+  // Constant over the first chunks, different in the last row: not constant.
+  bad = x;
+  bad.col(2).setConstant(-0.0);
+  bad(n - 1, 2) = 1.0;
+  EXPECT_NO_THROW(cls(bad));
+  bad(n - 1, 2) = 0.0;  // +0 and -0 are the same value
+  EXPECT_NE(message_of([&] { cls(bad); }).find("column 2 (0-based) is constant"), std::string::npos);
+  // Finite values whose column sum overflows are not reported as non-finite:
+  // the variance itself overflows and is reported as such.
+  bad = x;
+  bad.col(0).setConstant(1e308);
+  bad(7, 0) = 0.0;
+  const std::string overflow = message_of([&] { cls(bad); });
+  EXPECT_NE(overflow.find("overflows"), std::string::npos) << overflow;
+  EXPECT_EQ(overflow.find("non-finite"), std::string::npos) << overflow;
+}
+
 // ---------------------------------------------------------------- edge values
 
 TEST(ClassicalEdges, HugeOffsetSmallSpread) {
@@ -323,25 +532,6 @@ TEST(ClassicalEdges, SignedZeros) {
 
 // ---------------------------------------------------------------- errors
 
-namespace {
-ErrorKind kind_of(const std::function<void()>& f) {
-  try {
-    f();
-  } catch (const Error& e) {
-    return e.kind();
-  }
-  ADD_FAILURE() << "no error thrown";
-  return ErrorKind::Format;
-}
-std::string message_of(const std::function<void()>& f) {
-  try {
-    f();
-  } catch (const Error& e) {
-    return e.what();
-  }
-  return "";
-}
-}  // namespace
 
 TEST(ClassicalErrors, BadInputIsRejectedWithItsKind) {
   std::mt19937_64 rng(19);
