@@ -38,17 +38,6 @@ double reweight_consistency_factor(double level, Index p) {
   return level / chi2_cdf(chi2_quantile(level, pd), pd + 2.0);
 }
 
-Eigen::MatrixXd complete_rows(DataView x, Index* dropped) {
-  std::vector<Index> keep;
-  keep.reserve(static_cast<std::size_t>(x.rows()));
-  for (Index i = 0; i < x.rows(); ++i)
-    if (x.row(i).allFinite()) keep.push_back(i);
-  Eigen::MatrixXd out(static_cast<Index>(keep.size()), x.cols());
-  for (std::size_t k = 0; k < keep.size(); ++k) out.row(static_cast<Index>(k)) = x.row(keep[k]);
-  if (dropped) *dropped = x.rows() - static_cast<Index>(keep.size());
-  return out;
-}
-
 namespace mcd_detail {
 
 void report_progress(const ProgressCallback& cb, const char* stage, double fraction) {
@@ -106,20 +95,27 @@ SubsetFit fit_subset(const Eigen::MatrixXd& z, std::vector<Index> rows) {
   SubsetFit f;
   f.rows = std::move(rows);
   const Index k = static_cast<Index>(f.rows.size()), p = z.cols();
+  // Gather column by column: z is column-major, so each column's reads stay
+  // within one contiguous array.
   Eigen::MatrixXd g(k, p);
-  for (Index i = 0; i < k; ++i) g.row(i) = z.row(f.rows[static_cast<std::size_t>(i)]);
+  for (Index j = 0; j < p; ++j) {
+    const double* src = z.col(j).data();
+    double* dst = g.col(j).data();
+    for (Index i = 0; i < k; ++i) dst[i] = src[f.rows[static_cast<std::size_t>(i)]];
+  }
   f.mean = g.colwise().mean().transpose();
   g.rowwise() -= f.mean.transpose();
-  f.cov.noalias() = g.transpose() * g;
+  // Lower triangle by a rank-k update (half the work of g'g), then mirrored.
+  f.cov.setZero(p, p);
+  f.cov.selfadjointView<Eigen::Lower>().rankUpdate(g.transpose());
   f.cov /= static_cast<double>(k);
   f.cov = f.cov.selfadjointView<Eigen::Lower>();
   bool regular = f.chol.compute(f.cov);
   // lambda_min >= 1 / trace(cov^-1) = 1 / |L^-1|_F^2 >= lambda_min / p: a cheap
   // lower bound clears most subsets; only doubtful ones pay for eigenvalues.
   if (regular) {
-    const Eigen::MatrixXd linv =
-        f.chol.lower().triangularView<Eigen::Lower>().solve(Eigen::MatrixXd::Identity(p, p));
-    if (!(1.0 / linv.squaredNorm() > kExactFitEigenvalue)) {
+    f.linv = f.chol.lower().triangularView<Eigen::Lower>().solve(Eigen::MatrixXd::Identity(p, p));
+    if (!(1.0 / f.linv.squaredNorm() > kExactFitEigenvalue)) {
       Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(f.cov, Eigen::EigenvaluesOnly);
       regular = es.eigenvalues()(0) > kExactFitEigenvalue;
     }
@@ -129,23 +125,43 @@ SubsetFit fit_subset(const Eigen::MatrixXd& z, std::vector<Index> rows) {
   return f;
 }
 
+void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, Eigen::VectorXd& d2) {
+  const Index n = z.rows();
+  d2.resize(n);
+  // Rows in chunks: centre, multiply by L^-T (one small GEMM per chunk), sum
+  // squares. L^-1 of the p x p factor is the triangular inverse fit_subset
+  // forms anyway for its exact-fit test.
+  constexpr Index kChunk = 2048;
+  const Eigen::MatrixXd linv_t = fit.linv.transpose();
+  Eigen::MatrixXd c, y;
+  for (Index s = 0; s < n; s += kChunk) {
+    const Index m = std::min(kChunk, n - s);
+    c = z.middleRows(s, m).rowwise() - fit.mean.transpose();
+    y.noalias() = c * linv_t;  // plain GEMM: faster than a triangular product at small p
+    d2.segment(s, m) = y.rowwise().squaredNorm();
+  }
+}
+
 std::vector<Index> smallest_h(const Eigen::VectorXd& d2, Index h, const Eigen::MatrixXd& z) {
   const Index n = d2.size();
   std::vector<double> v(d2.data(), d2.data() + n);
   std::nth_element(v.begin(), v.begin() + (h - 1), v.end());
   const double cut = v[static_cast<std::size_t>(h - 1)];
-  std::vector<char> take(static_cast<std::size_t>(n), 0);
-  std::vector<Index> tied;
-  Index below = 0;
+  // Rows strictly below the cut, collected without data-dependent branches
+  // (about half the rows are taken, in no predictable pattern); v is reused.
+  std::vector<Index> rows(static_cast<std::size_t>(n) + 1);
+  std::size_t below = 0, at_cut = 0;
   for (Index i = 0; i < n; ++i) {
-    if (d2(i) < cut) {
-      take[static_cast<std::size_t>(i)] = 1;
-      ++below;
-    } else if (d2(i) == cut) {
-      tied.push_back(i);
-    }
+    rows[below] = i;
+    below += d2(i) < cut;
+    at_cut += d2(i) == cut;
   }
-  const std::size_t need = static_cast<std::size_t>(h - below);
+  rows.resize(below);
+  const std::size_t need = static_cast<std::size_t>(h) - below;
+  std::vector<Index> tied;
+  tied.reserve(at_cut);
+  for (Index i = 0; i < n; ++i)
+    if (d2(i) == cut) tied.push_back(i);
   if (tied.size() > need) {
     // Ties at the cut are broken by the values of the rows, not by row order.
     std::sort(tied.begin(), tied.end(), [&z](Index a, Index b) {
@@ -154,17 +170,17 @@ std::vector<Index> smallest_h(const Eigen::VectorXd& d2, Index h, const Eigen::M
       return a < b;
     });
     tied.resize(need);
+    std::sort(tied.begin(), tied.end());
   }
-  for (Index i : tied) take[static_cast<std::size_t>(i)] = 1;
-  std::vector<Index> rows;
-  rows.reserve(static_cast<std::size_t>(h));
-  for (Index i = 0; i < n; ++i)
-    if (take[static_cast<std::size_t>(i)]) rows.push_back(i);
+  const std::size_t mid = rows.size();
+  rows.insert(rows.end(), tied.begin(), tied.end());
+  std::inplace_merge(rows.begin(), rows.begin() + static_cast<std::ptrdiff_t>(mid), rows.end());
   return rows;
 }
 
 bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit) {
-  const Eigen::VectorXd d2 = fit.chol.squared_distances(make_view(z), fit.mean);
+  Eigen::VectorXd d2;
+  subset_distances(z, fit, d2);
   std::vector<Index> rows = smallest_h(d2, h, z);
   if (rows == fit.rows) return false;
   SubsetFit next = fit_subset(z, std::move(rows));

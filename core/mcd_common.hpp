@@ -92,8 +92,6 @@ double mcd_consistency_factor(Index h, Index n, Index p);
 // level / F_{chi2, p+2}(chi2q(p, level)).
 double reweight_consistency_factor(double level, Index p);
 
-// Copies the rows of x without NaN/inf; *dropped receives the number removed.
-Eigen::MatrixXd complete_rows(DataView x, Index* dropped);
 
 namespace mcd_detail {
 
@@ -125,10 +123,15 @@ struct SubsetFit {
   Eigen::VectorXd mean;
   Eigen::MatrixXd cov;
   CholeskyFactor chol;
+  Eigen::MatrixXd linv;  // L^-1 of chol (p x p lower), set when chol succeeded
   double log_det = 0.0;  // -inf when singular
   bool singular = false;
 };
 SubsetFit fit_subset(const Eigen::MatrixXd& z, std::vector<Index> rows);
+
+// d2_i = |L^-1 (z_i - mean)|^2 for every row of z under a nonsingular fit,
+// into d2 (resized), in row chunks with one small GEMM each.
+void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, Eigen::VectorXd& d2);
 
 // The h rows with the smallest d2, ascending by row. Rows tied at the cut are
 // taken in lexicographic order of their values, so the chosen set does not

@@ -182,8 +182,8 @@ Index scaled_h(Index rows, Index h, Index n) {
 
 void check_options(const FastMcdOptions& o) {
   if (o.starts < 1 || o.best_kept < 1 || o.initial_csteps < 0 || o.max_csteps < 1 ||
-      o.group_size < 2 || o.max_groups < 1 || o.nested_threshold < 1)
-    throw Error(ErrorKind::Argument, "FAST-MCD: starts, best_kept, max_csteps, group_size, max_groups must be positive");
+      o.group_size < 2 || o.max_groups < 1 || o.nested_threshold < 1 || o.full_data_rows < 1)
+    throw Error(ErrorKind::Argument, "FAST-MCD: starts, best_kept, max_csteps, group_size, max_groups, full_data_rows must be positive");
 }
 
 }  // namespace
@@ -299,7 +299,10 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
       mcd_detail::report_progress(opt.progress, "pooled groups", 0.6);
       const Eigen::MatrixXd zp = gather_rows(st.z, pool);
       refine(s, zp, scaled_h(pool_size, h, n), pooled, opt.initial_csteps, true);
-      keep_best(pooled, opt.best_kept);
+      // The m_full best pooled results go on to the full data (Rousseeuw &
+      // Van Driessen 1999, nested extensions: m_full depends on n).
+      const Index m_full = std::clamp<Index>(opt.full_data_rows / n, 1, opt.best_kept);
+      keep_best(pooled, static_cast<int>(m_full));
       cands = std::move(pooled);
     }
   }

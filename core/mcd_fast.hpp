@@ -24,6 +24,12 @@ struct FastMcdOptions {
   Index nested_threshold = 600;  // n above this: nested scheme
   Index group_size = 300;        // rows per group in the nested scheme
   int max_groups = 5;            // at most max_groups * group_size rows pooled
+  // Nested scheme, last stage: Rousseeuw & Van Driessen (1999) iterate "the
+  // m_full best results" on the full data and leave m_full to the data size.
+  // Here m_full = clamp(full_data_rows / n, 1, best_kept): all best_kept
+  // candidates up to n = full_data_rows / best_kept (20000 by default), fewer
+  // beyond, so that the full-data C-steps grow like n, not like n * best_kept.
+  Index full_data_rows = 200000;
   double reweight_level = 0.975; // reweighting cutoff chi2q(p, level)
   ProgressCallback progress;     // optional; false cancels
 };

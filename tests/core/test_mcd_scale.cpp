@@ -99,3 +99,115 @@ TEST(RobustScale, QnAllEqualAndSubnormal) {
   EXPECT_EQ(qn_scale(tiny), qn_consistency_constant() * brute_pairwise(tiny, hq * (hq - 1) / 2));
   EXPECT_GT(qn_scale(tiny), 0.0);
 }
+
+namespace {
+
+// All pairwise differences, sorted: the reference for every rank k at once.
+std::vector<double> sorted_differences(const Eigen::VectorXd& x) {
+  std::vector<double> d;
+  d.reserve(static_cast<std::size_t>(x.size() * (x.size() - 1) / 2));
+  for (Index i = 0; i < x.size(); ++i)
+    for (Index j = i + 1; j < x.size(); ++j) d.push_back(std::abs(x(i) - x(j)));
+  std::sort(d.begin(), d.end());
+  return d;
+}
+
+// Ranks spread over [1, pairs], with both ends and the Qn rank.
+std::vector<long long> probe_ranks(Index n, std::mt19937_64& g) {
+  const long long pairs = static_cast<long long>(n) * (n - 1) / 2;
+  const long long hq = n / 2 + 1;
+  std::vector<long long> k{1, 2, pairs - 1, pairs, hq * (hq - 1) / 2, pairs / 2, pairs / 4 + 1};
+  for (int r = 0; r < 12; ++r) k.push_back(1 + static_cast<long long>(g() % static_cast<std::uint64_t>(pairs)));
+  return k;
+}
+
+void expect_all_ranks(const Eigen::VectorXd& x, std::mt19937_64& g, const char* what) {
+  const std::vector<double> d = sorted_differences(x);
+  for (long long k : probe_ranks(x.size(), g))
+    ASSERT_EQ(pairwise_difference_order_statistic(x, k), d[static_cast<std::size_t>(k - 1)])
+        << what << " n=" << x.size() << " k=" << k;
+}
+
+}  // namespace
+
+// Sizes above a few hundred, where the sampled bracketing rounds run (below,
+// the candidates are enumerated at once), against the sorted list of all
+// differences.
+TEST(RobustScale, SampledSelectionMatchesBruteForceRandomSizes) {
+  std::mt19937_64 g(2024);
+  for (int trial = 0; trial < 8; ++trial) {
+    const Index n = 400 + static_cast<Index>(g() % 2600);
+    expect_all_ranks(random_vector(n, g, false), g, "distinct");
+  }
+}
+
+TEST(RobustScale, SampledSelectionWithHeavyTies) {
+  std::mt19937_64 g(99);
+  // 20 distinct values (random_vector with ties), then only 3, then 2: most
+  // candidates equal the answer, so bracketing alone cannot shrink the set.
+  expect_all_ranks(random_vector(2500, g, true), g, "20 values");
+  Eigen::VectorXd three(2000), two(2200);
+  for (Index i = 0; i < three.size(); ++i) three(i) = static_cast<double>(g() % 3) * 0.7 - 5.0;
+  for (Index i = 0; i < two.size(); ++i) two(i) = (g() % 5 == 0) ? 1e300 : -1e300;  // differences 0 and 2e300
+  expect_all_ranks(three, g, "3 values");
+  expect_all_ranks(two, g, "2 values");
+  // Mostly identical with a few distinct: Qn is 0, the largest difference is not.
+  Eigen::VectorXd spike = Eigen::VectorXd::Constant(3000, 2.5);
+  for (Index i = 0; i < 40; ++i) spike(static_cast<Index>(g() % 3000)) = static_cast<double>(i);
+  expect_all_ranks(spike, g, "spike");
+  EXPECT_EQ(qn_scale(spike), 0.0);
+}
+
+TEST(RobustScale, SampledSelectionSignsZerosSubnormalsAndOffsets) {
+  std::mt19937_64 g(5);
+  // Mixed signs with +0, -0 and subnormals (the sort keys map the sign bit).
+  Eigen::VectorXd v(1500);
+  for (Index i = 0; i < v.size(); ++i) {
+    switch (g() % 5) {
+      case 0: v(i) = 0.0; break;
+      case 1: v(i) = -0.0; break;
+      case 2: v(i) = static_cast<double>(g() % 1000) * 1e-312 * ((g() % 2) ? 1.0 : -1.0); break;
+      default: v(i) = (static_cast<double>(g() % 100000) - 50000.0) / 7.0;
+    }
+  }
+  expect_all_ranks(v, g, "signs");
+  // A huge offset: differences carry the offset's rounding, identically in
+  // both computations.
+  Eigen::VectorXd off(1200);
+  for (Index i = 0; i < off.size(); ++i) off(i) = 1e15 + static_cast<double>(g() % 100000) * 0.01;
+  expect_all_ranks(off, g, "offset");
+  // Sorted, reversed and permuted inputs give the same answer.
+  Eigen::VectorXd s = random_vector(3000, g, false);
+  std::sort(s.data(), s.data() + s.size());
+  const double q = qn_scale(s);
+  EXPECT_EQ(qn_scale(Eigen::VectorXd(s.reverse())), q);
+  std::vector<double> perm(s.data(), s.data() + s.size());
+  std::shuffle(perm.begin(), perm.end(), g);
+  EXPECT_EQ(qn_scale(Eigen::Map<Eigen::VectorXd>(perm.data(), s.size())), q);
+}
+
+// n = 2e5: no brute force, but the answer must split the differences exactly:
+// fewer than k strictly below it and at least k at or below it (counted
+// directly, O(n^2) comparisons avoided by a sorted sweep).
+TEST(RobustScale, QnLargeNRankIdentity) {
+  const Index n = 200000;
+  const Eigen::VectorXd x = mcd_test::normal_data(n, 1, 31).col(0);
+  std::vector<double> y(x.data(), x.data() + n);
+  std::sort(y.begin(), y.end());
+  const long long hq = n / 2 + 1, k = hq * (hq - 1) / 2;
+  const double t = pairwise_difference_order_statistic(x, k);
+  long long below = 0, not_above = 0;
+  std::size_t jb = 0, ja = 0;
+  for (std::size_t i = 0; i < y.size(); ++i) {
+    jb = std::max(jb, i + 1);
+    ja = std::max(ja, i + 1);
+    while (jb < y.size() && y[jb] - y[i] < t) ++jb;
+    while (ja < y.size() && y[ja] - y[i] <= t) ++ja;
+    below += static_cast<long long>(jb - i - 1);
+    not_above += static_cast<long long>(ja - i - 1);
+  }
+  EXPECT_LT(below, k);
+  EXPECT_GE(not_above, k);
+  // Qn is consistent at the normal; sd about 0.6/sqrt(n) relative -> 0.0013.
+  EXPECT_NEAR(qn_consistency_constant() * t, 1.0, 0.01);
+}
