@@ -6,6 +6,7 @@
 #include <cstdio>
 
 #include "boundary.hpp"
+#include "core/distributions.hpp"
 #include "core/error.hpp"
 #include "core/mcd_deterministic.hpp"
 #include "core/mcd_fast.hpp"
@@ -81,12 +82,32 @@ void fit_robust(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_optio
   part.consistency_factor = r.consistency_factor;
   part.reweight_factor = r.reweight_factor;
   part.raw_log_det = r.raw_log_det;
+  Eigen::MatrixXd scatter = r.scatter;
   if (o.method == ELLIPSA_METHOD_MRCD) {
     part.regularisation = r.rho;
     part.regularisation_target = r.target;
     m.shrinkage_intensity = r.rho;
+    // The regularised scatter has no chi-square consistency factor (p >= n
+    // leaves no room for one), so its distances are rescaled to make the
+    // median distance of the fitting rows equal chi2q(p, 0.5): the usual
+    // median calibration (common practice, no published factor for MRCD).
+    // Scoring can then use the same chi-square rule as every other method.
+    std::vector<double> d2(r.robust_d2.data(), r.robust_d2.data() + r.robust_d2.size());
+    if (!d2.empty()) {
+      const auto mid = d2.begin() + static_cast<std::ptrdiff_t>(d2.size() / 2);
+      std::nth_element(d2.begin(), mid, d2.end());
+      const double median = *mid;
+      const double target = core::chi2_quantile(0.5, static_cast<double>(r.location.size()));
+      if (median > 0.0 && std::isfinite(median)) {
+        part.reweight_factor = median / target;
+        scatter *= part.reweight_factor;
+      }
+    }
   }
-  m.components.push_back({1.0, r.location, r.scatter, {}});
+  // The core's scatter matrices are symmetric to rounding; the model stores
+  // them exactly symmetric so that files and every consumer see one matrix.
+  part.raw_scatter = 0.5 * (part.raw_scatter + part.raw_scatter.transpose()).eval();
+  m.components.push_back({1.0, r.location, 0.5 * (scatter + scatter.transpose()), {}});
   m.robust = std::move(part);
 }
 

@@ -2,6 +2,7 @@
 #include "options.hpp"
 
 #include <cmath>
+#include <initializer_list>
 #include <cstring>
 #include <new>
 
@@ -12,6 +13,7 @@ using ellipsa::capi::Misuse;
 using ellipsa::capi::require_not_null;
 
 namespace ellipsa::capi {
+const char* method_name(ellipsa_method m);
 namespace {
 struct MethodName {
   ellipsa_method method;
@@ -56,6 +58,21 @@ ellipsa_status set(const char* fn, ellipsa_fit_options* o, F&& f) {
   });
 }
 [[noreturn]] void bad(const char* message) { throw Misuse{ELLIPSA_ERR_ARGUMENT, message}; }
+
+// A setting the handle's method does not use is refused, so that a typo in a
+// caller (a seed for a deterministic method, components for a single Gaussian)
+// cannot pass silently.
+void require_method(const ellipsa_fit_options& o, std::initializer_list<ellipsa_method> allowed,
+                    const char* setting) {
+  for (ellipsa_method m : allowed)
+    if (o.method == m) return;
+  std::string uses;
+  for (ellipsa_method m : allowed) uses += std::string(uses.empty() ? "" : ", ") + ellipsa::capi::method_name(m);
+  throw Misuse{ELLIPSA_ERR_ARGUMENT, std::string(setting) + " does not apply to method " +
+                                         ellipsa::capi::method_name(o.method) + " (it applies to " + uses + ")"};
+}
+constexpr std::initializer_list<ellipsa_method> kMcdFamily = {ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_DETMCD,
+                                                              ELLIPSA_METHOD_MRCD};
 }  // namespace
 
 extern "C" {
@@ -93,6 +110,7 @@ ELLIPSA_API const char* ellipsa_method_name(ellipsa_method method) {
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_divisor(ellipsa_fit_options* o, int32_t divisor) {
   return set("ellipsa_fit_options_set_divisor", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_CLASSICAL}, "the divisor");
     if (divisor != ELLIPSA_DIVISOR_N && divisor != ELLIPSA_DIVISOR_N_MINUS_1)
       bad("divisor must be ELLIPSA_DIVISOR_N or ELLIPSA_DIVISOR_N_MINUS_1");
     x.divisor = divisor;
@@ -128,6 +146,7 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_column_names(ellipsa_fit_opti
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_alpha(ellipsa_fit_options* o, double alpha) {
   return set("ellipsa_fit_options_set_alpha", o, [&](ellipsa_fit_options& x) {
+    require_method(x, kMcdFamily, "alpha");
     if (!(alpha >= 0.5 && alpha <= 1.0)) bad("alpha must lie in [0.5, 1]");
     x.alpha = alpha;
     x.alpha_set = true;
@@ -135,12 +154,14 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_alpha(ellipsa_fit_options* o,
 }
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_seed(ellipsa_fit_options* o, uint64_t seed) {
-  return set("ellipsa_fit_options_set_seed", o, [&](ellipsa_fit_options& x) { x.seed = seed; });
+  return set("ellipsa_fit_options_set_seed", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_MIXTURE}, "a seed"); x.seed = seed; });
 }
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_options* o, int32_t k_min,
                                                               int32_t k_max) {
   return set("ellipsa_fit_options_set_components", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_MIXTURE}, "components");
     if (k_min < 1 || k_max < k_min) bad("components need 1 <= k_min <= k_max");
     if (k_max > 100) bad("k_max above 100 is not supported");
     x.k_min = k_min;
@@ -150,6 +171,7 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_option
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_structure(ellipsa_fit_options* o, int32_t structure) {
   return set("ellipsa_fit_options_set_structure", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_MIXTURE}, "the covariance structure");
     if (structure < ELLIPSA_STRUCTURE_FULL || structure > ELLIPSA_STRUCTURE_ALL)
       bad("unknown covariance structure");
     x.structure = structure;
@@ -158,6 +180,7 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_structure(ellipsa_fit_options
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_restarts(ellipsa_fit_options* o, int32_t restarts) {
   return set("ellipsa_fit_options_set_restarts", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_MIXTURE}, "restarts");
     if (restarts < 1 || restarts > 10000) bad("restarts must lie in [1, 10000]");
     x.restarts = restarts;
   });
@@ -166,6 +189,7 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_restarts(ellipsa_fit_options*
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_options* o,
                                                               int32_t max_iterations, double tolerance) {
   return set("ellipsa_fit_options_set_iterations", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_MIXTURE}, "the iteration limits");
     if (max_iterations < 1) bad("max_iterations must be at least 1");
     if (!(tolerance > 0.0 && std::isfinite(tolerance))) bad("tolerance must be finite and positive");
     x.max_iterations = max_iterations;
@@ -175,6 +199,7 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_option
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_regularisation(ellipsa_fit_options* o, double relative) {
   return set("ellipsa_fit_options_set_regularisation", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_MIXTURE}, "the regularisation");
     if (!(relative >= 0.0 && std::isfinite(relative))) bad("regularisation must be finite and >= 0");
     x.regularisation = relative;
   });

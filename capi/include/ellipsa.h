@@ -48,9 +48,9 @@ extern "C" {
  *  Compile-time version of this header; ellipsa_version() gives the version of
  *  the library actually loaded, which may differ (see docs/versioning.md).
  *  @{ */
-#define ELLIPSA_VERSION_MAJOR 0
-#define ELLIPSA_VERSION_MINOR 1
-#define ELLIPSA_VERSION_PATCH 0
+#define ELLIPSA_VERSION_MAJOR 0 /**< Incremented for incompatible changes (docs/versioning.md). */
+#define ELLIPSA_VERSION_MINOR 1 /**< Incremented for compatible additions. */
+#define ELLIPSA_VERSION_PATCH 0 /**< Incremented for fixes that change no interface. */
 /** MAJOR*10000 + MINOR*100 + PATCH. */
 #define ELLIPSA_VERSION_NUMBER \
   (ELLIPSA_VERSION_MAJOR * 10000 + ELLIPSA_VERSION_MINOR * 100 + ELLIPSA_VERSION_PATCH)
@@ -66,6 +66,7 @@ ELLIPSA_API const char *ellipsa_version(void);
  *
  * Compare with ::ELLIPSA_VERSION_NUMBER to detect a header/library mismatch.
  * Thread-safe.
+ * @return The version number.
  */
 ELLIPSA_API int32_t ellipsa_version_number(void);
 /** @} */
@@ -96,6 +97,7 @@ typedef int32_t ellipsa_status;
 
 /**
  * @brief A short constant name for a status code, e.g. "ELLIPSA_ERR_SHAPE".
+ * @param status Any value.
  * @return A static string; never NULL ("ELLIPSA_UNKNOWN_STATUS" for codes this
  *         version does not know). Thread-safe.
  */
@@ -134,7 +136,13 @@ typedef struct ellipsa_matrix {
   int64_t col_stride; /**< Elements between (i,j) and (i,j+1). */
 } ellipsa_matrix;
 
-/** A view of a C row-major array `data[rows][cols]`. */
+/**
+ * @brief A view of a C row-major array `data[rows][cols]`.
+ * @param data First element.
+ * @param rows Number of rows.
+ * @param cols Number of columns.
+ * @return The view (nothing is copied or allocated).
+ */
 static inline ellipsa_matrix ellipsa_matrix_row_major(const double *data, int64_t rows,
                                                       int64_t cols) {
   ellipsa_matrix m;
@@ -146,7 +154,13 @@ static inline ellipsa_matrix ellipsa_matrix_row_major(const double *data, int64_
   return m;
 }
 
-/** A view of a column-major array (R, Fortran, Julia, spreadsheet ranges). */
+/**
+ * @brief A view of a column-major array (R, Fortran, Julia, spreadsheet ranges).
+ * @param data First element.
+ * @param rows Number of rows.
+ * @param cols Number of columns.
+ * @return The view (nothing is copied or allocated).
+ */
 static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_t rows,
                                                       int64_t cols) {
   ellipsa_matrix m;
@@ -273,7 +287,9 @@ ELLIPSA_API ellipsa_status ellipsa_hotelling_limit(double *out, int32_t phase, i
  *  An ::ellipsa_fit_options handle says how to fit: the method and its
  *  settings. Create one, set what differs from the defaults, pass it to
  *  ellipsa_model_fit(), reuse it or destroy it. A handle is used by one thread at
- *  a time; ellipsa_model_fit() only reads it.
+ *  a time; ellipsa_model_fit() only reads it. A setter whose setting the
+ *  handle's method does not use (a seed for detmcd, components for classical)
+ *  returns ::ELLIPSA_ERR_ARGUMENT and names the methods it applies to.
  *  @{ */
 /** Opaque fit options. */
 typedef struct ellipsa_fit_options ellipsa_fit_options;
@@ -319,7 +335,10 @@ typedef int32_t ellipsa_method;
 ELLIPSA_API ellipsa_status ellipsa_fit_options_create(ellipsa_fit_options **out,
                                                       ellipsa_method method);
 
-/** @brief Destroys fit options; NULL is a no-op. */
+/**
+ * @brief Destroys fit options; NULL is a no-op.
+ * @param options The handle, or NULL.
+ */
 ELLIPSA_API void ellipsa_fit_options_destroy(ellipsa_fit_options *options);
 
 /**
@@ -332,12 +351,15 @@ ELLIPSA_API ellipsa_status ellipsa_method_from_name(ellipsa_method *out, const c
 
 /**
  * @brief The name of a method ("classical", "ledoit-wolf", ...).
+ * @param method An ELLIPSA_METHOD_ value.
  * @return A static string; "unknown" for a value this version does not know.
  */
 ELLIPSA_API const char *ellipsa_method_name(ellipsa_method method);
 
 /**
  * @brief Divisor of the classical covariance: ::ELLIPSA_DIVISOR_N or ::ELLIPSA_DIVISOR_N_MINUS_1.
+ * @param options The options.
+ * @param divisor ::ELLIPSA_DIVISOR_N or ::ELLIPSA_DIVISOR_N_MINUS_1.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_divisor(ellipsa_fit_options *options,
@@ -348,6 +370,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_divisor(ellipsa_fit_options *
  *
  * ::ELLIPSA_MISSING_EM is accepted for ::ELLIPSA_METHOD_MIXTURE only.
  * Infinite values are never "missing": fitting refuses them with ::ELLIPSA_ERR_DATA.
+ * @param options The options.
+ * @param policy  ::ELLIPSA_MISSING_DROP_ROWS, ::ELLIPSA_MISSING_REFUSE or ::ELLIPSA_MISSING_EM.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_missing(ellipsa_fit_options *options,
@@ -374,6 +398,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_column_names(ellipsa_fit_opti
  * MCD and DetMCD: h = floor(2*floor((n+p+1)/2) - n + 2*(n - floor((n+p+1)/2))*alpha);
  * 0.5 (the default) gives the highest breakdown point, 1 uses every row.
  * MRCD: h = ceil(alpha*n), default 0.75 (Boudt et al. 2020) until set.
+ * @param options The options.
+ * @param alpha   In [0.5, 1].
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT outside [0.5, 1].
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_alpha(ellipsa_fit_options *options,
@@ -384,6 +410,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_alpha(ellipsa_fit_options *op
  *
  * The same seed, data and options give bit-identical results on every run and
  * platform with IEEE doubles.
+ * @param options The options.
+ * @param seed    Any 64-bit value.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL.
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_seed(ellipsa_fit_options *options,
@@ -395,6 +423,9 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_seed(ellipsa_fit_options *opt
  * With k_min < k_max (or structure ::ELLIPSA_STRUCTURE_ALL) every candidate is
  * fitted and the one with the lowest BIC is kept; the whole table is available
  * from ellipsa_model_selection().
+ * @param options The options.
+ * @param k_min   Smallest K, >= 1.
+ * @param k_max   Largest K, >= k_min, <= 100.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_options *options,
@@ -402,6 +433,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_option
 
 /**
  * @brief Mixtures: covariance structure (ELLIPSA_STRUCTURE_ values).
+ * @param options   The options.
+ * @param structure An ELLIPSA_STRUCTURE_ value.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_structure(ellipsa_fit_options *options,
@@ -409,6 +442,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_structure(ellipsa_fit_options
 
 /**
  * @brief Mixtures: number of EM runs from different k-means++ starts (>= 1).
+ * @param options  The options.
+ * @param restarts Number of starts, in [1, 10000].
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_restarts(ellipsa_fit_options *options,
@@ -416,6 +451,9 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_restarts(ellipsa_fit_options 
 
 /**
  * @brief Iterative methods: iteration cap (>= 1) and relative tolerance (> 0).
+ * @param options        The options.
+ * @param max_iterations Iteration cap, >= 1.
+ * @param tolerance      Relative change below which an iteration stops, finite and > 0.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_options *options,
@@ -425,6 +463,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_option
 /**
  * @brief Mixtures: ridge added to every covariance diagonal, relative to the
  *        mean column variance of the data (>= 0; default 1e-6).
+ * @param options  The options.
+ * @param relative Multiple of the mean column variance, finite and >= 0.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_regularisation(ellipsa_fit_options *options,
@@ -432,6 +472,9 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_regularisation(ellipsa_fit_op
 
 /**
  * @brief A progress callback for ellipsa_model_fit() (NULL removes it).
+ * @param options  The options.
+ * @param callback Called from the fitting thread during ellipsa_model_fit(), or NULL.
+ * @param user     Passed to the callback unchanged; not dereferenced by the library.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (options).
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_progress(ellipsa_fit_options *options,
@@ -477,7 +520,10 @@ typedef struct ellipsa_model ellipsa_model;
 ELLIPSA_API ellipsa_status ellipsa_model_fit(ellipsa_model **out, const ellipsa_matrix *data,
                                              const ellipsa_fit_options *options);
 
-/** @brief Destroys a model; NULL is a no-op. */
+/**
+ * @brief Destroys a model; NULL is a no-op. Scores and copies already made stay valid.
+ * @param model The model, or NULL.
+ */
 ELLIPSA_API void ellipsa_model_destroy(ellipsa_model *model);
 /** @} */
 
@@ -494,6 +540,11 @@ ELLIPSA_API void ellipsa_model_destroy(ellipsa_model *model);
  * @brief Kind (ELLIPSA_KIND_), method, dimension p and component count of a model.
  *
  * Any out-pointer may be NULL to skip it. A Gaussian model has 1 component.
+ * @param[out] kind       ::ELLIPSA_KIND_GAUSSIAN or ::ELLIPSA_KIND_MIXTURE, or NULL.
+ * @param[out] method     The method that fitted the model, or NULL.
+ * @param[out] dimension  p, the number of columns, or NULL.
+ * @param[out] components Number of components, or NULL.
+ * @param model           The model.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (model).
  */
 ELLIPSA_API ellipsa_status ellipsa_model_describe(int32_t *kind, ellipsa_method *method,
@@ -502,6 +553,9 @@ ELLIPSA_API ellipsa_status ellipsa_model_describe(int32_t *kind, ellipsa_method 
 
 /**
  * @brief Rows of the fitting data: used by the fit, and dropped for missing values.
+ * @param[out] used    Rows used by the fit, or NULL.
+ * @param[out] dropped Rows dropped for missing values, or NULL.
+ * @param model        The model.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (model). NULL out-pointers are skipped.
  */
 ELLIPSA_API ellipsa_status ellipsa_model_rows(int64_t *used, int64_t *dropped,
@@ -510,6 +564,8 @@ ELLIPSA_API ellipsa_status ellipsa_model_rows(int64_t *used, int64_t *dropped,
 /**
  * @brief Name of column j (0-based).
  * @param[out] out A string owned by the model, valid while the model lives.
+ * @param model The model.
+ * @param j Column index, 0 <= j < p.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (j out of range).
  */
 ELLIPSA_API ellipsa_status ellipsa_model_column_name(const char **out, const ellipsa_model *model,
@@ -538,6 +594,11 @@ ELLIPSA_API ellipsa_status ellipsa_model_component(double *location, int64_t loc
 
 /**
  * @brief MCD family: the raw (unreweighted, consistency-corrected) estimate.
+ * @param[out] location     p doubles, or NULL.
+ * @param location_capacity Elements available in location.
+ * @param[out] scatter      p*p doubles (row-major), or NULL.
+ * @param scatter_capacity  Elements available in scatter.
+ * @param model             The model.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (model); ::ELLIPSA_ERR_STATE (not an
  *         MCD-family model); ::ELLIPSA_ERR_SHAPE (a capacity too small).
  */
@@ -554,6 +615,9 @@ ELLIPSA_API ellipsa_status ellipsa_model_raw_estimate(double *location, int64_t 
  * mrcd), "log_likelihood", "bic", "icl", "iterations", "converged",
  * "parameters", "log_density_cutoff" (mixture), "log_det" (gaussian models),
  * "divisor" (1 for n, 2 for n-1; classical).
+ * @param[out] out The value.
+ * @param model    The model.
+ * @param name     One of the names above (NUL-terminated).
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (unknown name);
  *         ::ELLIPSA_ERR_STATE (the name does not apply to this model).
  */
@@ -572,6 +636,8 @@ ELLIPSA_API ellipsa_status ellipsa_model_diagnostic(double *out, const ellipsa_m
  * @param[out] out      Row indices, or NULL.
  * @param capacity      Elements available in out.
  * @param[out] count    Size of the set (always written on success).
+ * @param model         The model.
+ * @param which         ::ELLIPSA_ROWS_H_SUBSET, ::ELLIPSA_ROWS_OUTLIERS or ::ELLIPSA_ROWS_DROPPED.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (count, model); ::ELLIPSA_ERR_ARGUMENT
  *         (unknown set); ::ELLIPSA_ERR_STATE (set not recorded by this method);
  *         ::ELLIPSA_ERR_SHAPE (capacity too small; count is still written).
@@ -597,6 +663,7 @@ typedef struct ellipsa_candidate {
  * @param[out] out      Array of capacity entries (each with struct_size set), or NULL.
  * @param capacity      Entries available.
  * @param[out] count    Number of candidates (always written on success).
+ * @param model         The model.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_STATE (not a mixture);
  *         ::ELLIPSA_ERR_SHAPE (capacity too small, or struct_size too small).
  */
@@ -679,7 +746,10 @@ ELLIPSA_API ellipsa_status ellipsa_model_score(ellipsa_scores *out, const ellips
 ELLIPSA_API ellipsa_status ellipsa_model_save(char **text, int64_t *length,
                                               const ellipsa_model *model);
 
-/** @brief Frees text returned by the library; NULL is a no-op. */
+/**
+ * @brief Frees text returned by the library; NULL is a no-op.
+ * @param text Text from ellipsa_model_save(), or NULL.
+ */
 ELLIPSA_API void ellipsa_text_free(char *text);
 
 /**

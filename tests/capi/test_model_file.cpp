@@ -39,7 +39,8 @@ TEST(ModelFile, EveryMethodRoundTripsBitExactly) {
   for (ellipsa_method method = ELLIPSA_METHOD_CLASSICAL; method <= ELLIPSA_METHOD_MIXTURE; ++method) {
     if (method == ELLIPSA_METHOD_MRCD) continue;  // covered below with p > n
     auto o = options(method);
-    ASSERT_EQ(ellipsa_fit_options_set_seed(o.get(), 3), ELLIPSA_OK);
+    if (method == ELLIPSA_METHOD_MCD || method == ELLIPSA_METHOD_MIXTURE)
+      ASSERT_EQ(ellipsa_fit_options_set_seed(o.get(), 3), ELLIPSA_OK);
     if (method == ELLIPSA_METHOD_MIXTURE) ASSERT_EQ(ellipsa_fit_options_set_components(o.get(), 1, 3), ELLIPSA_OK);
     ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
     ellipsa_model* raw = nullptr;
