@@ -42,11 +42,13 @@ Command add_fit(CLI::App& parent) {
             if (args->out.json && args->output == "-")
               throw CliError(kExitUsage, "--json prints the summary on standard output: give the model a file with -o");
             const Table t = read_table(args->data, args->dialect.to_options());
-            const auto options = make_fit_options(args->fit, t.columns);
+            Progress progress(progress_wanted(args->out.quiet || args->out.json));
+            const auto options = make_fit_options(args->fit, t.columns, &progress);
             ellipsa_model* raw = nullptr;
             const auto view = t.view();
             check(ellipsa_model_fit(&raw, &view, options.get()), "fitting " + args->data);
             ModelPtr m(raw);
+            progress.finish();
             write_text_file(args->output, model_text(m.get()));
             const auto summary = fit_summary(m.get(), t, args->fit.method);
             std::ostringstream human;

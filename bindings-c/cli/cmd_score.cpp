@@ -56,6 +56,7 @@ Command add_score(CLI::App& parent) {
 
             CsvChunk chunk;
             ScoreBlock block;
+            Progress progress(progress_wanted(a->out.quiet || a->out.json));
             int64_t rows = 0, flagged = 0, unscorable = 0;
             std::ostringstream first_flags;
             int listed = 0;
@@ -86,7 +87,9 @@ Command add_score(CLI::App& parent) {
                 if (block.flag[r] == -1) ++unscorable;
               }
               rows += static_cast<int64_t>(chunk.rows());
+              progress.rows("scoring", rows);
             }
+            progress.finish();
             if (rows == 0) throw CliError(kExitData, reader.source_name() + ": the file has a header but no data rows");
             writer.flush();
             out.commit();

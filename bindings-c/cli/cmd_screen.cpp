@@ -88,11 +88,13 @@ Command add_screen(CLI::App& parent) {
                                                 t.values.begin() + static_cast<std::ptrdiff_t>((r + 1) * p));
               const auto x = ellipsa_matrix_row_major(values.data(), static_cast<int64_t>(rows.size()),
                                                       static_cast<int64_t>(p));
-              const auto fit_options = make_fit_options(a->fit, t.columns);
+              Progress progress(progress_wanted(a->out.quiet || a->out.json));
+              const auto fit_options = make_fit_options(a->fit, t.columns, &progress);
               ellipsa_model* raw = nullptr;
               check(ellipsa_model_fit(&raw, &x, fit_options.get()),
                     a->by.empty() ? "fitting" : "fitting group " + a->by + " = " + name);
               g.model.reset(raw);
+              progress.finish();
               g.cols = score_columns(g.model.get());
               g.block.score(g.model.get(), g.cols, x, a->level);
               groups.push_back(std::move(g));

@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "cli_common.hpp"
+#include "progress.hpp"
 
 namespace ellipsa::cli {
 
@@ -21,6 +22,8 @@ Command add_fit(CLI::App& parent);
 Command add_score(CLI::App& parent);
 Command add_screen(CLI::App& parent);
 Command add_inspect(CLI::App& parent);
+Command add_report(CLI::App& parent);
+Command add_cluster(CLI::App& parent);
 
 // ---- pieces shared by fit and screen -------------------------------------
 struct FitFlags {
@@ -32,9 +35,20 @@ struct FitFlags {
   int restarts = 5;
   std::string divisor = "n-1";
   std::string missing = "drop";
+  // The flags the user gave: only those are passed to the library, whose own
+  // defaults (and its refusal of settings a method does not use) then apply.
+  CLI::Option* alpha_flag = nullptr;
+  CLI::Option* seed_flag = nullptr;
+  CLI::Option* components_flag = nullptr;
+  CLI::Option* structure_flag = nullptr;
+  CLI::Option* restarts_flag = nullptr;
+  CLI::Option* divisor_flag = nullptr;
+  bool components_default = false;  // cluster: pass the range even when not given
 };
 void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method);
-OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& columns);
+// progress, when given and enabled, receives the fit's progress reports.
+OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& columns,
+                            Progress* progress = nullptr);
 void add_dialect_flags(CLI::App& app, DialectFlags& d);
 void add_output_flags(CLI::App& app, OutputFlags& o);
 

@@ -23,15 +23,19 @@ void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method) {
   if (with_method)
     app.add_option("-m,--method", f.method, "classical, ledoit-wolf, oas, mcd, detmcd, mrcd or mixture")
         ->capture_default_str();
-  app.add_option("--alpha", f.alpha, "MCD family: fraction in [0.5, 1] that sets the subset size h")
-      ->capture_default_str();
-  app.add_option("--seed", f.seed, "Seed for the methods that draw random starts")->capture_default_str();
-  app.add_option("--components", f.components, "Mixture: K, or a range KMIN-KMAX chosen by BIC")
-      ->capture_default_str();
-  app.add_option("--structure", f.structure, "Mixture covariance: full, diagonal, tied, spherical or all")
-      ->capture_default_str();
-  app.add_option("--restarts", f.restarts, "Mixture: EM runs from different starts")->capture_default_str();
-  app.add_option("--divisor", f.divisor, "Classical covariance divisor: n or n-1")->capture_default_str();
+  f.alpha_flag = app.add_option("--alpha", f.alpha,
+                                "MCD family: fraction in [0.5, 1] that sets the subset size h "
+                                "(default 0.5; mrcd 0.75)");
+  f.seed_flag = app.add_option("--seed", f.seed, "mcd and mixture: seed of the random starts (default 0)");
+  f.components_flag = app.add_option("--components", f.components, "Mixture: K, or a range KMIN-KMAX chosen by BIC")
+                          ->capture_default_str();
+  f.structure_flag =
+      app.add_option("--structure", f.structure, "Mixture covariance: full, diagonal, tied, spherical or all")
+          ->capture_default_str();
+  f.restarts_flag = app.add_option("--restarts", f.restarts, "Mixture: EM runs from different starts")
+                        ->capture_default_str();
+  f.divisor_flag = app.add_option("--divisor", f.divisor, "Classical covariance divisor: n or n-1")
+                       ->capture_default_str();
   app.add_option("--missing", f.missing, "Rows with missing cells: drop, refuse, or em (mixture only)")
       ->capture_default_str();
 }
@@ -45,7 +49,7 @@ int32_t parse_int(const std::string& s, const char* what) {
 }
 }  // namespace
 
-OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& columns) {
+OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& columns, Progress* progress) {
   ellipsa_method method = 0;
   check(ellipsa_method_from_name(&method, f.method.c_str()), "--method");
   ellipsa_fit_options* raw = nullptr;
@@ -55,30 +59,41 @@ OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& c
   for (const auto& c : columns) names.push_back(c.c_str());
   check(ellipsa_fit_options_set_column_names(o.get(), names.data(), static_cast<int64_t>(names.size())),
         "column names");
-  if (f.divisor != "n" && f.divisor != "n-1") throw CliError(kExitUsage, "--divisor must be n or n-1");
-  check(ellipsa_fit_options_set_divisor(o.get(), f.divisor == "n" ? ELLIPSA_DIVISOR_N : ELLIPSA_DIVISOR_N_MINUS_1),
-        "--divisor");
+  const auto given = [](const CLI::Option* flag) { return flag != nullptr && flag->count() > 0; };
+  const bool mixture = method == ELLIPSA_METHOD_MIXTURE;
+  if (given(f.divisor_flag)) {
+    if (f.divisor != "n" && f.divisor != "n-1") throw CliError(kExitUsage, "--divisor must be n or n-1");
+    check(ellipsa_fit_options_set_divisor(o.get(), f.divisor == "n" ? ELLIPSA_DIVISOR_N : ELLIPSA_DIVISOR_N_MINUS_1),
+          "--divisor");
+  }
   int32_t missing = 0;
   if (f.missing == "drop") missing = ELLIPSA_MISSING_DROP_ROWS;
   else if (f.missing == "refuse") missing = ELLIPSA_MISSING_REFUSE;
   else if (f.missing == "em") missing = ELLIPSA_MISSING_EM;
   else throw CliError(kExitUsage, "--missing must be drop, refuse or em");
   check(ellipsa_fit_options_set_missing(o.get(), missing), "--missing");
-  check(ellipsa_fit_options_set_alpha(o.get(), f.alpha), "--alpha");
-  check(ellipsa_fit_options_set_seed(o.get(), f.seed), "--seed");
-  const auto dash = f.components.find('-');
-  const int32_t kmin = parse_int(f.components.substr(0, dash), "--components");
-  const int32_t kmax = dash == std::string::npos ? kmin : parse_int(f.components.substr(dash + 1), "--components");
-  check(ellipsa_fit_options_set_components(o.get(), kmin, kmax), "--components");
-  int32_t structure = 0;
-  if (f.structure == "full") structure = ELLIPSA_STRUCTURE_FULL;
-  else if (f.structure == "diagonal") structure = ELLIPSA_STRUCTURE_DIAGONAL;
-  else if (f.structure == "tied") structure = ELLIPSA_STRUCTURE_TIED;
-  else if (f.structure == "spherical") structure = ELLIPSA_STRUCTURE_SPHERICAL;
-  else if (f.structure == "all") structure = ELLIPSA_STRUCTURE_ALL;
-  else throw CliError(kExitUsage, "--structure must be full, diagonal, tied, spherical or all");
-  check(ellipsa_fit_options_set_structure(o.get(), structure), "--structure");
-  check(ellipsa_fit_options_set_restarts(o.get(), f.restarts), "--restarts");
+  if (given(f.alpha_flag)) check(ellipsa_fit_options_set_alpha(o.get(), f.alpha), "--alpha");
+  if (given(f.seed_flag)) check(ellipsa_fit_options_set_seed(o.get(), f.seed), "--seed");
+  if (given(f.components_flag) || (mixture && f.components_default)) {
+    const auto dash = f.components.find('-');
+    const int32_t kmin = parse_int(f.components.substr(0, dash), "--components");
+    const int32_t kmax =
+        dash == std::string::npos ? kmin : parse_int(f.components.substr(dash + 1), "--components");
+    check(ellipsa_fit_options_set_components(o.get(), kmin, kmax), "--components");
+  }
+  if (given(f.structure_flag) || (mixture && f.components_default)) {
+    int32_t structure = 0;
+    if (f.structure == "full") structure = ELLIPSA_STRUCTURE_FULL;
+    else if (f.structure == "diagonal") structure = ELLIPSA_STRUCTURE_DIAGONAL;
+    else if (f.structure == "tied") structure = ELLIPSA_STRUCTURE_TIED;
+    else if (f.structure == "spherical") structure = ELLIPSA_STRUCTURE_SPHERICAL;
+    else if (f.structure == "all") structure = ELLIPSA_STRUCTURE_ALL;
+    else throw CliError(kExitUsage, "--structure must be full, diagonal, tied, spherical or all");
+    check(ellipsa_fit_options_set_structure(o.get(), structure), "--structure");
+  }
+  if (given(f.restarts_flag)) check(ellipsa_fit_options_set_restarts(o.get(), f.restarts), "--restarts");
+  if (progress != nullptr && progress->enabled())
+    check(ellipsa_fit_options_set_progress(o.get(), &Progress::callback, progress), "progress");
   return o;
 }
 

@@ -24,7 +24,7 @@ int main(int argc, char** argv) {
   app.set_version_flag("--version", std::string("ellipsa ") + ellipsa_version());
   app.require_subcommand(0, 1);
   app.footer(kExitCodes);
-  std::vector<Command> commands{add_fit(app), add_score(app), add_screen(app), add_inspect(app)};
+  std::vector<Command> commands{add_fit(app), add_score(app), add_screen(app), add_cluster(app), add_inspect(app), add_report(app)};
   for (auto& c : commands) c.app->footer(kExitCodes);
   try {
     app.parse(argc, argv);

@@ -94,5 +94,18 @@ with open(out_path) as f:
     n_lines = sum(1 for _ in f)
 check(n_lines == 1 + 4000 * 300, f"the scored output has every row ({n_lines})")
 
+# Progress: drawn on a terminal, absent when stderr is a file or pipe (above,
+# every run captured stderr; none may contain the bar's carriage returns).
+code, _, err = run("fit", "--method", "mcd", os.path.join(EXAMPLES, "moulding_reference.csv"), "-o",
+                   os.path.join(tmp, "p.json"))
+check(code == 0 and "%" not in err and "[" not in err, "no progress drawn when stderr is not a terminal")
+tty = subprocess.run(["script", "-qec", f"{BIN} fit --method mcd {os.path.join(EXAMPLES, 'moulding_reference.csv')} "
+                      f"-o {os.path.join(tmp, 'p2.json')}", "/dev/null"], capture_output=True, text=True, timeout=120)
+check(tty.returncode == 0 and "%]" not in tty.stdout and "] " in tty.stdout and "%" in tty.stdout,
+      f"a progress bar is drawn on a terminal: {tty.stdout[:200]!r}")
+code, _, err = run("fit", "--method", "mcd", "--quiet", os.path.join(EXAMPLES, "moulding_reference.csv"), "-o",
+                   os.path.join(tmp, "p3.json"))
+check(code == 0 and err == "", "--quiet prints nothing")
+
 print(f"{len(failures)} failures")
 sys.exit(1 if failures else 0)
