@@ -1,0 +1,215 @@
+"""ctypes declarations of the ellipsa C interface (capi/include/ellipsa.h).
+
+This module only loads the shared library, mirrors the header's structs and
+constants, and turns a non-zero status into :class:`Error`. It does no
+numerics of its own.
+"""
+import ctypes
+import ctypes.util
+import os
+
+# --------------------------------------------------------------------------
+# Status codes and enumerations, copied from ellipsa.h.
+OK = 0
+ERR_NULL = 1
+ERR_ARGUMENT = 2
+ERR_SHAPE = 3
+ERR_STATE = 4
+ERR_DATA = 10
+ERR_FORMAT = 11
+ERR_MEMORY = 12
+ERR_CANCELLED = 13
+ERR_INTERNAL = 14
+NUM_SINGULAR = 20
+NUM_NOT_CONVERGED = 21
+NUM_EXACT_FIT = 22
+
+KIND_GAUSSIAN = 1
+KIND_MIXTURE = 2
+
+DIVISORS = {"n": 1, "n-1": 2}
+MISSING_POLICIES = {"drop": 1, "refuse": 2, "em": 3}
+STRUCTURES = {"full": 1, "diagonal": 2, "tied": 3, "spherical": 4, "all": 5}
+STRUCTURE_NAMES = {v: k for k, v in STRUCTURES.items()}
+ROW_SETS = {"h_subset": 1, "outliers": 2, "dropped": 3}
+PHASES = {1: 1, 2: 2, "I": 1, "II": 2}
+
+
+class Error(Exception):
+    """A call into the ellipsa library failed.
+
+    Attributes:
+        status (int): the ellipsa_status code (e.g. 3).
+        status_name (str): its constant name (e.g. "ELLIPSA_ERR_SHAPE").
+        message (str): the library's detailed message (ellipsa_last_error()).
+    """
+
+    def __init__(self, status, status_name, message):
+        super().__init__("%s: %s" % (status_name, message))
+        self.status = status
+        self.status_name = status_name
+        self.message = message
+
+
+# --------------------------------------------------------------------------
+# Structs, field for field as in ellipsa.h.
+class Matrix(ctypes.Structure):
+    """struct ellipsa_matrix: strides are counted in elements, not bytes."""
+    _fields_ = [
+        ("data", ctypes.POINTER(ctypes.c_double)),
+        ("rows", ctypes.c_int64),
+        ("cols", ctypes.c_int64),
+        ("row_stride", ctypes.c_int64),
+        ("col_stride", ctypes.c_int64),
+    ]
+
+
+class Candidate(ctypes.Structure):
+    """struct ellipsa_candidate (one entry of a mixture model choice)."""
+    _fields_ = [
+        ("struct_size", ctypes.c_int64),
+        ("components", ctypes.c_int32),
+        ("structure", ctypes.c_int32),
+        ("log_likelihood", ctypes.c_double),
+        ("parameters", ctypes.c_int64),
+        ("bic", ctypes.c_double),
+        ("icl", ctypes.c_double),
+        ("converged", ctypes.c_int32),
+        ("chosen", ctypes.c_int32),
+    ]
+
+
+_dp = ctypes.POINTER(ctypes.c_double)
+# ellipsa_progress_fn: int (*)(const char *stage, double fraction, void *user)
+PROGRESS_FN = ctypes.CFUNCTYPE(ctypes.c_int, ctypes.c_char_p, ctypes.c_double, ctypes.c_void_p)
+_ip = ctypes.POINTER(ctypes.c_int32)
+
+
+class ScoresBuffers(ctypes.Structure):
+    """struct ellipsa_scores: caller-owned buffers; NULL fields are skipped."""
+    _fields_ = [
+        ("struct_size", ctypes.c_int64),
+        ("squared_distance", _dp),
+        ("p_value", _dp),
+        ("flag", _ip),
+        ("observed", _ip),
+        ("contribution", _dp),
+        ("conditional_drop", _dp),
+        ("component", _ip),
+        ("membership", _dp),
+        ("log_density", _dp),
+        ("low_density", _ip),
+    ]
+
+
+# --------------------------------------------------------------------------
+# Locating the library.
+def _candidate_paths():
+    env = os.environ.get("ELLIPSA_LIBRARY")
+    if env:
+        return [env]
+    here = os.path.dirname(os.path.abspath(__file__))
+    paths = [os.path.normpath(os.path.join(here, "..", "..", "..", "build", "lib", "libellipsa.so"))]
+    found = ctypes.util.find_library("ellipsa")
+    if found:
+        paths.append(found)
+    paths.append("libellipsa.so.0")
+    return paths
+
+
+def _load():
+    env = os.environ.get("ELLIPSA_LIBRARY")
+    tried = []
+    for path in _candidate_paths():
+        if os.sep in path and not os.path.exists(path) and not env:
+            tried.append(path + " (missing)")
+            continue
+        try:
+            return ctypes.CDLL(path)
+        except OSError as exc:
+            tried.append("%s (%s)" % (path, exc))
+            if env:
+                break
+    raise ImportError("ellipsa: cannot load the shared library; tried: " + "; ".join(tried) +
+                      ". Set ELLIPSA_LIBRARY to the full path of libellipsa.so.")
+
+
+lib = _load()
+
+_c = ctypes
+_status = _c.c_int32
+_i64p = _c.POINTER(_c.c_int64)
+_i32p = _c.POINTER(_c.c_int32)
+_vp = _c.c_void_p  # opaque handles
+_mp = _c.POINTER(Matrix)
+
+# name: (restype, argtypes)
+_SIGNATURES = {
+    "ellipsa_version": (_c.c_char_p, []),
+    "ellipsa_version_number": (_c.c_int32, []),
+    "ellipsa_status_string": (_c.c_char_p, [_status]),
+    "ellipsa_last_error": (_c.c_char_p, []),
+    "ellipsa_chi2_quantile": (_status, [_dp, _c.c_double, _c.c_double]),
+    "ellipsa_chi2_tail": (_status, [_dp, _c.c_double, _c.c_double]),
+    "ellipsa_f_quantile": (_status, [_dp, _c.c_double, _c.c_double, _c.c_double]),
+    "ellipsa_f_tail": (_status, [_dp, _c.c_double, _c.c_double, _c.c_double]),
+    "ellipsa_beta_quantile": (_status, [_dp, _c.c_double, _c.c_double, _c.c_double]),
+    "ellipsa_beta_tail": (_status, [_dp, _c.c_double, _c.c_double, _c.c_double]),
+    "ellipsa_hotelling_limit": (_status, [_dp, _c.c_int32, _c.c_int64, _c.c_int64, _c.c_double]),
+    "ellipsa_fit_options_create": (_status, [_c.POINTER(_vp), _c.c_int32]),
+    "ellipsa_fit_options_destroy": (None, [_vp]),
+    "ellipsa_method_from_name": (_status, [_i32p, _c.c_char_p]),
+    "ellipsa_method_name": (_c.c_char_p, [_c.c_int32]),
+    "ellipsa_fit_options_set_divisor": (_status, [_vp, _c.c_int32]),
+    "ellipsa_fit_options_set_missing": (_status, [_vp, _c.c_int32]),
+    "ellipsa_fit_options_set_column_names": (_status, [_vp, _c.POINTER(_c.c_char_p), _c.c_int64]),
+    "ellipsa_fit_options_set_alpha": (_status, [_vp, _c.c_double]),
+    "ellipsa_fit_options_set_seed": (_status, [_vp, _c.c_uint64]),
+    "ellipsa_fit_options_set_components": (_status, [_vp, _c.c_int32, _c.c_int32]),
+    "ellipsa_fit_options_set_structure": (_status, [_vp, _c.c_int32]),
+    "ellipsa_fit_options_set_restarts": (_status, [_vp, _c.c_int32]),
+    "ellipsa_fit_options_set_iterations": (_status, [_vp, _c.c_int32, _c.c_double]),
+    "ellipsa_fit_options_set_regularisation": (_status, [_vp, _c.c_double]),
+    "ellipsa_fit_options_set_progress": (_status, [_vp, PROGRESS_FN, _vp]),
+    "ellipsa_model_fit": (_status, [_c.POINTER(_vp), _mp, _vp]),
+    "ellipsa_model_destroy": (None, [_vp]),
+    "ellipsa_model_describe": (_status, [_i32p, _i32p, _i64p, _i32p, _vp]),
+    "ellipsa_model_rows": (_status, [_i64p, _i64p, _vp]),
+    "ellipsa_model_column_name": (_status, [_c.POINTER(_c.c_char_p), _vp, _c.c_int64]),
+    "ellipsa_model_component": (_status, [_dp, _c.c_int64, _dp, _c.c_int64, _dp, _vp, _c.c_int32]),
+    "ellipsa_model_raw_estimate": (_status, [_dp, _c.c_int64, _dp, _c.c_int64, _vp]),
+    "ellipsa_model_diagnostic": (_status, [_dp, _vp, _c.c_char_p]),
+    "ellipsa_model_row_set": (_status, [_i64p, _c.c_int64, _i64p, _vp, _c.c_int32]),
+    "ellipsa_model_selection": (_status, [_c.POINTER(Candidate), _c.c_int64, _i64p, _vp]),
+    "ellipsa_model_score": (_status, [_c.POINTER(ScoresBuffers), _vp, _mp, _c.c_double]),
+    # The saved text is taken as a void pointer so it can be handed back to
+    # ellipsa_text_free unchanged (c_char_p would convert it to bytes).
+    "ellipsa_model_save": (_status, [_c.POINTER(_vp), _i64p, _vp]),
+    "ellipsa_text_free": (None, [_vp]),
+    "ellipsa_model_load": (_status, [_c.POINTER(_vp), _c.c_char_p, _c.c_int64]),
+}
+
+for _name, (_res, _args) in _SIGNATURES.items():
+    _fn = getattr(lib, _name)
+    _fn.restype = _res
+    _fn.argtypes = _args
+
+
+def _text(raw):
+    return raw.decode("utf-8", "replace") if raw is not None else ""
+
+
+def status_name(status):
+    """The constant name of a status code, e.g. "ELLIPSA_ERR_SHAPE"."""
+    return _text(lib.ellipsa_status_string(status))
+
+
+def check(status):
+    """Raises Error for a non-zero status, with the thread's last message.
+
+    The message is read right after the failing call, on the same thread,
+    as the header requires.
+    """
+    if status != OK:
+        message = _text(lib.ellipsa_last_error())
+        raise Error(int(status), status_name(status), message)
