@@ -13,6 +13,8 @@ packages=(
   r-base-core                    # R binding and its smoke test
   mono-mcs mono-runtime          # C# binding and its smoke test
   clang libclang-rt-14-dev       # fuzz targets (libFuzzer)
+  chromium                       # renders the HTML report in its end-to-end test
+  abi-compliance-checker universal-ctags  # ABI check (scripts/check-abi.sh)
 )
 
 missing=()
