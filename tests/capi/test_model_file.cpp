@@ -126,6 +126,14 @@ TEST(ModelFile, HostileOrBrokenFilesAreRefusedWithAMessage) {
   // Arguments.
   ellipsa_model* mm = nullptr;
   EXPECT_EQ(ellipsa_model_load(&mm, good.data(), 0), ELLIPSA_ERR_ARGUMENT);
+  EXPECT_EQ(ellipsa_model_load(&mm, good.data(), -5), ELLIPSA_ERR_ARGUMENT);
+  // Oversized: refused by its length before a byte is read.
+  EXPECT_EQ(ellipsa_model_load(&mm, good.data(), (int64_t{1} << 30) + 1), ELLIPSA_ERR_ARGUMENT);
+  // Every truncation of a valid file is refused, none crashes.
+  for (size_t cut = 1; cut + 2 < good.size(); cut += 7) {  // the last two bytes are "}\n"
+    EXPECT_EQ(ellipsa_model_load(&mm, good.data(), static_cast<int64_t>(cut)), ELLIPSA_ERR_FORMAT) << cut;
+    EXPECT_EQ(mm, nullptr);
+  }
   EXPECT_EQ(ellipsa_model_load(&mm, nullptr, 10), ELLIPSA_ERR_NULL);
   EXPECT_EQ(ellipsa_model_load(nullptr, good.data(), 10), ELLIPSA_ERR_NULL);
   EXPECT_EQ(ellipsa_model_save(nullptr, nullptr, m.get()), ELLIPSA_ERR_NULL);
