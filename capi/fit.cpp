@@ -155,6 +155,7 @@ extern "C" ELLIPSA_API ellipsa_status ellipsa_model_fit(ellipsa_model** out, con
     m->method = o.method;
     m->columns = d.columns;
     m->dropped_rows = d.dropped_rows;
+    m->rows_dropped = static_cast<int64_t>(d.dropped_rows.size());
     m->rows_used = d.used().rows();
     switch (o.method) {
       case ELLIPSA_METHOD_CLASSICAL: fit_gaussian_classical(*m, d, o); break;

@@ -65,7 +65,8 @@ struct ellipsa_model {
   ellipsa_method method = ELLIPSA_METHOD_CLASSICAL;
   std::vector<std::string> columns;
   int64_t rows_used = 0;
-  std::vector<int64_t> dropped_rows;  // 0-based rows of the fitting data
+  std::vector<int64_t> dropped_rows;  // 0-based rows of the fitting data, when known
+  int64_t rows_dropped = 0;           // rows left out for missing values (>= dropped_rows.size())
   // Gaussian models have exactly one component with weight 1.
   std::vector<ellipsa::capi::Component> components;
   int32_t divisor = ELLIPSA_DIVISOR_N_MINUS_1;  // classical only

@@ -141,7 +141,7 @@ std::string model_to_json(const ellipsa_model& m) {
   j["method"] = method_name(m.method);
   j["columns"] = m.columns;
   j["n_rows_used"] = m.rows_used;
-  j["n_rows_dropped"] = static_cast<int64_t>(m.dropped_rows.size());
+  j["n_rows_dropped"] = m.rows_dropped;
   j["dropped_rows"] = rows_json(m.dropped_rows);
   if (m.kind == ELLIPSA_KIND_GAUSSIAN) {
     const auto& c = m.components.front();
@@ -240,6 +240,11 @@ ellipsa_model model_from_json(const char* text, int64_t length) {
   m.rows_used = integer(field(j, "n_rows_used"), "n_rows_used", 1, INT64_MAX / 2);
   const int64_t row_limit = INT64_MAX / 2;
   if (j.contains("dropped_rows")) m.dropped_rows = read_rows(j["dropped_rows"], row_limit, "dropped_rows");
+  m.rows_dropped = j.contains("n_rows_dropped")
+                       ? integer(j["n_rows_dropped"], "n_rows_dropped", 0, INT64_MAX / 2)
+                       : static_cast<int64_t>(m.dropped_rows.size());
+  if (m.rows_dropped < static_cast<int64_t>(m.dropped_rows.size()))
+    format_error("n_rows_dropped is smaller than the number of dropped_rows");
 
   if (m.kind == ELLIPSA_KIND_GAUSSIAN) {
     ellipsa::capi::Component c;

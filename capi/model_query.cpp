@@ -86,7 +86,7 @@ ELLIPSA_API ellipsa_status ellipsa_model_rows(int64_t* used, int64_t* dropped, c
   return guard("ellipsa_model_rows", [&] {
     require_not_null(model, "model");
     if (used) *used = model->rows_used;
-    if (dropped) *dropped = static_cast<int64_t>(model->dropped_rows.size());
+    if (dropped) *dropped = model->rows_dropped;
     return ELLIPSA_OK;
   });
 }

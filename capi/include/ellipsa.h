@@ -528,6 +528,88 @@ ELLIPSA_API void ellipsa_model_destroy(ellipsa_model *model);
 /** @} */
 
 /* ======================================================================== */
+/** @name Streaming fits
+ *  A classical fit in one pass over data that arrive in pieces: chunks of a
+ *  file, threads, or machines. Each piece is added to an accumulator (mean and
+ *  centred cross-products, merged by the update of Chan, Golub & LeVeque 1979);
+ *  accumulators of disjoint pieces merge exactly; the model is made at the end.
+ *  Memory is O(p^2) whatever the number of rows. An accumulator is used by one
+ *  thread at a time.
+ *  @{ */
+/** Opaque streaming accumulator of mean and cross-products. */
+typedef struct ellipsa_accumulator ellipsa_accumulator;
+
+/**
+ * @brief Creates an empty accumulator for rows of p columns.
+ * @param[out] out The handle; destroy it with ellipsa_accumulator_destroy().
+ * @param p        Number of columns, 1 <= p <= 100000.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (p); ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_accumulator_create(ellipsa_accumulator **out, int64_t p);
+
+/**
+ * @brief Destroys an accumulator; NULL is a no-op.
+ * @param accumulator The handle, or NULL.
+ */
+ELLIPSA_API void ellipsa_accumulator_destroy(ellipsa_accumulator *accumulator);
+
+/**
+ * @brief Adds the rows of a view.
+ *
+ * Rows with a NaN are not added; they are counted (see
+ * ellipsa_accumulator_rows()). An infinite value refuses the whole call with
+ * ::ELLIPSA_ERR_DATA and adds nothing.
+ * @param accumulator The accumulator.
+ * @param rows        n x p view (any strides), n >= 0.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_SHAPE (column count,
+ *         negative sizes or strides); ::ELLIPSA_ERR_DATA (an infinite value);
+ *         ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_accumulator_add(ellipsa_accumulator *accumulator,
+                                                   const ellipsa_matrix *rows);
+
+/**
+ * @brief Adds everything another accumulator holds (its rows and its count of
+ *        rows skipped), as if its rows had been added here.
+ * @param into The accumulator that grows.
+ * @param from An accumulator of the same p; not modified; may not be into.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_SHAPE (p differs);
+ *         ::ELLIPSA_ERR_ARGUMENT (into == from).
+ */
+ELLIPSA_API ellipsa_status ellipsa_accumulator_merge(ellipsa_accumulator *into,
+                                                     const ellipsa_accumulator *from);
+
+/**
+ * @brief Rows added so far, and rows skipped for missing values.
+ * @param[out] added   Rows added, or NULL.
+ * @param[out] skipped Rows skipped (a NaN), or NULL.
+ * @param accumulator  The accumulator.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (accumulator).
+ */
+ELLIPSA_API ellipsa_status ellipsa_accumulator_rows(int64_t *added, int64_t *skipped,
+                                                    const ellipsa_accumulator *accumulator);
+
+/**
+ * @brief Makes a classical Gaussian model from an accumulator.
+ *
+ * Equal, to rounding, to ellipsa_model_fit() with ::ELLIPSA_METHOD_CLASSICAL on
+ * all the rows added (the row numbers of skipped rows are not known here, so
+ * the model's dropped-row set is empty while its dropped count is right).
+ * @param[out] out      The model, or NULL on failure.
+ * @param accumulator   The accumulator (not modified; may be added to later).
+ * @param options       Options of method ::ELLIPSA_METHOD_CLASSICAL (divisor,
+ *                      column names); others give ::ELLIPSA_ERR_ARGUMENT.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT;
+ *         ::ELLIPSA_ERR_SHAPE (column names that do not match p);
+ *         ::ELLIPSA_ERR_DATA (fewer than p + 1 rows, a constant column);
+ *         ::ELLIPSA_NUM_SINGULAR (collinear columns, named in the message).
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_from_accumulator(ellipsa_model **out,
+                                                          const ellipsa_accumulator *accumulator,
+                                                          const ellipsa_fit_options *options);
+/** @} */
+
+/* ======================================================================== */
 /** @name Model queries
  *  Read-only, thread-safe on a shared model. Matrices are written row-major
  *  into caller buffers whose capacity (in elements) is passed and checked.
@@ -627,7 +709,7 @@ ELLIPSA_API ellipsa_status ellipsa_model_diagnostic(double *out, const ellipsa_m
 /** Row sets recorded by a fit (indices are 0-based rows of the fitting data, NaN rows included in the count). */
 #define ELLIPSA_ROWS_H_SUBSET 1 /**< MCD family: the final h-subset. */
 #define ELLIPSA_ROWS_OUTLIERS 2 /**< MCD family: rows flagged by the reweighting rule. */
-#define ELLIPSA_ROWS_DROPPED 3  /**< Rows dropped for missing values. */
+#define ELLIPSA_ROWS_DROPPED 3  /**< Rows dropped for missing values (empty for a model from an accumulator, whose rows are not numbered). */
 
 /**
  * @brief A set of fitting-data rows, ascending.

@@ -1,0 +1,115 @@
+// Streaming classical fits: an accumulator handle over core::MomentAccumulator,
+// and a model made from it with the same checks as ellipsa_model_fit.
+#include <memory>
+#include <string>
+
+#include "boundary.hpp"
+#include "core/error.hpp"
+#include "core/missing.hpp"
+#include "core/moments.hpp"
+#include "fit_common.hpp"
+#include "matrix_view.hpp"
+
+struct ellipsa_accumulator {
+  ellipsa::core::MomentAccumulator moments;
+  int64_t skipped = 0;
+};
+
+using ellipsa::capi::guard;
+using ellipsa::capi::Misuse;
+using ellipsa::capi::require_not_null;
+namespace core = ellipsa::core;
+
+extern "C" {
+
+ELLIPSA_API ellipsa_status ellipsa_accumulator_create(ellipsa_accumulator** out, int64_t p) {
+  return guard("ellipsa_accumulator_create", [&] {
+    require_not_null(out, "out");
+    if (p < 1 || p > 100000) throw Misuse{ELLIPSA_ERR_ARGUMENT, "p must lie in [1, 100000]"};
+    *out = new ellipsa_accumulator{core::MomentAccumulator(p), 0};
+    return ELLIPSA_OK;
+  });
+}
+
+ELLIPSA_API void ellipsa_accumulator_destroy(ellipsa_accumulator* accumulator) { delete accumulator; }
+
+ELLIPSA_API ellipsa_status ellipsa_accumulator_add(ellipsa_accumulator* accumulator, const ellipsa_matrix* rows) {
+  return guard("ellipsa_accumulator_add", [&] {
+    require_not_null(accumulator, "accumulator");
+    const core::DataView x = ellipsa::capi::checked_view(rows, "rows");
+    if (x.cols() != accumulator->moments.dimension())
+      throw Misuse{ELLIPSA_ERR_SHAPE, "rows have " + std::to_string(x.cols()) + " columns, the accumulator " +
+                                          std::to_string(accumulator->moments.dimension())};
+    if (x.rows() == 0) return ELLIPSA_OK;
+    // Checks first (an infinite value throws here), so a refused call adds nothing.
+    const auto complete = core::select_complete_rows(x);
+    if (complete.dropped == 0) {
+      accumulator->moments.add(x);
+    } else if (!complete.rows.empty()) {
+      const Eigen::MatrixXd kept = core::gather(x, complete.rows);
+      accumulator->moments.add(core::make_view(kept));
+    }
+    accumulator->skipped += complete.dropped;
+    return ELLIPSA_OK;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_accumulator_merge(ellipsa_accumulator* into, const ellipsa_accumulator* from) {
+  return guard("ellipsa_accumulator_merge", [&] {
+    require_not_null(into, "into");
+    require_not_null(from, "from");
+    if (into == from) throw Misuse{ELLIPSA_ERR_ARGUMENT, "into and from are the same accumulator"};
+    if (into->moments.dimension() != from->moments.dimension())
+      throw Misuse{ELLIPSA_ERR_SHAPE, "the accumulators have different column counts"};
+    into->moments.merge(from->moments);
+    into->skipped += from->skipped;
+    return ELLIPSA_OK;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_accumulator_rows(int64_t* added, int64_t* skipped,
+                                                    const ellipsa_accumulator* accumulator) {
+  return guard("ellipsa_accumulator_rows", [&] {
+    require_not_null(accumulator, "accumulator");
+    if (added) *added = accumulator->moments.rows();
+    if (skipped) *skipped = accumulator->skipped;
+    return ELLIPSA_OK;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_model_from_accumulator(ellipsa_model** out, const ellipsa_accumulator* accumulator,
+                                                          const ellipsa_fit_options* options) {
+  if (out != nullptr) *out = nullptr;
+  return guard("ellipsa_model_from_accumulator", [&] {
+    require_not_null(out, "out");
+    require_not_null(accumulator, "accumulator");
+    require_not_null(options, "options");
+    if (options->method != ELLIPSA_METHOD_CLASSICAL)
+      throw Misuse{ELLIPSA_ERR_ARGUMENT, "an accumulator makes classical models only"};
+    const auto& acc = accumulator->moments;
+    const int64_t p = acc.dimension(), n = acc.rows();
+    auto m = std::make_unique<ellipsa_model>();
+    m->method = ELLIPSA_METHOD_CLASSICAL;
+    m->columns = ellipsa::capi::column_names_or_default(options->column_names, p);
+    if (n <= p)
+      throw core::Error(core::ErrorKind::Data,
+                        "the classical fit needs more complete rows than columns (" + std::to_string(n) + " rows, " +
+                            std::to_string(p) + " columns); use a shrinkage method (ledoit-wolf, oas)");
+    const auto norm = options->divisor == ELLIPSA_DIVISOR_N ? core::Normalisation::ByCount
+                                                            : core::Normalisation::ByCountMinusOne;
+    Eigen::MatrixXd s = acc.covariance(norm);
+    for (int64_t j = 0; j < p; ++j)
+      if (!(s(j, j) > 0.0))
+        throw core::Error(core::ErrorKind::Data,
+                          "column \"" + m->columns[static_cast<size_t>(j)] + "\" is constant");
+    m->rows_used = n;
+    m->rows_dropped = accumulator->skipped;  // which rows is not known here
+    m->divisor = options->divisor;
+    m->components.push_back({1.0, acc.mean(), std::move(s), {}});
+    ellipsa::capi::finalise_or_explain(*m);
+    *out = m.release();
+    return ELLIPSA_OK;
+  });
+}
+
+}  // extern "C"

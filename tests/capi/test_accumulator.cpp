@@ -1,0 +1,134 @@
+// Streaming classical fits: chunks and merges equal one pass; missing and
+// infinite values; every status path.
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "capi_test_util.hpp"
+
+using namespace capi_test;
+
+namespace {
+struct AccFree {
+  void operator()(ellipsa_accumulator* a) const { ellipsa_accumulator_destroy(a); }
+};
+using Acc = std::unique_ptr<ellipsa_accumulator, AccFree>;
+Acc make(int64_t p) {
+  ellipsa_accumulator* a = nullptr;
+  EXPECT_EQ(ellipsa_accumulator_create(&a, p), ELLIPSA_OK);
+  return Acc(a);
+}
+std::vector<double> estimate(const ellipsa_model* m, int64_t p) {
+  std::vector<double> v(static_cast<size_t>(p + p * p));
+  EXPECT_EQ(ellipsa_model_component(v.data(), p, v.data() + p, p * p, nullptr, m, 0), ELLIPSA_OK);
+  return v;
+}
+}  // namespace
+
+TEST(Accumulator, ChunksAndMergesEqualOneFit) {
+  const int64_t n = 10000, p = 4;
+  const auto x = correlated_rows(n, p, 31, 1e4);  // offset 1e4, sd ~ 1-4
+  auto o = options(ELLIPSA_METHOD_CLASSICAL);
+  ellipsa_matrix all = ellipsa_matrix_row_major(x.data(), n, p);
+  ellipsa_model* direct = nullptr;
+  ASSERT_EQ(ellipsa_model_fit(&direct, &all, o.get()), ELLIPSA_OK);
+  Model d(direct);
+  // Two accumulators over uneven chunks, merged.
+  auto a = make(p), b = make(p);
+  int64_t start = 0;
+  for (int64_t len : {1, 999, 3000, 1, 2499, 3500}) {
+    ellipsa_matrix chunk = ellipsa_matrix_row_major(x.data() + start * p, len, p);
+    ASSERT_EQ(ellipsa_accumulator_add(start < 4000 ? a.get() : b.get(), &chunk), ELLIPSA_OK);
+    start += len;
+  }
+  ASSERT_EQ(start, n);
+  ASSERT_EQ(ellipsa_accumulator_merge(a.get(), b.get()), ELLIPSA_OK);
+  ellipsa_model* streamed = nullptr;
+  ASSERT_EQ(ellipsa_model_from_accumulator(&streamed, a.get(), o.get()), ELLIPSA_OK) << ellipsa_last_error();
+  Model s(streamed);
+  const auto e1 = estimate(d.get(), p), e2 = estimate(s.get(), p);
+  for (size_t i = 0; i < e1.size(); ++i) EXPECT_NEAR(e2[i], e1[i], 1e-12 * (1.0 + std::abs(e1[i]))) << i;
+  int64_t used = 0, dropped = -1;
+  ASSERT_EQ(ellipsa_model_rows(&used, &dropped, s.get()), ELLIPSA_OK);
+  EXPECT_EQ(used, n);
+  EXPECT_EQ(dropped, 0);
+}
+
+TEST(Accumulator, MissingRowsAreSkippedAndCountedInfinityRefused) {
+  const int64_t n = 50, p = 3;
+  auto x = correlated_rows(n, p, 32);
+  x[7 * p + 1] = std::nan("");
+  auto acc = make(p);
+  ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
+  ASSERT_EQ(ellipsa_accumulator_add(acc.get(), &v), ELLIPSA_OK);
+  int64_t added = 0, skipped = 0;
+  ASSERT_EQ(ellipsa_accumulator_rows(&added, &skipped, acc.get()), ELLIPSA_OK);
+  EXPECT_EQ(added, 49);
+  EXPECT_EQ(skipped, 1);
+  auto bad = x;
+  bad[3] = INFINITY;
+  ellipsa_matrix vb = ellipsa_matrix_row_major(bad.data(), n, p);
+  EXPECT_EQ(ellipsa_accumulator_add(acc.get(), &vb), ELLIPSA_ERR_DATA);
+  ASSERT_EQ(ellipsa_accumulator_rows(&added, &skipped, acc.get()), ELLIPSA_OK);
+  EXPECT_EQ(added, 49);  // the refused call added nothing
+  auto o = options(ELLIPSA_METHOD_CLASSICAL);
+  ellipsa_model* m = nullptr;
+  ASSERT_EQ(ellipsa_model_from_accumulator(&m, acc.get(), o.get()), ELLIPSA_OK);
+  Model guard(m);
+  int64_t used = 0, dropped = 0, count = -1;
+  ASSERT_EQ(ellipsa_model_rows(&used, &dropped, m), ELLIPSA_OK);
+  EXPECT_EQ(used, 49);
+  EXPECT_EQ(dropped, 1);
+  ASSERT_EQ(ellipsa_model_row_set(nullptr, 0, &count, m, ELLIPSA_ROWS_DROPPED), ELLIPSA_OK);
+  EXPECT_EQ(count, 0);  // which row is not known to an accumulator
+  // The model file keeps the count and loads back.
+  char* text = nullptr;
+  int64_t length = 0;
+  ASSERT_EQ(ellipsa_model_save(&text, &length, m), ELLIPSA_OK);
+  ellipsa_model* back = nullptr;
+  EXPECT_EQ(ellipsa_model_load(&back, text, length), ELLIPSA_OK) << ellipsa_last_error();
+  ASSERT_EQ(ellipsa_model_rows(&used, &dropped, back), ELLIPSA_OK);
+  EXPECT_EQ(dropped, 1);
+  ellipsa_model_destroy(back);
+  ellipsa_text_free(text);
+}
+
+TEST(Accumulator, StatusPaths) {
+  ellipsa_accumulator* a = nullptr;
+  EXPECT_EQ(ellipsa_accumulator_create(nullptr, 3), ELLIPSA_ERR_NULL);
+  EXPECT_EQ(ellipsa_accumulator_create(&a, 0), ELLIPSA_ERR_ARGUMENT);
+  EXPECT_EQ(ellipsa_accumulator_create(&a, -2), ELLIPSA_ERR_ARGUMENT);
+  auto acc = make(3), other = make(2);
+  std::vector<double> x = correlated_rows(3, 3, 33);
+  ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), 3, 3);
+  ellipsa_matrix narrow = ellipsa_matrix_row_major(x.data(), 4, 2);
+  EXPECT_EQ(ellipsa_accumulator_add(nullptr, &v), ELLIPSA_ERR_NULL);
+  EXPECT_EQ(ellipsa_accumulator_add(acc.get(), nullptr), ELLIPSA_ERR_NULL);
+  EXPECT_EQ(ellipsa_accumulator_add(acc.get(), &narrow), ELLIPSA_ERR_SHAPE);
+  EXPECT_EQ(ellipsa_accumulator_merge(acc.get(), other.get()), ELLIPSA_ERR_SHAPE);
+  EXPECT_EQ(ellipsa_accumulator_merge(acc.get(), acc.get()), ELLIPSA_ERR_ARGUMENT);
+  EXPECT_EQ(ellipsa_accumulator_merge(nullptr, acc.get()), ELLIPSA_ERR_NULL);
+  EXPECT_EQ(ellipsa_accumulator_rows(nullptr, nullptr, nullptr), ELLIPSA_ERR_NULL);
+  ASSERT_EQ(ellipsa_accumulator_add(acc.get(), &v), ELLIPSA_OK);
+  auto o = options(ELLIPSA_METHOD_CLASSICAL);
+  ellipsa_model* m = nullptr;
+  EXPECT_EQ(ellipsa_model_from_accumulator(&m, acc.get(), o.get()), ELLIPSA_ERR_DATA);  // 3 rows, 3 columns
+  EXPECT_NE(std::string(ellipsa_last_error()).find("shrinkage"), std::string::npos);
+  auto mcd = options(ELLIPSA_METHOD_MCD);
+  EXPECT_EQ(ellipsa_model_from_accumulator(&m, acc.get(), mcd.get()), ELLIPSA_ERR_ARGUMENT);
+  EXPECT_EQ(ellipsa_model_from_accumulator(nullptr, acc.get(), o.get()), ELLIPSA_ERR_NULL);
+  EXPECT_EQ(m, nullptr);
+  // A constant column is named.
+  auto c = make(2);
+  std::vector<double> constant = {1, 5, 2, 5, 3, 5, 4, 5};
+  ellipsa_matrix vc = ellipsa_matrix_row_major(constant.data(), 4, 2);
+  ASSERT_EQ(ellipsa_accumulator_add(c.get(), &vc), ELLIPSA_OK);
+  const char* names[] = {"melt", "pressure"};
+  ASSERT_EQ(ellipsa_fit_options_set_column_names(o.get(), names, 2), ELLIPSA_OK);
+  EXPECT_EQ(ellipsa_model_from_accumulator(&m, c.get(), o.get()), ELLIPSA_ERR_DATA);
+  EXPECT_NE(std::string(ellipsa_last_error()).find("\"pressure\" is constant"), std::string::npos);
+  ellipsa_accumulator_destroy(nullptr);  // a no-op
+}
