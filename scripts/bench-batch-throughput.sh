@@ -34,19 +34,19 @@ bytes=$(stat -c %s "$work/big.csv")
 rows=$(($(wc -l < "$work/big.csv") - 1))
 mb=$(awk -v b="$bytes" 'BEGIN {printf "%.1f", b / 1e6}')
 
-measure() {  # label, command...: prints seconds and peak resident MB
-  local label=$1; shift
+measure() {  # label, input bytes, command...: prints seconds, MB/s and peak resident MB
+  local label=$1 in_bytes=$2; shift 2
   /usr/bin/time -f "%e %M" -o "$work/time.txt" "$@" > /dev/null
   read -r secs kb < "$work/time.txt"
-  awk -v l="$label" -v s="$secs" -v k="$kb" -v b="$bytes" \
+  awk -v l="$label" -v s="$secs" -v k="$kb" -v b="$in_bytes" \
     'BEGIN {printf "%-34s %7.2f s  %8.1f MB/s  peak %7.1f MB\n", l, s, b / 1e6 / s, k / 1024}'
   echo "$secs" > "$work/last.txt"
 }
 
 echo "input: $mb MB, $rows rows x 10 columns (OPENBLAS_NUM_THREADS=${OPENBLAS_NUM_THREADS:-unset})"
-measure "fit --method classical (stream)" "$bin" fit --method classical --quiet "$work/big.csv" -o "$work/model.json"
+measure "fit --method classical (stream)" "$bytes" "$bin" fit --method classical --quiet "$work/big.csv" -o "$work/model.json"
 fit_s=$(cat "$work/last.txt")
-measure "score (read, score, write)" "$bin" score --quiet "$work/model.json" "$work/big.csv" -o "$work/scored.csv"
+measure "score (read, score, write)" "$bytes" "$bin" score --quiet "$work/model.json" "$work/big.csv" -o "$work/scored.csv"
 score_s=$(cat "$work/last.txt")
 out_mb=$(awk -v b="$(stat -c %s "$work/scored.csv")" 'BEGIN {printf "%.1f", b / 1e6}')
 echo "scored output: $out_mb MB"
@@ -55,4 +55,4 @@ awk -v f="$fit_s" -v s="$score_s" 'BEGIN {
          100 * f / s, 100 * (s - f) / s }'
 # Peak memory must not grow with the file: the same on a file a quarter as long.
 head -n $((rows / 4 + 1)) "$work/big.csv" > "$work/quarter.csv"
-measure "score, a quarter of the file" "$bin" score --quiet "$work/model.json" "$work/quarter.csv" -o "$work/scored_q.csv"
+measure "score, a quarter of the file" "$(stat -c %s "$work/quarter.csv")" "$bin" score --quiet "$work/model.json" "$work/quarter.csv" -o "$work/scored_q.csv"
