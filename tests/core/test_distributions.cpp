@@ -3,6 +3,8 @@
 // against R's standalone math library (an independent implementation).
 #include <gtest/gtest.h>
 
+#include "reference_csv.hpp"
+
 #include <cmath>
 #include <fstream>
 #include <limits>
@@ -24,20 +26,7 @@ namespace {
 const std::string kRef = ELLIPSA_REFERENCE_DIR;
 
 std::vector<std::vector<double>> read_table(const std::string& path) {
-  std::ifstream in(path);
-  EXPECT_TRUE(in) << path;
-  std::string line;
-  std::getline(in, line);
-  std::vector<std::vector<double>> rows;
-  while (std::getline(in, line)) {
-    if (line.empty()) continue;
-    std::vector<double> row;
-    std::stringstream ss(line);
-    std::string cell;
-    while (std::getline(ss, cell, ',')) row.push_back(std::stod(cell));
-    rows.push_back(row);
-  }
-  return rows;
+  return ellipsa_test::read_numeric_rows(path);
 }
 
 double rel(double a, double b) {

@@ -2,6 +2,8 @@
 // Tracy-Young-Mason control limits against R's qbeta/qf.
 #include <gtest/gtest.h>
 
+#include "reference_csv.hpp"
+
 #include <cmath>
 #include <fstream>
 #include <sstream>
@@ -20,25 +22,7 @@ using namespace ellipsa::core;
 
 namespace {
 
-Eigen::MatrixXd read_csv(const std::string& path) {
-  std::ifstream in(path);
-  EXPECT_TRUE(in) << path;
-  std::string line;
-  std::getline(in, line);
-  std::vector<std::vector<double>> rows;
-  while (std::getline(in, line)) {
-    if (line.empty()) continue;
-    std::vector<double> row;
-    std::stringstream ss(line);
-    std::string cell;
-    while (std::getline(ss, cell, ',')) row.push_back(std::stod(cell));
-    rows.push_back(row);
-  }
-  Eigen::MatrixXd m(static_cast<Index>(rows.size()), static_cast<Index>(rows.at(0).size()));
-  for (std::size_t i = 0; i < rows.size(); ++i)
-    for (std::size_t j = 0; j < rows[i].size(); ++j) m(static_cast<Index>(i), static_cast<Index>(j)) = rows[i][j];
-  return m;
-}
+Eigen::MatrixXd read_csv(const std::string& path) { return ellipsa_test::read_numeric_csv(path); }
 
 }  // namespace
 

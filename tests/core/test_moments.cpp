@@ -4,6 +4,8 @@
 // and the errors a caller sees.
 #include <gtest/gtest.h>
 
+#include "reference_csv.hpp"
+
 #include <algorithm>
 #include <cmath>
 #include <fstream>
@@ -29,26 +31,7 @@ const std::string kRef = ELLIPSA_REFERENCE_DIR;
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 constexpr double kInf = std::numeric_limits<double>::infinity();
 
-// Numeric CSV with one header line.
-Eigen::MatrixXd read_csv(const std::string& path) {
-  std::ifstream in(path);
-  if (!in) throw std::runtime_error("cannot open " + path);
-  std::string line;
-  std::getline(in, line);
-  std::vector<std::vector<double>> rows;
-  while (std::getline(in, line)) {
-    if (line.empty()) continue;
-    std::vector<double> row;
-    std::stringstream ss(line);
-    std::string cell;
-    while (std::getline(ss, cell, ',')) row.push_back(std::stod(cell));
-    rows.push_back(row);
-  }
-  Eigen::MatrixXd m(static_cast<Index>(rows.size()), static_cast<Index>(rows.at(0).size()));
-  for (std::size_t i = 0; i < rows.size(); ++i)
-    for (std::size_t j = 0; j < rows[i].size(); ++j) m(static_cast<Index>(i), static_cast<Index>(j)) = rows[i][j];
-  return m;
-}
+Eigen::MatrixXd read_csv(const std::string& path) { return ellipsa_test::read_numeric_csv(path); }
 
 // The string value of "key" inside the "certified" object of data set `name` in
 // NIST's certified_values.json (a fixed, known layout; no general JSON parser).
