@@ -3,6 +3,7 @@
 // routes rows and copies results.
 #include <cmath>
 #include <cstring>
+#include <map>
 #include <vector>
 
 #include "boundary.hpp"
@@ -70,14 +71,15 @@ void score_gaussian(const ellipsa_scores& b, const ellipsa_model& m, core::DataV
   for (int64_t i = 0; i < x.rows(); ++i) {
     if (b.component) b.component[i] = 0;
     if (b.membership) b.membership[i] = 1.0;
-    if (b.low_density) b.low_density[i] = b.flag ? b.flag[i] : (s.df(i) > 0 ? (s.flagged(i) ? 1 : 0) : -1);
+    if (b.low_density) b.low_density[i] = s.df(i) > 0 ? (s.flagged(i) ? 1 : 0) : -1;  // the flag itself
   }
   if (b.log_density) {
     // log N(x_o; T_o, S_oo) = -0.5 (df log 2pi + log det S_oo + d2). The
     // marginal log-det is only available for complete rows without refactoring,
-    // so rows with missing coordinates get their own small factorisation.
+    // so each pattern of missing coordinates gets its own small factorisation.
     const double full_logdet = c.factor.log_determinant();
     const double log2pi = std::log(2.0 * M_PI);
+    std::map<std::vector<Eigen::Index>, double> marginal_logdet;
     for (int64_t i = 0; i < x.rows(); ++i) {
       const auto df = s.df(i);
       if (df == 0) {
@@ -88,8 +90,11 @@ void score_gaussian(const ellipsa_scores& b, const ellipsa_model& m, core::DataV
         std::vector<Eigen::Index> obs;
         for (Eigen::Index j = 0; j < x.cols(); ++j)
           if (!std::isnan(x(i, j))) obs.push_back(j);
-        core::CholeskyFactor f(c.scatter(obs, obs));
-        b.log_density[i] = -0.5 * (static_cast<double>(df) * log2pi + f.log_determinant() + s.d2(i));
+        // One factorisation per pattern of observed columns, however many rows share it.
+        auto it = marginal_logdet.find(obs);
+        if (it == marginal_logdet.end())
+          it = marginal_logdet.emplace(obs, core::CholeskyFactor(c.scatter(obs, obs)).log_determinant()).first;
+        b.log_density[i] = -0.5 * (static_cast<double>(df) * log2pi + it->second + s.d2(i));
       }
     }
   }
