@@ -17,6 +17,7 @@ struct ClusterArgs {
   std::string model_out;
   std::string scores_out;
   double level = 0.975;
+  std::string digits = "10";
   FitFlags fit;
   DialectFlags dialect;
   OutputFlags out;
@@ -41,10 +42,12 @@ Command add_cluster(CLI::App& parent) {
   app->add_option("-o,--output", a->model_out, "Model file of the chosen mixture to write");
   app->add_option("--scores", a->scores_out, "CSV of every row with its component, memberships and flags");
   app->add_option("--level", a->level, "Level of the distance flag in the scores")->capture_default_str();
+  add_digits_flag(*app, a->digits);
   add_fit_flags(*app, a->fit, false);
   add_dialect_flags(*app, a->dialect);
   add_output_flags(*app, a->out);
   return {app, [a]() {
+            const int digits = parse_digits(a->digits);
             const Table t = read_table(a->data, a->dialect.to_options(), !a->scores_out.empty());
             Progress progress(progress_wanted(a->out.quiet || a->out.json));
             const auto options = make_fit_options(a->fit, t.columns, &progress);
@@ -104,7 +107,9 @@ Command add_cluster(CLI::App& parent) {
 
             if (!a->scores_out.empty()) {
               AtomicOutput out(a->scores_out);
-              CsvWriter w(out.stream());
+              CsvWriteOptions wo;
+              wo.digits = digits;
+              CsvWriter w(out.stream(), wo);
               std::vector<std::string> header = t.header;
               header.insert(header.end(), cols.names.begin(), cols.names.end());
               w.header(header);

@@ -15,6 +15,7 @@ struct ScoreArgs {
   std::string output = "-";
   double level = 0.975;
   bool fail_on_flag = false;
+  std::string digits = "10";
   DialectFlags dialect;
   OutputFlags out;
 };
@@ -32,9 +33,11 @@ Command add_score(CLI::App& parent) {
   app->add_option("--level", a->level, "Flag rows whose distance exceeds this chi-square quantile")
       ->capture_default_str();
   app->add_flag("--fail-on-flag", a->fail_on_flag, "Exit with code 5 when any row is flagged");
+  add_digits_flag(*app, a->digits);
   add_dialect_flags(*app, a->dialect);
   add_output_flags(*app, a->out);
   return {app, [a]() {
+            const int digits = parse_digits(a->digits);
             if (a->out.json && a->output == "-")
               throw CliError(kExitUsage, "--json prints the summary on standard output: give the scores a file with -o");
             if (!(a->level > 0.0 && a->level < 1.0)) throw CliError(kExitUsage, "--level must lie in (0, 1)");
@@ -51,6 +54,7 @@ Command add_score(CLI::App& parent) {
             CsvWriteOptions wo;
             wo.separator = reader.separator();
             wo.decimal = options.decimal;
+            wo.digits = digits;
             CsvWriter writer(out.stream(), wo);
             writer.header(header);
 

@@ -17,6 +17,7 @@ struct ScreenArgs {
   std::string by;
   double level = 0.975;
   bool fail_on_flag = false;
+  std::string digits = "10";
   FitFlags fit;
   DialectFlags dialect;
   OutputFlags out;
@@ -58,10 +59,12 @@ Command add_screen(CLI::App& parent) {
   app->add_option("--level", a->level, "Flag rows whose robust distance exceeds this chi-square quantile")
       ->capture_default_str();
   app->add_flag("--fail-on-flag", a->fail_on_flag, "Exit with code 5 when any row is flagged");
+  add_digits_flag(*app, a->digits);
   add_fit_flags(*app, a->fit, true);
   add_dialect_flags(*app, a->dialect);
   add_output_flags(*app, a->out);
   return {app, [a]() {
+            const int digits = parse_digits(a->digits);
             if (!(a->level > 0.0 && a->level < 1.0)) throw CliError(kExitUsage, "--level must lie in (0, 1)");
             // The group column is checked against the header here (a usage
             // error), and taken out of the variables if it happens to be numeric.
@@ -107,7 +110,9 @@ Command add_screen(CLI::App& parent) {
 
             if (!a->output.empty()) {
               AtomicOutput out(a->output);
-              CsvWriter writer(out.stream());
+              CsvWriteOptions wo;
+              wo.digits = digits;
+              CsvWriter writer(out.stream(), wo);
               std::vector<std::string> header = t.header;
               const auto& names = groups.front().cols.names;
               header.insert(header.end(), names.begin(), names.end());

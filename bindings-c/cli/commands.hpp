@@ -51,6 +51,11 @@ OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& c
                             Progress* progress = nullptr);
 void add_dialect_flags(CLI::App& app, DialectFlags& d);
 void add_output_flags(CLI::App& app, OutputFlags& o);
+// --digits of the subcommands that write scored rows: "10" by default, "1".."17",
+// or "exact" (the shortest text that reads back to the same double).
+void add_digits_flag(CLI::App& app, std::string& digits);
+// The CsvWriteOptions::digits value of a --digits text; throws CliError (usage) otherwise.
+int parse_digits(const std::string& text);
 
 // ---- scoring output shared by score and screen ---------------------------
 struct ScoreColumns {

@@ -98,8 +98,8 @@ bool RecordStream::next(CsvRecord& record) {
     const char* b = buffer_.data();
     record.line = line_;
     record.text = std::string_view(b + pos_, record_end - pos_);
-    record.fields.resize(refs_.size());
-    for (std::size_t i = 0; i < refs_.size(); ++i) {
+    record.fields.resize(ref_count_);
+    for (std::size_t i = 0; i < ref_count_; ++i) {
       const FieldRef& r = refs_[i];
       record.fields[i] = std::string_view((r.in_scratch ? scratch_.data() : b) + r.offset, r.length);
     }
@@ -118,7 +118,7 @@ RecordStream::Parse RecordStream::parse(std::size_t& record_end, std::size_t& ne
   const std::size_t n = filled_;
   std::size_t i = pos_;
   std::int64_t newlines = 0;
-  refs_.clear();
+  ref_count_ = 0;
   scratch_.clear();
   for (;;) {
     if (i < n && b[i] == '"') {
@@ -133,7 +133,7 @@ RecordStream::Parse RecordStream::parse(std::size_t& record_end, std::size_t& ne
         const void* q = j < n ? std::memchr(b + j, '"', n - j) : nullptr;
         if (q == nullptr) {
           if (!eof_) return Parse::need_more;
-          fail(quote_line, refs_.size() + 1, "quoted field is not closed before the end of the file");
+          fail(quote_line, ref_count_ + 1, "quoted field is not closed before the end of the file");
         }
         const std::size_t at = static_cast<std::size_t>(static_cast<const char*>(q) - b);
         if (at + 1 == n && !eof_) return Parse::need_more;  // "" or closing? next byte decides
@@ -149,9 +149,9 @@ RecordStream::Parse RecordStream::parse(std::size_t& record_end, std::size_t& ne
       newlines += std::count(b + open + 1, b + close, '\n');
       if (escaped) {
         scratch_.append(b + segment, close - segment);
-        refs_.push_back({scratch_start, scratch_.size() - scratch_start, true});
+        add_ref(scratch_start, scratch_.size() - scratch_start, true);
       } else {
-        refs_.push_back({open + 1, close - open - 1, false});
+        add_ref(open + 1, close - open - 1, false);
       }
       i = close + 1;
       if (i == n) {
@@ -184,21 +184,21 @@ RecordStream::Parse RecordStream::parse(std::size_t& record_end, std::size_t& ne
           break;
         }
       }
-      fail(line_ + newlines, refs_.size(),
+      fail(line_ + newlines, ref_count_,
            "unexpected character '" + printable_char(c) + "' after the closing quote");
     }
     // Unquoted field: runs to a separator or the end of the line.
     const std::size_t start = i;
     while (i < n && !stop_[static_cast<unsigned char>(b[i])]) ++i;
     if (i < n && b[i] != '\n') {  // separator
-      refs_.push_back({start, i - start, false});
+      add_ref(start, i - start, false);
       ++i;
       continue;
     }
     if (i == n && !eof_) return Parse::need_more;
     std::size_t end = i;
     if (end > start && b[end - 1] == '\r') --end;  // CRLF, or a lone CR before end of file
-    refs_.push_back({start, end - start, false});
+    add_ref(start, end - start, false);
     record_end = end;
     if (i < n) {
       next_pos = i + 1;

@@ -74,7 +74,14 @@ class RecordStream {
   std::int64_t line_ = 1;            ///< physical line of the next record
   std::array<bool, 256> separator_{};
   std::array<bool, 256> stop_{};     ///< separator or '\n': ends an unquoted scan
+  // Fields of the record being parsed: refs_[0, ref_count_). Appended through
+  // add_ref, which stays inline in the scanning loop (a push_back did not).
+  void add_ref(std::size_t offset, std::size_t length, bool in_scratch) {
+    if (ref_count_ == refs_.size()) refs_.resize(refs_.empty() ? 16 : 2 * refs_.size());
+    refs_[ref_count_++] = {offset, length, in_scratch};
+  }
   std::vector<FieldRef> refs_;
+  std::size_t ref_count_ = 0;
   std::string scratch_;
   const std::vector<std::string>* names_ = nullptr;
 };

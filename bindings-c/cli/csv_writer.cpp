@@ -7,17 +7,15 @@
 #include <stdexcept>
 
 #include "atomic_output.hpp"
+#include "number_format.hpp"
 
 namespace ellipsa::cli {
 namespace {
 
 constexpr std::size_t kDrainSize = std::size_t{1} << 16;
 
-std::size_t append_number(char* out, double value, char decimal) {
-  // 32 bytes hold the longest shortest form, e.g. -2.2250738585072014e-308.
-  const auto [end, ec] = std::to_chars(out, out + 32, value);
-  (void)ec;
-  const std::size_t n = static_cast<std::size_t>(end - out);
+std::size_t append_number(char* out, double value, char decimal, int digits) {
+  const std::size_t n = digits == 0 ? format_shortest(out, value) : format_significant(out, value, digits);
   if (decimal != '.')
     for (std::size_t i = 0; i < n; ++i)
       if (out[i] == '.') out[i] = decimal;
@@ -33,6 +31,8 @@ CsvWriter::CsvWriter(std::FILE* out, CsvWriteOptions options) : out_(out), optio
     throw std::invalid_argument("decimal mark must be '.' or ','");
   if (options_.decimal == ',' && s == ',')
     throw std::invalid_argument("with decimal comma the separator must be ';' or tab");
+  if (options_.digits < 0 || options_.digits > 17)
+    throw std::invalid_argument("significant digits must be 1 to 17 (or 0 for the shortest exact form)");
   buffer_.reserve(kDrainSize + 4096);
 }
 
@@ -70,8 +70,8 @@ CsvWriter& CsvWriter::text(std::string_view field) {
 CsvWriter& CsvWriter::number(double value) {
   if (std::isnan(value)) return missing();
   begin_field();
-  char digits[32];
-  buffer_.append(digits, append_number(digits, value, options_.decimal));
+  char digits[kNumberTextMax];
+  buffer_.append(digits, append_number(digits, value, options_.decimal, options_.digits));
   last_field_empty_ = false;
   drain_if_full();
   return *this;
@@ -131,10 +131,10 @@ void CsvWriter::flush() {
   if (std::fflush(out_) != 0) throw OutputError(std::string("cannot write output: ") + std::strerror(errno));
 }
 
-std::string CsvWriter::format_number(double value, char decimal, std::string_view missing) {
+std::string CsvWriter::format_number(double value, char decimal, std::string_view missing, int digits) {
   if (std::isnan(value)) return std::string(missing);
-  char digits[32];
-  return std::string(digits, append_number(digits, value, decimal));
+  char text[kNumberTextMax];
+  return std::string(text, append_number(text, value, decimal, digits));
 }
 
 }  // namespace ellipsa::cli

@@ -1,5 +1,6 @@
 // CSV output that the reader (and spreadsheets, R, NumPy) read back exactly:
-// numbers in the shortest form that round-trips (std::to_chars), fields quoted
+// numbers in the shortest form that round-trips (std::to_chars) unless a number
+// of significant digits is asked for (number_format.hpp), fields quoted
 // only when they hold the separator, a quote, CR or LF, and "\n" line ends
 // unless CRLF is asked for.
 //
@@ -23,6 +24,7 @@ struct CsvWriteOptions {
   char decimal = '.';          ///< '.' or ',' (then the separator cannot be ',')
   bool crlf = false;           ///< "\r\n" line ends instead of "\n"
   std::string missing = "NA";  ///< written for NaN (one of the reader's missing markers)
+  int digits = 0;              ///< significant digits of numbers (1..17); 0: shortest exact form
 };
 
 class CsvWriter {
@@ -38,7 +40,8 @@ class CsvWriter {
   void header(std::span<const std::string> names);
   /// A text field, quoted when needed.
   CsvWriter& text(std::string_view field);
-  /// A number (shortest round-trip form; NaN as options.missing; +-inf as inf/-inf).
+  /// A number (options.digits significant digits or the shortest round-trip form;
+  /// NaN as options.missing; +-inf as inf/-inf).
   CsvWriter& number(double value);
   CsvWriter& integer(std::int64_t value);
   /// options.missing.
@@ -52,7 +55,8 @@ class CsvWriter {
 
   char separator() const noexcept { return options_.separator; }
   /// The text number() writes for `value`.
-  static std::string format_number(double value, char decimal = '.', std::string_view missing = "NA");
+  static std::string format_number(double value, char decimal = '.', std::string_view missing = "NA",
+                                   int digits = 0);
 
  private:
   void begin_field();

@@ -19,6 +19,22 @@ void add_output_flags(CLI::App& app, OutputFlags& o) {
   app.add_flag("--json", o.json, "Print a machine-readable summary (JSON) on standard output");
 }
 
+void add_digits_flag(CLI::App& app, std::string& digits) {
+  app.add_option("--digits", digits,
+                 "Significant digits of the computed columns: 1 to 17, or 'exact' for the shortest "
+                 "text that reads back to the same number (input columns are copied as they are)")
+      ->capture_default_str();
+}
+
+int parse_digits(const std::string& text) {
+  if (text == "exact") return 0;
+  int digits = 0;
+  const auto [ptr, ec] = std::from_chars(text.data(), text.data() + text.size(), digits);
+  if (ec != std::errc() || ptr != text.data() + text.size() || digits < 1 || digits > 17)
+    throw CliError(kExitUsage, "--digits must be a whole number from 1 to 17, or 'exact' (got '" + text + "')");
+  return digits;
+}
+
 void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method) {
   if (with_method)
     app.add_option("-m,--method", f.method, "classical, ledoit-wolf, oas, mcd, detmcd, mrcd or mixture")

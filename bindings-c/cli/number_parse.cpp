@@ -59,7 +59,40 @@ double out_of_range_value(std::string_view s) noexcept {
   return negative ? -magnitude : magnitude;
 }
 
+constexpr double kExactPow10[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
+                                  1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+
+// The common cell, [-]digits[.digits] with at most 15 digits in all, read
+// exactly without std::from_chars: the digits form an integer below 10^15 <
+// 2^53 and the divisor 10^k (k <= 15) is a double exactly, so the one IEEE
+// division is the correctly rounded value of the decimal (Clinger 1990, "How
+// to read floating point numbers accurately", the exact fast path). Returns
+// false, touching nothing, for any other text; std::from_chars reads that.
+bool read_plain_decimal(std::string_view s, double& out) noexcept {
+  std::size_t i = 0;
+  const std::size_t n = s.size();
+  const bool negative = n > 0 && s[0] == '-';
+  i += negative ? 1 : 0;
+  std::uint64_t digits = 0;
+  int count = 0;
+  const std::size_t integer_start = i;
+  for (; i < n && is_digit(s[i]); ++i, ++count) digits = digits * 10 + static_cast<std::uint64_t>(s[i] - '0');
+  if (i == integer_start || count > 15) return false;  // ".5", "-" and long literals: from_chars
+  int fraction = 0;
+  if (i < n) {
+    if (s[i] != '.') return false;
+    const std::size_t fraction_start = ++i;
+    for (; i < n && is_digit(s[i]); ++i, ++count) digits = digits * 10 + static_cast<std::uint64_t>(s[i] - '0');
+    fraction = static_cast<int>(i - fraction_start);
+    if (i != n || fraction == 0 || count > 15) return false;  // exponent, "1.", trailing text
+  }
+  const double magnitude = static_cast<double>(digits) / kExactPow10[fraction];
+  out = negative ? -magnitude : magnitude;
+  return true;
+}
+
 CellValue read_with_point(std::string_view s, double& out) noexcept {
+  if (read_plain_decimal(s, out)) return CellValue::number;
   if (s.size() > 1 && s[0] == '+') {
     if (s[1] == '+' || s[1] == '-') return CellValue::invalid;  // "+-1" is not a number
     s.remove_prefix(1);

@@ -35,6 +35,8 @@ expect(["fit", "--no-such-option", good], 2)
 expect(["fit", "--method", "banana", good], 2, "banana")
 expect(["fit", "--method", "mcd", "--alpha", "0.3", good], 2, "alpha")
 expect(["score", "m.json", good, "--level", "1.5"], 2, "level")
+expect(["score", "m.json", good, "--digits", "18"], 2, "--digits")
+expect(["score", "m.json", good, "--digits", "ten"], 2, "--digits")
 expect(["fit", "--method", "mixture", "--components", "x", good], 2, "whole number")
 expect(["screen", good, "--by", "no_such_column"], 2, "no_such_column")
 

@@ -61,6 +61,25 @@ check(code == 0 and json.loads(model_text)["kind"] == "gaussian", "fit reads std
 model = write(os.path.join(tmp, "model.json"), model_text)
 code, scored, err = run("score", model, "-", stdin=data)
 check(code == 0 and len(read_csv(scored, from_text=True)) == 300, "score reads stdin and writes stdout")
+def significant(text):
+    """The significant digits of a decimal text ("-0.00120e-5" -> "12")."""
+    mantissa = text.lower().split("e")[0].replace("-", "").replace(".", "")
+    return mantissa.strip("0")
+
+
+# Computed columns: 10 significant digits by default, or the exact shortest
+# form. Python's float() and repr() (the reference) read both; the rounded
+# value agrees with the exact one to half a unit in the tenth digit.
+code, exact, err = run("score", model, "-", "--digits", "exact", stdin=data)
+exact_rows = read_csv(exact, from_text=True) if code == 0 else []
+rounded_rows = read_csv(scored, from_text=True)
+check(code == 0 and len(exact_rows) == len(rounded_rows), f"score --digits exact: {err.strip()}")
+for e_row, r_row in zip(exact_rows, rounded_rows):
+    for key in ("sq_distance", "p_value", "contrib_melt_temp_C"):
+        e_val, r_val = float(e_row[key]), float(r_row[key])
+        check(len(significant(r_row[key])) <= 10, f"{key} {r_row[key]} has at most 10 significant digits")
+        check(abs(e_val - r_val) <= 5e-10 * abs(e_val), f"{key}: {r_row[key]} rounds {e_row[key]}")
+        check(significant(e_row[key]) == significant(repr(e_val)), f"{key} {e_row[key]}: shortest exact form")
 code, shown, err = run("inspect", "-", stdin=model_text)
 check(code == 0 and "classical" in shown, "inspect reads the model from stdin")
 
