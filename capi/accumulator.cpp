@@ -1,5 +1,7 @@
-// Streaming classical fits: an accumulator handle over core::MomentAccumulator,
-// and a model made from it with the same checks as ellipsa_model_fit.
+// Streaming fits: an accumulator handle over core::MomentAccumulator (mean and
+// cross-products) and core::NormPowerSums (the fourth power sum of the row
+// norms that the Ledoit-Wolf intensity needs), and a classical or shrinkage
+// model made from it with the same checks as ellipsa_model_fit.
 #include <memory>
 #include <string>
 
@@ -7,26 +9,63 @@
 #include "core/error.hpp"
 #include "core/missing.hpp"
 #include "core/moments.hpp"
+#include "core/norm_power_sums.hpp"
+#include "core/shrinkage.hpp"
 #include "fit_common.hpp"
 #include "matrix_view.hpp"
 
 struct ellipsa_accumulator {
   ellipsa::core::MomentAccumulator moments;
+  ellipsa::core::NormPowerSums norms;  // about moments.mean() once rows were added
   int64_t skipped = 0;
 };
+
+namespace {
+
+namespace core = ellipsa::core;
+
+// Adds moments b (cross-products and norm sums of disjoint rows) into a:
+// both norm sums are moved to the merged mean (norm_power_sums.hpp).
+void merge_into(ellipsa_accumulator& a, const core::MomentAccumulator& b_moments, const core::NormPowerSums& b_norms) {
+  if (b_moments.rows() == 0) return;
+  if (a.moments.rows() == 0) {
+    a.moments = b_moments;
+    a.norms = b_norms;
+    return;
+  }
+  const Eigen::MatrixXd a_cross = a.moments.cross_products();
+  a.moments.merge(b_moments);
+  const Eigen::VectorXd& mean = a.moments.mean();
+  a.norms = core::combine(core::recentre(a.norms, a_cross, mean),
+                          core::recentre(b_norms, b_moments.cross_products(), mean));
+}
+
+// The new rows' norm sums are taken about the merged mean directly; the old
+// sums are moved there.
+void add_rows(ellipsa_accumulator& a, core::DataView x) {
+  if (a.moments.rows() == 0) {
+    a.moments.add(x);
+    a.norms = core::norm_power_sums(x, a.moments.mean());
+    return;
+  }
+  const Eigen::MatrixXd a_cross = a.moments.cross_products();
+  a.moments.add(x);
+  const Eigen::VectorXd& mean = a.moments.mean();
+  a.norms = core::combine(core::recentre(a.norms, a_cross, mean), core::norm_power_sums(x, mean));
+}
+
+}  // namespace
 
 using ellipsa::capi::guard;
 using ellipsa::capi::Misuse;
 using ellipsa::capi::require_not_null;
-namespace core = ellipsa::core;
-
 extern "C" {
 
 ELLIPSA_API ellipsa_status ellipsa_accumulator_create(ellipsa_accumulator** out, int64_t p) {
   return guard("ellipsa_accumulator_create", [&] {
     require_not_null(out, "out");
     if (p < 1 || p > 100000) throw Misuse{ELLIPSA_ERR_ARGUMENT, "p must lie in [1, 100000]"};
-    *out = new ellipsa_accumulator{core::MomentAccumulator(p), 0};
+    *out = new ellipsa_accumulator{core::MomentAccumulator(p), {}, 0};
     return ELLIPSA_OK;
   });
 }
@@ -44,10 +83,10 @@ ELLIPSA_API ellipsa_status ellipsa_accumulator_add(ellipsa_accumulator* accumula
     // Checks first (an infinite value throws here), so a refused call adds nothing.
     const auto complete = core::select_complete_rows(x);
     if (complete.dropped == 0) {
-      accumulator->moments.add(x);
+      add_rows(*accumulator, x);
     } else if (!complete.rows.empty()) {
       const Eigen::MatrixXd kept = core::gather(x, complete.rows);
-      accumulator->moments.add(core::make_view(kept));
+      add_rows(*accumulator, core::make_view(kept));
     }
     accumulator->skipped += complete.dropped;
     return ELLIPSA_OK;
@@ -61,7 +100,7 @@ ELLIPSA_API ellipsa_status ellipsa_accumulator_merge(ellipsa_accumulator* into, 
     if (into == from) throw Misuse{ELLIPSA_ERR_ARGUMENT, "into and from are the same accumulator"};
     if (into->moments.dimension() != from->moments.dimension())
       throw Misuse{ELLIPSA_ERR_SHAPE, "the accumulators have different column counts"};
-    into->moments.merge(from->moments);
+    merge_into(*into, from->moments, from->norms);
     into->skipped += from->skipped;
     return ELLIPSA_OK;
   });
@@ -84,28 +123,44 @@ ELLIPSA_API ellipsa_status ellipsa_model_from_accumulator(ellipsa_model** out, c
     require_not_null(out, "out");
     require_not_null(accumulator, "accumulator");
     require_not_null(options, "options");
-    if (options->method != ELLIPSA_METHOD_CLASSICAL)
-      throw Misuse{ELLIPSA_ERR_ARGUMENT, "an accumulator makes classical models only"};
+    const int32_t method = options->method;
+    if (method != ELLIPSA_METHOD_CLASSICAL && method != ELLIPSA_METHOD_LEDOIT_WOLF && method != ELLIPSA_METHOD_OAS)
+      throw Misuse{ELLIPSA_ERR_ARGUMENT, "an accumulator makes classical, ledoit-wolf and oas models only"};
+    if (options->missing == ELLIPSA_MISSING_REFUSE && accumulator->skipped > 0)
+      throw core::Error(core::ErrorKind::Data, std::to_string(accumulator->skipped) +
+                                                   " rows had a missing value and the options refuse missing values");
     const auto& acc = accumulator->moments;
     const int64_t p = acc.dimension(), n = acc.rows();
     auto m = std::make_unique<ellipsa_model>();
-    m->method = ELLIPSA_METHOD_CLASSICAL;
+    m->method = method;
     m->columns = ellipsa::capi::column_names_or_default(options->column_names, p);
-    if (n <= p)
-      throw core::Error(core::ErrorKind::Data,
-                        "the classical fit needs more complete rows than columns (" + std::to_string(n) + " rows, " +
-                            std::to_string(p) + " columns); use a shrinkage method (ledoit-wolf, oas)");
-    const auto norm = options->divisor == ELLIPSA_DIVISOR_N ? core::Normalisation::ByCount
-                                                            : core::Normalisation::ByCountMinusOne;
-    Eigen::MatrixXd s = acc.covariance(norm);
-    for (int64_t j = 0; j < p; ++j)
-      if (!(s(j, j) > 0.0))
+    if (method == ELLIPSA_METHOD_CLASSICAL) {
+      if (n <= p)
         throw core::Error(core::ErrorKind::Data,
-                          "column \"" + m->columns[static_cast<size_t>(j)] + "\" is constant");
+                          "the classical fit needs more complete rows than columns (" + std::to_string(n) +
+                              " rows, " + std::to_string(p) + " columns); use a shrinkage method (ledoit-wolf, oas)");
+      const auto norm = options->divisor == ELLIPSA_DIVISOR_N ? core::Normalisation::ByCount
+                                                              : core::Normalisation::ByCountMinusOne;
+      Eigen::MatrixXd s = acc.covariance(norm);
+      for (int64_t j = 0; j < p; ++j)
+        if (!(s(j, j) > 0.0))
+          throw core::Error(core::ErrorKind::Data,
+                            "column \"" + m->columns[static_cast<size_t>(j)] + "\" is constant");
+      m->divisor = options->divisor;
+      m->components.push_back({1.0, acc.mean(), std::move(s), {}});
+    } else {
+      if (n < 2)
+        throw core::Error(core::ErrorKind::Data, "a shrinkage fit needs at least 2 complete rows; " +
+                                                     std::to_string(n) + " available (" +
+                                                     std::to_string(accumulator->skipped) + " skipped for missing values)");
+      const auto kind = method == ELLIPSA_METHOD_OAS ? core::ShrinkageMethod::OracleApproximating
+                                                     : core::ShrinkageMethod::LedoitWolf;
+      const auto est = core::shrinkage_from_moments(n, acc.mean(), acc.cross_products(), accumulator->norms.fourth, kind);
+      m->components.push_back({1.0, est.mean, est.covariance, {}});
+      m->shrinkage_intensity = est.intensity;
+    }
     m->rows_used = n;
     m->rows_dropped = accumulator->skipped;  // which rows is not known here
-    m->divisor = options->divisor;
-    m->components.push_back({1.0, acc.mean(), std::move(s), {}});
     ellipsa::capi::finalise_or_explain(*m);
     *out = m.release();
     return ELLIPSA_OK;

@@ -62,10 +62,22 @@ ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method) {
 
   MomentAccumulator acc(p);
   acc.add(x);
+  const double fourth = method == ShrinkageMethod::LedoitWolf ? sum_fourth_powers_of_norms(x, acc.mean()) : 0.0;
+  return shrinkage_from_moments(n, acc.mean(), acc.cross_products(), fourth, method);
+}
+
+ShrinkageEstimate shrinkage_from_moments(Index n, const Eigen::VectorXd& mean, const Eigen::MatrixXd& cross_products,
+                                         double sum_fourth_powers_of_norms, ShrinkageMethod method) {
+  const Index p = mean.size();
+  if (p < 1) throw Error(ErrorKind::Shape, "shrinkage estimate: no columns");
+  if (cross_products.rows() != p || cross_products.cols() != p)
+    throw Error(ErrorKind::Shape, "shrinkage estimate: cross-products do not match the mean");
+  if (n < 2)
+    throw Error(ErrorKind::Data, "shrinkage estimate: needs at least 2 rows, got " + std::to_string(n));
   ShrinkageEstimate out;
   out.rows = n;
-  out.mean = acc.mean();
-  out.sample_covariance = acc.covariance(Normalisation::ByCount);
+  out.mean = mean;
+  out.sample_covariance = cross_products / static_cast<double>(n);
   const Eigen::MatrixXd& s = out.sample_covariance;
   const double trace_s = s.trace();
   const double mu = trace_s / static_cast<double>(p);
@@ -79,7 +91,7 @@ ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method) {
 
   out.target_scale = mu;
   out.intensity = method == ShrinkageMethod::LedoitWolf
-                      ? ledoit_wolf_intensity(trace_s2, spread, sum_fourth_powers_of_norms(x, out.mean), nd, pd)
+                      ? ledoit_wolf_intensity(trace_s2, spread, sum_fourth_powers_of_norms, nd, pd)
                       : oas_intensity(trace_s2, trace_s, spread, nd, pd);
   out.covariance = (1.0 - out.intensity) * s;
   out.covariance.diagonal().array() += out.intensity * mu;

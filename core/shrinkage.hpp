@@ -31,4 +31,11 @@ struct ShrinkageEstimate {
 // limit of both formulas as S approaches the target.
 ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method);
 
+// The same estimate from moments gathered elsewhere (a stream of chunks):
+// n rows, their mean, cross-products sum (x - mean)(x - mean)' and, for
+// Ledoit-Wolf, sum |x - mean|^4 (norm_power_sums.hpp; ignored by OAS). The
+// same errors as above for n < 2 and for a zero trace.
+ShrinkageEstimate shrinkage_from_moments(Index n, const Eigen::VectorXd& mean, const Eigen::MatrixXd& cross_products,
+                                         double sum_fourth_powers_of_norms, ShrinkageMethod method);
+
 }  // namespace ellipsa::core

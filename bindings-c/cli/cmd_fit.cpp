@@ -27,8 +27,8 @@ struct AccumulatorDeleter {
   void operator()(ellipsa_accumulator* a) const { ellipsa_accumulator_destroy(a); }
 };
 
-// Classical fits stream: one pass over the file in chunks, memory O(p^2)
-// whatever its length (the C interface's accumulator).
+// Classical and shrinkage fits stream: one pass over the file in chunks,
+// memory O(p^2) whatever its length (the C interface's accumulator).
 Fitted fit_streaming(const FitArgs& a, Progress& progress) {
   CsvReader reader(a.data, a.dialect.to_options());
   Fitted f;
@@ -93,8 +93,9 @@ Command add_fit(CLI::App& parent) {
             if (args->out.json && args->output == "-")
               throw CliError(kExitUsage, "--json prints the summary on standard output: give the model a file with -o");
             Progress progress(progress_wanted(args->out.quiet || args->out.json));
-            const Fitted f = args->fit.method == "classical" ? fit_streaming(*args, progress)
-                                                             : fit_in_memory(*args, progress);
+            const std::string& method = args->fit.method;
+            const bool streams = method == "classical" || method == "ledoit-wolf" || method == "oas";
+            const Fitted f = streams ? fit_streaming(*args, progress) : fit_in_memory(*args, progress);
             progress.finish();
             write_text_file(args->output, model_text(f.model.get()));
             const auto summary = fit_summary(f, args->fit.method);

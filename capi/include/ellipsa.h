@@ -529,14 +529,16 @@ ELLIPSA_API void ellipsa_model_destroy(ellipsa_model *model);
 
 /* ======================================================================== */
 /** @name Streaming fits
- *  A classical fit in one pass over data that arrive in pieces: chunks of a
- *  file, threads, or machines. Each piece is added to an accumulator (mean and
- *  centred cross-products, merged by the update of Chan, Golub & LeVeque 1979);
+ *  A classical or shrinkage fit in one pass over data that arrive in pieces:
+ *  chunks of a file, threads, or machines. Each piece is added to an
+ *  accumulator (mean and centred cross-products, merged by the update of Chan,
+ *  Golub & LeVeque 1979, and the power sums of the row norms that the
+ *  Ledoit-Wolf intensity needs, moved to the merged mean the same way);
  *  accumulators of disjoint pieces merge exactly; the model is made at the end.
  *  Memory is O(p^2) whatever the number of rows. An accumulator is used by one
  *  thread at a time.
  *  @{ */
-/** Opaque streaming accumulator of mean and cross-products. */
+/** Opaque streaming accumulator of mean, cross-products and norm power sums. */
 typedef struct ellipsa_accumulator ellipsa_accumulator;
 
 /**
@@ -590,19 +592,25 @@ ELLIPSA_API ellipsa_status ellipsa_accumulator_rows(int64_t *added, int64_t *ski
                                                     const ellipsa_accumulator *accumulator);
 
 /**
- * @brief Makes a classical Gaussian model from an accumulator.
+ * @brief Makes a classical or shrinkage Gaussian model from an accumulator.
  *
- * Equal, to rounding, to ellipsa_model_fit() with ::ELLIPSA_METHOD_CLASSICAL on
- * all the rows added (the row numbers of skipped rows are not known here, so
- * the model's dropped-row set is empty while its dropped count is right).
+ * Equal, to rounding, to ellipsa_model_fit() with the same options on all the
+ * rows added (the row numbers of skipped rows are not known here, so the
+ * model's dropped-row set is empty while its dropped count is right).
  * @param[out] out      The model, or NULL on failure.
  * @param accumulator   The accumulator (not modified; may be added to later).
  * @param options       Options of method ::ELLIPSA_METHOD_CLASSICAL (divisor,
- *                      column names); others give ::ELLIPSA_ERR_ARGUMENT.
+ *                      column names), ::ELLIPSA_METHOD_LEDOIT_WOLF or
+ *                      ::ELLIPSA_METHOD_OAS (column names); other methods give
+ *                      ::ELLIPSA_ERR_ARGUMENT.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT;
  *         ::ELLIPSA_ERR_SHAPE (column names that do not match p);
- *         ::ELLIPSA_ERR_DATA (fewer than p + 1 rows, a constant column);
- *         ::ELLIPSA_NUM_SINGULAR (collinear columns, named in the message).
+ *         ::ELLIPSA_ERR_DATA (classical: fewer than p + 1 rows or a constant
+ *         column; shrinkage: fewer than 2 rows or every column constant;
+ *         rows were skipped for missing values and the options' missing-value
+ *         policy is ::ELLIPSA_MISSING_REFUSE);
+ *         ::ELLIPSA_NUM_SINGULAR (classical: collinear columns, named in the
+ *         message).
  */
 ELLIPSA_API ellipsa_status ellipsa_model_from_accumulator(ellipsa_model **out,
                                                           const ellipsa_accumulator *accumulator,

@@ -1,5 +1,5 @@
-// Streaming classical fits: chunks and merges equal one pass; missing and
-// infinite values; every status path.
+// Streaming classical and shrinkage fits: chunks and merges equal one pass;
+// missing and infinite values; every status path.
 #include <gtest/gtest.h>
 
 #include <cmath>
@@ -57,6 +57,50 @@ TEST(Accumulator, ChunksAndMergesEqualOneFit) {
   EXPECT_EQ(dropped, 0);
 }
 
+TEST(Accumulator, ShrinkageFromChunksEqualsOneFit) {
+  // The one-pass fits are themselves checked against the papers' formulas in
+  // tests/core/test_shrinkage.cpp; here the streamed model must equal them,
+  // with p > n inside every chunk and a large offset.
+  const int64_t n = 60, p = 25;
+  const auto x = correlated_rows(n, p, 32, 1e6);
+  for (const int32_t method : {ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS}) {
+    auto o = options(method);
+    ellipsa_matrix all = ellipsa_matrix_row_major(x.data(), n, p);
+    ellipsa_model* direct = nullptr;
+    ASSERT_EQ(ellipsa_model_fit(&direct, &all, o.get()), ELLIPSA_OK) << ellipsa_last_error();
+    Model d(direct);
+    auto a = make(p), b = make(p);
+    int64_t start = 0;
+    for (int64_t len : {7, 1, 22, 13, 17}) {
+      ellipsa_matrix chunk = ellipsa_matrix_row_major(x.data() + start * p, len, p);
+      ASSERT_EQ(ellipsa_accumulator_add(start < 30 ? a.get() : b.get(), &chunk), ELLIPSA_OK);
+      start += len;
+    }
+    ASSERT_EQ(start, n);
+    ASSERT_EQ(ellipsa_accumulator_merge(a.get(), b.get()), ELLIPSA_OK);
+    ellipsa_model* streamed = nullptr;
+    ASSERT_EQ(ellipsa_model_from_accumulator(&streamed, a.get(), o.get()), ELLIPSA_OK) << ellipsa_last_error();
+    Model s(streamed);
+    double i1 = -1.0, i2 = -2.0;
+    ASSERT_EQ(ellipsa_model_diagnostic(&i1, d.get(), "shrinkage_intensity"), ELLIPSA_OK);
+    ASSERT_EQ(ellipsa_model_diagnostic(&i2, s.get(), "shrinkage_intensity"), ELLIPSA_OK);
+    EXPECT_GT(i1, 0.0);
+    EXPECT_NEAR(i2, i1, 1e-9) << method;
+    const auto e1 = estimate(d.get(), p), e2 = estimate(s.get(), p);
+    for (size_t i = 0; i < e1.size(); ++i) EXPECT_NEAR(e2[i], e1[i], 1e-9 * (1.0 + std::abs(e1[i]))) << i;
+    ellipsa_method got = 0;
+    ASSERT_EQ(ellipsa_model_describe(nullptr, &got, nullptr, nullptr, s.get()), ELLIPSA_OK);
+    EXPECT_EQ(got, method);
+  }
+  // Fewer than 2 rows: a shrinkage fit cannot be made.
+  auto one = make(p);
+  ellipsa_matrix row = ellipsa_matrix_row_major(x.data(), 1, p);
+  ASSERT_EQ(ellipsa_accumulator_add(one.get(), &row), ELLIPSA_OK);
+  ellipsa_model* m = nullptr;
+  EXPECT_EQ(ellipsa_model_from_accumulator(&m, one.get(), options(ELLIPSA_METHOD_OAS).get()), ELLIPSA_ERR_DATA);
+  EXPECT_EQ(m, nullptr);
+}
+
 TEST(Accumulator, MissingRowsAreSkippedAndCountedInfinityRefused) {
   const int64_t n = 50, p = 3;
   auto x = correlated_rows(n, p, 32);
@@ -94,6 +138,12 @@ TEST(Accumulator, MissingRowsAreSkippedAndCountedInfinityRefused) {
   EXPECT_EQ(dropped, 1);
   ellipsa_model_destroy(back);
   ellipsa_text_free(text);
+  // With the policy "refuse", the skipped row makes the fit fail instead.
+  ASSERT_EQ(ellipsa_fit_options_set_missing(o.get(), ELLIPSA_MISSING_REFUSE), ELLIPSA_OK);
+  ellipsa_model* refused = nullptr;
+  EXPECT_EQ(ellipsa_model_from_accumulator(&refused, acc.get(), o.get()), ELLIPSA_ERR_DATA);
+  EXPECT_NE(std::string(ellipsa_last_error()).find("1 rows had a missing value"), std::string::npos);
+  EXPECT_EQ(refused, nullptr);
 }
 
 TEST(Accumulator, StatusPaths) {

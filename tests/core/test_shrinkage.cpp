@@ -5,9 +5,12 @@
 #include <cmath>
 #include <limits>
 #include <random>
+#include <vector>
 #include <Eigen/Eigenvalues>
 
 #include "core/error.hpp"
+#include "core/moments.hpp"
+#include "core/norm_power_sums.hpp"
 #include "core/shrinkage.hpp"
 
 using namespace ellipsa::core;
@@ -129,4 +132,74 @@ TEST(Shrinkage, Errors) {
   EXPECT_THROW(shrinkage_estimate(make_view(x), ShrinkageMethod::OracleApproximating), Error);
   const Eigen::MatrixXd flat = Eigen::MatrixXd::Constant(5, 4, 2.5);
   EXPECT_THROW(shrinkage_estimate(make_view(flat), ShrinkageMethod::LedoitWolf), Error);
+}
+
+namespace {
+
+// The streaming path of capi/accumulator.cpp in miniature: chunks of uneven
+// length, each summed about the running mean, the old sums moved there.
+ShrinkageEstimate streamed(const Eigen::MatrixXd& x, const std::vector<Index>& lengths, ShrinkageMethod method) {
+  MomentAccumulator acc(x.cols());
+  NormPowerSums norms;
+  Index start = 0;
+  for (const Index len : lengths) {
+    const Eigen::MatrixXd chunk = x.middleRows(start, len);
+    start += len;
+    if (acc.rows() == 0) {
+      acc.add(make_view(chunk));
+      norms = norm_power_sums(make_view(chunk), acc.mean());
+      continue;
+    }
+    const Eigen::MatrixXd cross = acc.cross_products();
+    acc.add(make_view(chunk));
+    norms = combine(recentre(norms, cross, acc.mean()), norm_power_sums(make_view(chunk), acc.mean()));
+  }
+  return shrinkage_from_moments(acc.rows(), acc.mean(), acc.cross_products(), norms.fourth, method);
+}
+
+}  // namespace
+
+TEST(Shrinkage, StreamedChunksMatchLongDoubleFormulas) {
+  // Same reference as above (the papers' formulas in long double); the data
+  // sit on offsets up to 1e9 with unit spread, where a naive expansion of
+  // sum |x - m|^4 in raw power sums would lose every digit.
+  std::mt19937_64 rng(302);
+  for (const double offset : {0.0, 1e3, 1e9}) {
+    for (const Index p : {Index{2}, Index{3}, Index{12}}) {  // p = 1 is the 0/0 case tested above
+      const Index n = 600;
+      Eigen::MatrixXd x = sample(rng, n, p);
+      x.array() += offset;
+      const Reference ref = reference(x);
+      const std::vector<Index> lengths = {1, 2, 97, 300, 1, 199};
+      for (auto method : {ShrinkageMethod::LedoitWolf, ShrinkageMethod::OracleApproximating}) {
+        const ShrinkageEstimate est = streamed(x, lengths, method);
+        const double want = static_cast<double>(method == ShrinkageMethod::LedoitWolf ? ref.lw : ref.oas);
+        EXPECT_NEAR(est.intensity, want, 1e-9 * std::max(1.0, want)) << "offset " << offset << " p " << p;
+        const ShrinkageEstimate whole = shrinkage_estimate(make_view(x), method);
+        EXPECT_NEAR(est.intensity, whole.intensity, 1e-9 * std::max(1.0, whole.intensity));
+        EXPECT_LE((est.covariance - whole.covariance).norm() / whole.covariance.norm(), 1e-9);
+      }
+    }
+  }
+}
+
+TEST(Shrinkage, RecentredNormSumsEqualDirectSums) {
+  // recentre() is an identity: sums moved from one centre to another equal the
+  // sums computed about the second centre directly (long double reference).
+  std::mt19937_64 rng(303);
+  const Eigen::MatrixXd x = sample(rng, 50, 4);
+  const Eigen::VectorXd c1 = x.row(3).transpose(), c2 = x.colwise().mean().transpose().array() + 0.7;
+  MomentAccumulator acc(4);
+  acc.add(make_view(x));
+  const NormPowerSums moved = recentre(norm_power_sums(make_view(x), c1), acc.cross_products(), c2);
+  long double fourth = 0.0L, second = 0.0L;
+  for (Index i = 0; i < x.rows(); ++i) {
+    const VectorL y = (x.row(i).transpose() - c2).cast<long double>();
+    second += y.squaredNorm();
+    fourth += y.squaredNorm() * y.squaredNorm();
+  }
+  EXPECT_NEAR(moved.second, static_cast<double>(second), 1e-12 * static_cast<double>(second));
+  EXPECT_NEAR(moved.fourth, static_cast<double>(fourth), 1e-12 * static_cast<double>(fourth));
+  EXPECT_EQ(moved.rows, 50.0);
+  EXPECT_THROW(combine(moved, norm_power_sums(make_view(x), c1)), Error);
 }
