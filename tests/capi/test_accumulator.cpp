@@ -26,6 +26,24 @@ std::vector<double> estimate(const ellipsa_model* m, int64_t p) {
   EXPECT_EQ(ellipsa_model_component(v.data(), p, v.data() + p, p * p, nullptr, m, 0), ELLIPSA_OK);
   return v;
 }
+// Adds row-major x (p columns) in chunks of the given lengths, the chunks that
+// start before row `split` to one accumulator and the rest to another, merges
+// the two and makes the model of `o`.
+Model streamed_fit(const std::vector<double>& x, int64_t p, std::initializer_list<int64_t> lengths, int64_t split,
+                   const ellipsa_fit_options* o) {
+  auto a = make(p), b = make(p);
+  int64_t start = 0;
+  for (int64_t len : lengths) {
+    ellipsa_matrix chunk = ellipsa_matrix_row_major(x.data() + start * p, len, p);
+    EXPECT_EQ(ellipsa_accumulator_add(start < split ? a.get() : b.get(), &chunk), ELLIPSA_OK);
+    start += len;
+  }
+  EXPECT_EQ(start * p, static_cast<int64_t>(x.size()));
+  EXPECT_EQ(ellipsa_accumulator_merge(a.get(), b.get()), ELLIPSA_OK);
+  ellipsa_model* m = nullptr;
+  EXPECT_EQ(ellipsa_model_from_accumulator(&m, a.get(), o), ELLIPSA_OK) << ellipsa_last_error();
+  return Model(m);
+}
 }  // namespace
 
 TEST(Accumulator, ChunksAndMergesEqualOneFit) {
@@ -37,18 +55,8 @@ TEST(Accumulator, ChunksAndMergesEqualOneFit) {
   ASSERT_EQ(ellipsa_model_fit(&direct, &all, o.get()), ELLIPSA_OK);
   Model d(direct);
   // Two accumulators over uneven chunks, merged.
-  auto a = make(p), b = make(p);
-  int64_t start = 0;
-  for (int64_t len : {1, 999, 3000, 1, 2499, 3500}) {
-    ellipsa_matrix chunk = ellipsa_matrix_row_major(x.data() + start * p, len, p);
-    ASSERT_EQ(ellipsa_accumulator_add(start < 4000 ? a.get() : b.get(), &chunk), ELLIPSA_OK);
-    start += len;
-  }
-  ASSERT_EQ(start, n);
-  ASSERT_EQ(ellipsa_accumulator_merge(a.get(), b.get()), ELLIPSA_OK);
-  ellipsa_model* streamed = nullptr;
-  ASSERT_EQ(ellipsa_model_from_accumulator(&streamed, a.get(), o.get()), ELLIPSA_OK) << ellipsa_last_error();
-  Model s(streamed);
+  const Model s = streamed_fit(x, p, {1, 999, 3000, 1, 2499, 3500}, 4000, o.get());
+  ASSERT_NE(s.get(), nullptr);
   const auto e1 = estimate(d.get(), p), e2 = estimate(s.get(), p);
   for (size_t i = 0; i < e1.size(); ++i) EXPECT_NEAR(e2[i], e1[i], 1e-12 * (1.0 + std::abs(e1[i]))) << i;
   int64_t used = 0, dropped = -1;
@@ -69,18 +77,8 @@ TEST(Accumulator, ShrinkageFromChunksEqualsOneFit) {
     ellipsa_model* direct = nullptr;
     ASSERT_EQ(ellipsa_model_fit(&direct, &all, o.get()), ELLIPSA_OK) << ellipsa_last_error();
     Model d(direct);
-    auto a = make(p), b = make(p);
-    int64_t start = 0;
-    for (int64_t len : {7, 1, 22, 13, 17}) {
-      ellipsa_matrix chunk = ellipsa_matrix_row_major(x.data() + start * p, len, p);
-      ASSERT_EQ(ellipsa_accumulator_add(start < 30 ? a.get() : b.get(), &chunk), ELLIPSA_OK);
-      start += len;
-    }
-    ASSERT_EQ(start, n);
-    ASSERT_EQ(ellipsa_accumulator_merge(a.get(), b.get()), ELLIPSA_OK);
-    ellipsa_model* streamed = nullptr;
-    ASSERT_EQ(ellipsa_model_from_accumulator(&streamed, a.get(), o.get()), ELLIPSA_OK) << ellipsa_last_error();
-    Model s(streamed);
+    const Model s = streamed_fit(x, p, {7, 1, 22, 13, 17}, 30, o.get());
+    ASSERT_NE(s.get(), nullptr);
     double i1 = -1.0, i2 = -2.0;
     ASSERT_EQ(ellipsa_model_diagnostic(&i1, d.get(), "shrinkage_intensity"), ELLIPSA_OK);
     ASSERT_EQ(ellipsa_model_diagnostic(&i2, s.get(), "shrinkage_intensity"), ELLIPSA_OK);
