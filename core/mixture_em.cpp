@@ -1,9 +1,12 @@
 #include "mixture_em.hpp"
 
+#include <cblas.h>
+
 #include <algorithm>
 #include <cmath>
 #include <limits>
 #include <memory>
+#include <numbers>
 #include <string>
 
 #include "cholesky.hpp"
@@ -39,6 +42,56 @@ const char* structure_name(CovarianceStructure s) {
   return "?";
 }
 
+// The E-step for complete rows (Dempster, Laird & Rubin 1977): responsibilities
+// into t (n x K) and the posterior summary. Chunk by chunk, so that a chunk is
+// read from memory once for all K components: per component the centred chunk
+// is whitened by one right-sided triangular solve (y_i' = (x_i - mu)' L^-T,
+// column-major, the BLAS-3 shape) and its row norms are the squared Mahalanobis
+// distances. The arithmetic does not depend on the layout of x.
+Posterior complete_e_step(const MixtureModel& model, const std::vector<CholeskyFactor>& factors, DataView x,
+                          Eigen::MatrixXd& t) {
+  constexpr Index kChunkRows = 4096;
+  const Index n = x.rows();
+  const Index p = x.cols();
+  const Index k_count = model.components();
+  const double log_2pi_p = static_cast<double>(p) * std::log(2.0 * std::numbers::pi);
+  Eigen::VectorXd offset(k_count);
+  for (Index k = 0; k < k_count; ++k)
+    offset(k) = std::log(model.weights(k)) -
+                0.5 * (log_2pi_p + factors[static_cast<std::size_t>(k)].log_determinant());
+  t.resize(n, k_count);
+  Posterior post;
+  post.log_density.resize(n);
+  const bool in_place = x.innerStride() == 1 && x.outerStride() <= std::numeric_limits<int>::max() &&
+                        (p == 1 || x.outerStride() >= n);
+  const Index ld_in_place = std::max<Index>(x.outerStride(), n);
+  Eigen::MatrixXd raw, lj, y(std::min(kChunkRows, std::max<Index>(n, 1)), p);
+  Eigen::ArrayXd d2;
+  for (Index start = 0; start < n; start += kChunkRows) {
+    const Index m = std::min(kChunkRows, n - start);
+    if (!in_place) copy_rows_column_major(x, start, m, raw);
+    const double* block = in_place ? x.data() + start : raw.data();
+    const Index ld = in_place ? ld_in_place : m;
+    lj.resize(m, k_count);
+    for (Index k = 0; k < k_count; ++k) {
+      const Eigen::MatrixXd& l = factors[static_cast<std::size_t>(k)].lower();
+      for (Index j = 0; j < p; ++j)
+        y.col(j).head(m).array() = Eigen::Map<const Eigen::ArrayXd>(block + j * ld, m) - model.means(k, j);
+      cblas_dtrsm(CblasColMajor, CblasRight, CblasLower, CblasTrans, CblasNonUnit, static_cast<int>(m),
+                  static_cast<int>(p), 1.0, l.data(), static_cast<int>(l.outerStride()), y.data(),
+                  static_cast<int>(y.rows()));
+      d2 = y.col(0).head(m).array().square();
+      for (Index j = 1; j < p; ++j) d2 += y.col(j).head(m).array().square();
+      lj.col(k).array() = offset(k) - 0.5 * d2;
+    }
+    const Posterior part = normalise_posterior(lj);
+    t.middleRows(start, m) = lj;
+    post.log_density.segment(start, m) = part.log_density;
+    post.sum_t_log_t += part.sum_t_log_t;
+  }
+  return post;
+}
+
 // The two ways the EM sees its data: complete rows, or rows with missing
 // coordinates handled by conditional expectations.
 class EmData {
@@ -53,6 +106,12 @@ class EmData {
     return normalise_posterior(t);
   }
   virtual ComponentMoments moments(const MixtureModel& current, Index k, const Eigen::VectorXd& t) const = 0;
+  // The moments of every component (column of t).
+  virtual std::vector<ComponentMoments> all_moments(const MixtureModel& current, const Eigen::MatrixXd& t) const {
+    std::vector<ComponentMoments> out;
+    for (Index k = 0; k < t.cols(); ++k) out.push_back(moments(current, k, t.col(k)));
+    return out;
+  }
   // A complete row to restart a component at (missing coordinates filled from fill).
   virtual Eigen::RowVectorXd seed_row(Index i, const Eigen::RowVectorXd& fill) const = 0;
 };
@@ -66,14 +125,24 @@ class CompleteData final : public EmData {
   }
   Posterior e_step(const MixtureModel& m, const std::vector<CholeskyFactor>& f,
                    Eigen::MatrixXd& t) const override {
-    return ::ellipsa::core::e_step(m, f, x_, t);
+    return complete_e_step(m, f, x_, t);
   }
+  // One component by the centred two-pass path (all_moments below does all K at once).
   ComponentMoments moments(const MixtureModel&, Index, const Eigen::VectorXd& t) const override {
-    // The M-step of Dempster, Laird & Rubin (1977) is a weighted mean and scatter
-    // with the responsibilities as weights: one MomentAccumulator pass.
     MomentAccumulator acc(x_.cols());
     acc.add(x_, t);
     return {acc.weight_sum(), acc.mean(), acc.cross_products()};
+  }
+  std::vector<ComponentMoments> all_moments(const MixtureModel& current, const Eigen::MatrixXd& t) const override {
+    // The M-step of Dempster, Laird & Rubin (1977) is a weighted mean and scatter
+    // per component with the responsibilities as weights: all K in one pass over
+    // the rows, each about its previous mean (unknown before the first M-step).
+    Eigen::MatrixXd shifts = Eigen::MatrixXd::Constant(t.cols(), x_.cols(), std::numeric_limits<double>::quiet_NaN());
+    if (current.means.rows() == t.cols() && current.means.cols() == x_.cols()) shifts = current.means;
+    std::vector<ComponentMoments> out;
+    for (auto& r : weighted_moments(x_, t, shifts))
+      out.push_back({r.weight, std::move(r.mean), std::move(r.cross_products)});
+    return out;
   }
   Eigen::RowVectorXd seed_row(Index i, const Eigen::RowVectorXd&) const override { return x_.row(i); }
 
@@ -133,8 +202,9 @@ MixtureModel m_step(const EmData& data, const MixtureModel& current, const Eigen
   model.covariances.resize(static_cast<std::size_t>(k_count));
   Eigen::MatrixXd pooled = Eigen::MatrixXd::Zero(p, p);
   const Eigen::MatrixXd ridge = set.reg_abs * Eigen::MatrixXd::Identity(p, p);
+  const std::vector<ComponentMoments> moments = data.all_moments(current, t);
   for (Index k = 0; k < k_count; ++k) {
-    const ComponentMoments mom = data.moments(current, k, t.col(k));
+    const ComponentMoments& mom = moments[static_cast<std::size_t>(k)];
     model.weights(k) = mom.weight / n;
     model.means.row(k) = mom.mean.transpose();
     Eigen::MatrixXd& cov = model.covariances[static_cast<std::size_t>(k)];

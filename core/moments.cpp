@@ -150,6 +150,8 @@ void column_pass(const double* a, Index m, Index p, Index ld, double* sum, doubl
   }
 }
 
+}  // namespace
+
 // raw = rows start..start+m-1 of x, column-major. Row-major rows (unit column
 // step) are transposed in blocks of kCopyRows rows, which stay in L1, instead
 // of p strided sweeps over the whole chunk; other layouts use Eigen's copy.
@@ -169,8 +171,6 @@ void copy_rows_column_major(DataView x, Index start, Index m, Eigen::MatrixXd& r
       for (Index l = 0; l < b; ++l) dst[j * m + r + l] = src[(r + l) * row_step + j];
   }
 }
-
-}  // namespace
 
 bool MomentAccumulator::offset_allows_raw_product() const {
   // Predicted from the moments so far; each chunk is checked again on its own
@@ -282,6 +282,103 @@ void MomentAccumulator::add(DataView x, const Eigen::Ref<const Eigen::VectorXd>&
     add_gram_lower(chunk, gram);
     merge_relative(ws, positive, mu.transpose(), gram.selfadjointView<Eigen::Lower>());
   }
+}
+
+namespace {
+
+// Largest |weighted mean - shift| / weighted sd (per column) for which
+// weighted_moments keeps its shifted raw products. With y_i = x_i - shift the
+// products sum_i w_i y_ij y_ik round by about eps * sum_i w_i |y_ij y_ik| <=
+// eps * W (d_j^2 + sd_j^2)^(1/2) (d_k^2 + sd_k^2)^(1/2), d = mean - shift, so the
+// centred result carries about eps * (1 + B^2) = 17 eps relative to sd_j sd_k on
+// top of the accumulation error of the products themselves. The previous EM
+// mean is far closer than that after the first iterations.
+constexpr double kMaxShiftRatio = 4.0;
+
+bool is_in_place(DataView x) {
+  return x.innerStride() == 1 && x.outerStride() <= std::numeric_limits<int>::max() &&
+         (x.cols() == 1 || x.outerStride() >= x.rows());
+}
+
+}  // namespace
+
+std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd& w,
+                                              const Eigen::MatrixXd& shifts) {
+  const Index n = x.rows();
+  const Index p = x.cols();
+  const Index k_count = w.cols();
+  if (w.rows() != n) throw Error(ErrorKind::Shape, "weighted moments: one weight row per data row");
+  if (shifts.rows() != k_count || shifts.cols() != p)
+    throw Error(ErrorKind::Shape, "weighted moments: one shift row of the data's width per weighting");
+  Eigen::MatrixXd centre = shifts.transpose();  // p x K, column k = shift of weighting k
+  for (Index k = 0; k < k_count; ++k) {
+    if (centre.col(k).allFinite()) continue;
+    Index heaviest = 0;
+    if (n > 0) w.col(k).maxCoeff(&heaviest);
+    centre.col(k) = n > 0 ? Eigen::VectorXd(x.row(heaviest).transpose()) : Eigen::VectorXd::Zero(p);
+  }
+  // Per weighting: sum of weights, sum_i w_i y_i and the lower triangle of
+  // sum_i w_i y_i y_i' with y_i = x_i - centre. Every chunk's products come from
+  // one dsyrk on sqrt(w_i) y_i, formed in one pass over the chunk while it is
+  // in cache, so x is read once for all K weightings.
+  Eigen::VectorXd total = Eigen::VectorXd::Zero(k_count);
+  Eigen::MatrixXd sums = Eigen::MatrixXd::Zero(p, k_count);
+  std::vector<Eigen::MatrixXd> lower(static_cast<std::size_t>(k_count), Eigen::MatrixXd::Zero(p, p));
+  const bool in_place = is_in_place(x);
+  const Index ld_in_place = std::max<Index>(x.outerStride(), x.rows());
+  Eigen::MatrixXd raw, y(std::min(kChunkRows, std::max<Index>(n, 1)), p);
+  Eigen::MatrixXd gram = Eigen::MatrixXd::Zero(p, p);  // dsyrk writes its lower triangle only
+  Eigen::ArrayXd root;
+  for (Index start = 0; start < n; start += kChunkRows) {
+    const Index m = std::min(kChunkRows, n - start);
+    if (!in_place) copy_rows_column_major(x, start, m, raw);
+    const double* block = in_place ? x.data() + start : raw.data();
+    const Index ld = in_place ? ld_in_place : m;
+    for (Index k = 0; k < k_count; ++k) {
+      const auto wc = w.col(k).segment(start, m);
+      const double ws = wc.sum();
+      if (!(ws > 0.0)) continue;
+      root = wc.array().sqrt();
+      for (Index j = 0; j < p; ++j) {
+        const Eigen::Map<const Eigen::ArrayXd> xj(block + j * ld, m);
+        auto yj = y.col(j).head(m).array();
+        yj = (xj - centre(j, k)) * root;
+        sums(j, k) += (yj * root).sum();
+      }
+      cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(p), static_cast<int>(m), 1.0,
+                  y.data(), static_cast<int>(y.rows()), 0.0, gram.data(), static_cast<int>(p));
+      lower[static_cast<std::size_t>(k)] += gram;
+      total(k) += ws;
+    }
+  }
+  std::vector<WeightedMoments> out(static_cast<std::size_t>(k_count));
+  for (Index k = 0; k < k_count; ++k) {
+    WeightedMoments& r = out[static_cast<std::size_t>(k)];
+    const double wk = total(k);
+    Eigen::MatrixXd& s = lower[static_cast<std::size_t>(k)];
+    bool accepted = wk > 0.0;
+    Eigen::VectorXd offset = Eigen::VectorXd::Zero(p);
+    if (accepted) {
+      offset = sums.col(k) / wk;
+      // Centred products: S - W d d' (lower triangle), d = mean - centre.
+      for (Index b = 0; b < p; ++b) {
+        for (Index a = b; a < p; ++a) s(a, b) -= wk * offset(a) * offset(b);
+        accepted = accepted && wk * offset(b) * offset(b) <= kMaxShiftRatio * kMaxShiftRatio * s(b, b);
+      }
+    }
+    if (accepted) {
+      r.weight = wk;
+      r.mean = centre.col(k) + offset;
+      r.cross_products = s.selfadjointView<Eigen::Lower>();
+    } else {
+      MomentAccumulator acc(p);
+      acc.add(x, w.col(k));
+      r.weight = acc.weight_sum();
+      r.mean = acc.mean();
+      r.cross_products = acc.cross_products();
+    }
+  }
+  return out;
 }
 
 Eigen::MatrixXd MomentAccumulator::covariance(Normalisation norm) const {

@@ -4,6 +4,7 @@
 // accumulator, so its accuracy is the accuracy of everything built on it.
 #pragma once
 #include <Eigen/Core>
+#include <vector>
 
 #include "data_view.hpp"
 
@@ -84,6 +85,29 @@ class MomentAccumulator {
   Eigen::VectorXd mean_;   // shift_ + relative_mean_, as returned by mean()
   Eigen::MatrixXd lower_;  // lower triangle of the cross-products is authoritative
 };
+
+// Weighted mean and centred cross-products sum_i w_i (x_i - mean)(x_i - mean)'
+// of one weighting of the rows.
+struct WeightedMoments {
+  double weight = 0.0;              // sum of the weights
+  Eigen::VectorXd mean;             // zero when the weights sum to 0
+  Eigen::MatrixXd cross_products;   // full symmetric, p x p; zero when the weights sum to 0
+};
+
+// The moments of the rows of x under every column of w (n x K, finite, >= 0) in
+// one pass over x for all K weightings: the M-step of EM for complete rows.
+// Weighting k is accumulated as shifted raw products about shifts.row(k) (K x p),
+// which should be a point near its weighted mean (the previous EM mean); a row
+// that is not finite selects the row of x with the largest weight k. When the
+// weighted mean lies too far from its shift for the shifted products to keep
+// their digits (moments.cpp), that weighting is recomputed by the centred path of
+// MomentAccumulator::add(x, w). Throws Error(Shape) for mismatched sizes.
+std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd& w,
+                                              const Eigen::MatrixXd& shifts);
+
+// Rows start..start+m-1 of x into `raw`, column-major (m x p). Row-major views
+// are transposed in small blocks that stay in L1.
+void copy_rows_column_major(DataView x, Index start, Index m, Eigen::MatrixXd& raw);
 
 // Convenience: mean and covariance of all rows of x in one call.
 struct MeanCovariance {

@@ -604,3 +604,65 @@ TEST(MissingValues, StridedRowMajorViewsGiveTheSameRows) {
   EXPECT_EQ(a.dropped + static_cast<Index>(a.rows.size()), 40);
   for (Index i : a.rows) EXPECT_TRUE(x.row(i).allFinite());
 }
+
+// weighted_moments (the EM M-step for complete rows) against the two-pass
+// weighted formulas evaluated here in long double (the definition: mean =
+// sum w x / sum w, cross = sum w (x - mean)(x - mean)'), at offsets up to 1e8
+// and with shifts from 0 to 1e4 standard deviations away from the mean (the
+// far ones take the centred fallback). Row- and column-major input must give
+// bit-identical results.
+TEST(WeightedMoments, MatchLongDoubleDefinitionAtOffsetsAndShifts) {
+  using MatrixL = Eigen::Matrix<long double, Eigen::Dynamic, Eigen::Dynamic>;
+  std::mt19937_64 rng(404);
+  std::normal_distribution<double> g;
+  std::uniform_real_distribution<double> u(0.0, 1.0);
+  const Index n = 5000, p = 4, K = 3;
+  for (const double offset : {0.0, 1e3, 1e8}) {
+    for (const double shift_sds : {0.0, 1.0, 1e4}) {
+      Eigen::MatrixXd x(n, p);
+      for (Index i = 0; i < n; ++i)
+        for (Index j = 0; j < p; ++j) x(i, j) = offset + (1.0 + j) * g(rng) + (j > 0 ? 0.5 * x(i, 0) - 0.5 * offset : 0.0);
+      Eigen::MatrixXd w(n, K);
+      for (Index i = 0; i < n; ++i) {
+        w(i, 0) = u(rng);
+        w(i, 1) = u(rng) < 0.2 ? 0.0 : u(rng) * u(rng);
+        w(i, 2) = 0.0;  // an empty component
+      }
+      Eigen::MatrixXd shifts(K, p);
+      for (Index k = 0; k < K; ++k)
+        for (Index j = 0; j < p; ++j) shifts(k, j) = offset + shift_sds * (1.0 + j);
+      const auto got = weighted_moments(make_view(x), w, shifts);
+      ASSERT_EQ(got.size(), static_cast<std::size_t>(K));
+      // Row-major copy of the same data: bit-identical moments.
+      Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> xr = x;
+      const auto got_rm =
+          weighted_moments(make_view(xr.data(), n, p, /*row_stride=*/p, /*col_stride=*/1), w, shifts);
+      for (Index k = 0; k < K; ++k) {
+        EXPECT_EQ(got[k].mean, got_rm[k].mean);
+        EXPECT_EQ(got[k].cross_products, got_rm[k].cross_products);
+      }
+      EXPECT_EQ(got[2].weight, 0.0);
+      EXPECT_TRUE(got[2].cross_products.isZero(0.0));
+      for (Index k = 0; k < 2; ++k) {
+        const MatrixL xl = x.cast<long double>();
+        const Eigen::Matrix<long double, Eigen::Dynamic, 1> wl = w.col(k).cast<long double>();
+        const long double wsum = wl.sum();
+        const Eigen::Matrix<long double, 1, Eigen::Dynamic> mean = (wl.transpose() * xl) / wsum;
+        const MatrixL c = xl.rowwise() - mean;
+        const MatrixL cross = c.transpose() * wl.asDiagonal() * c;
+        EXPECT_NEAR(got[k].weight, static_cast<double>(wsum), 1e-12 * static_cast<double>(wsum));
+        for (Index a = 0; a < p; ++a) {
+          const double sd_a = std::sqrt(static_cast<double>(cross(a, a) / wsum));
+          EXPECT_NEAR(got[k].mean(a), static_cast<double>(mean(a)), 1e-12 * sd_a + 4e-16 * std::abs(offset))
+              << "offset " << offset << " shift " << shift_sds << " k " << k;
+          for (Index b = 0; b < p; ++b) {
+            const double sd_b = std::sqrt(static_cast<double>(cross(b, b) / wsum));
+            EXPECT_NEAR(got[k].cross_products(a, b), static_cast<double>(cross(a, b)),
+                        1e-11 * static_cast<double>(wsum) * sd_a * sd_b)
+                << "offset " << offset << " shift " << shift_sds << " k " << k << " (" << a << "," << b << ")";
+          }
+        }
+      }
+    }
+  }
+}
