@@ -54,24 +54,17 @@ Posterior complete_e_step(const MixtureModel& model, const std::vector<CholeskyF
   const Index n = x.rows();
   const Index p = x.cols();
   const Index k_count = model.components();
-  const double log_2pi_p = static_cast<double>(p) * std::log(2.0 * std::numbers::pi);
-  Eigen::VectorXd offset(k_count);
-  for (Index k = 0; k < k_count; ++k)
-    offset(k) = std::log(model.weights(k)) -
-                0.5 * (log_2pi_p + factors[static_cast<std::size_t>(k)].log_determinant());
+  const Eigen::VectorXd offset = component_log_offsets(model, factors, p);
   t.resize(n, k_count);
   Posterior post;
   post.log_density.resize(n);
-  const bool in_place = x.innerStride() == 1 && x.outerStride() <= std::numeric_limits<int>::max() &&
-                        (p == 1 || x.outerStride() >= n);
-  const Index ld_in_place = std::max<Index>(x.outerStride(), n);
-  Eigen::MatrixXd raw, lj, y(std::min(kChunkRows, std::max<Index>(n, 1)), p);
+  ColumnMajorChunks chunks(x);
+  Eigen::MatrixXd lj, y(std::min(kChunkRows, std::max<Index>(n, 1)), p);
   Eigen::ArrayXd d2;
   for (Index start = 0; start < n; start += kChunkRows) {
     const Index m = std::min(kChunkRows, n - start);
-    if (!in_place) copy_rows_column_major(x, start, m, raw);
-    const double* block = in_place ? x.data() + start : raw.data();
-    const Index ld = in_place ? ld_in_place : m;
+    Index ld = 0;
+    const double* block = chunks.block(start, m, ld);
     lj.resize(m, k_count);
     for (Index k = 0; k < k_count; ++k) {
       const Eigen::MatrixXd& l = factors[static_cast<std::size_t>(k)].lower();

@@ -20,16 +20,24 @@ std::vector<CholeskyFactor> factor_components(const MixtureModel& model) {
   return factors;
 }
 
+Eigen::VectorXd component_log_offsets(const MixtureModel& model, const std::vector<CholeskyFactor>& factors,
+                                      Index p) {
+  const double log_2pi_p = static_cast<double>(p) * std::log(2.0 * std::numbers::pi);
+  Eigen::VectorXd offset(model.components());
+  for (Index k = 0; k < model.components(); ++k)
+    offset(k) = std::log(model.weights(k)) - 0.5 * (log_2pi_p + factors[static_cast<std::size_t>(k)].log_determinant());
+  return offset;
+}
+
 Eigen::MatrixXd weighted_log_densities(const MixtureModel& model,
                                        const std::vector<CholeskyFactor>& factors, DataView x) {
   const Index k_count = model.components();
-  const double log_2pi_p = static_cast<double>(x.cols()) * std::log(2.0 * std::numbers::pi);
+  const Eigen::VectorXd offset = component_log_offsets(model, factors, x.cols());
   Eigen::MatrixXd out(x.rows(), k_count);
   for (Index k = 0; k < k_count; ++k) {
     const auto& f = factors[static_cast<std::size_t>(k)];
-    const double offset = std::log(model.weights(k)) - 0.5 * (log_2pi_p + f.log_determinant());
     out.col(k) = f.squared_distances(x, model.means.row(k).transpose());
-    out.col(k).array() = offset - 0.5 * out.col(k).array();
+    out.col(k).array() = offset(k) - 0.5 * out.col(k).array();
   }
   return out;
 }
@@ -70,11 +78,7 @@ Posterior e_step(const MixtureModel& model, const std::vector<CholeskyFactor>& f
   constexpr Index kChunkRows = 4096;
   const Index n = x.rows();
   const Index k_count = model.components();
-  const double log_2pi_p = static_cast<double>(x.cols()) * std::log(2.0 * std::numbers::pi);
-  Eigen::VectorXd offset(k_count);
-  for (Index k = 0; k < k_count; ++k)
-    offset(k) = std::log(model.weights(k)) -
-                0.5 * (log_2pi_p + factors[static_cast<std::size_t>(k)].log_determinant());
+  const Eigen::VectorXd offset = component_log_offsets(model, factors, x.cols());
   responsibilities.resize(n, k_count);
   Posterior post;
   post.log_density.resize(n);

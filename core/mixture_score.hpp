@@ -53,6 +53,11 @@ std::vector<CholeskyFactor> factor_components(const MixtureModel& model);
 Eigen::MatrixXd weighted_log_densities(const MixtureModel& model,
                                        const std::vector<CholeskyFactor>& factors, DataView x);
 
+// log w_k - (p log(2 pi) + log det Sigma_k) / 2 for each component k: the part
+// of the log of w_k N(x; mu_k, Sigma_k) that does not depend on x.
+Eigen::VectorXd component_log_offsets(const MixtureModel& model, const std::vector<CholeskyFactor>& factors,
+                                      Index p);
+
 // Turns log_joint (n x K, as above) into responsibilities in place by a row-wise
 // log-sum-exp. Returns each row's log-density and sum_ik t_ik log t_ik (for ICL),
 // computed in log space so that tiny responsibilities keep their digits.

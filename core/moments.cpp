@@ -172,6 +172,22 @@ void copy_rows_column_major(DataView x, Index start, Index m, Eigen::MatrixXd& r
   }
 }
 
+ColumnMajorChunks::ColumnMajorChunks(DataView x)
+    : x_(x),
+      in_place_(x.innerStride() == 1 && x.outerStride() <= std::numeric_limits<int>::max() &&
+                (x.cols() == 1 || x.outerStride() >= x.rows())),
+      ld_in_place_(std::max<Index>(x.outerStride(), x.rows())) {}
+
+const double* ColumnMajorChunks::block(Index start, Index m, Index& ld) {
+  if (in_place_) {
+    ld = ld_in_place_;
+    return x_.data() + start;
+  }
+  copy_rows_column_major(x_, start, m, raw_);
+  ld = m;
+  return raw_.data();
+}
+
 bool MomentAccumulator::offset_allows_raw_product() const {
   // Predicted from the moments so far; each chunk is checked again on its own
   // moments before its raw product is used.
@@ -295,11 +311,6 @@ namespace {
 // mean is far closer than that after the first iterations.
 constexpr double kMaxShiftRatio = 4.0;
 
-bool is_in_place(DataView x) {
-  return x.innerStride() == 1 && x.outerStride() <= std::numeric_limits<int>::max() &&
-         (x.cols() == 1 || x.outerStride() >= x.rows());
-}
-
 }  // namespace
 
 std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd& w,
@@ -324,16 +335,14 @@ std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd&
   Eigen::VectorXd total = Eigen::VectorXd::Zero(k_count);
   Eigen::MatrixXd sums = Eigen::MatrixXd::Zero(p, k_count);
   std::vector<Eigen::MatrixXd> lower(static_cast<std::size_t>(k_count), Eigen::MatrixXd::Zero(p, p));
-  const bool in_place = is_in_place(x);
-  const Index ld_in_place = std::max<Index>(x.outerStride(), x.rows());
-  Eigen::MatrixXd raw, y(std::min(kChunkRows, std::max<Index>(n, 1)), p);
+  ColumnMajorChunks chunks(x);
+  Eigen::MatrixXd y(std::min(kChunkRows, std::max<Index>(n, 1)), p);
   Eigen::MatrixXd gram = Eigen::MatrixXd::Zero(p, p);  // dsyrk writes its lower triangle only
   Eigen::ArrayXd root;
   for (Index start = 0; start < n; start += kChunkRows) {
     const Index m = std::min(kChunkRows, n - start);
-    if (!in_place) copy_rows_column_major(x, start, m, raw);
-    const double* block = in_place ? x.data() + start : raw.data();
-    const Index ld = in_place ? ld_in_place : m;
+    Index ld = 0;
+    const double* block = chunks.block(start, m, ld);
     for (Index k = 0; k < k_count; ++k) {
       const auto wc = w.col(k).segment(start, m);
       const double ws = wc.sum();

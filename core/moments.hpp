@@ -109,6 +109,25 @@ std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd&
 // are transposed in small blocks that stay in L1.
 void copy_rows_column_major(DataView x, Index start, Index m, Eigen::MatrixXd& raw);
 
+// Chunks of the rows of x as column-major blocks for BLAS. Column-major caller
+// data (unit row step, columns at least a chunk apart, an int leading
+// dimension) are used in place; other layouts are copied chunk by chunk by
+// copy_rows_column_major, so the arithmetic after block() is the same for
+// every layout.
+class ColumnMajorChunks {
+ public:
+  explicit ColumnMajorChunks(DataView x);
+  bool in_place() const { return in_place_; }
+  // Rows start..start+m-1: the block's first element; `ld` gets its leading dimension.
+  const double* block(Index start, Index m, Index& ld);
+
+ private:
+  DataView x_;
+  bool in_place_;
+  Index ld_in_place_;
+  Eigen::MatrixXd raw_;
+};
+
 // Convenience: mean and covariance of all rows of x in one call.
 struct MeanCovariance {
   Eigen::VectorXd mean;
