@@ -6,6 +6,8 @@
 #include <cmath>
 #include <numeric>
 #include <optional>
+#include <utility>
+#include <vector>
 
 #include "error.hpp"
 #include "mcd_fast.hpp"
@@ -25,21 +27,26 @@ Eigen::MatrixXd correlation(const Eigen::MatrixXd& y) {
   return s;
 }
 
-// Ranks 1..n with average ranks for ties (a function of the values only).
-Eigen::VectorXd ranks(const Eigen::VectorXd& v) {
+// Ranks 1..n with average ranks for ties (a function of the values only),
+// into r; returns the number of tied pairs (i < j with v_i == v_j).
+long long ranks(const Eigen::Ref<const Eigen::VectorXd>& v, Eigen::Ref<Eigen::VectorXd> r) {
   const Index n = v.size();
-  std::vector<Index> order(static_cast<std::size_t>(n));
-  std::iota(order.begin(), order.end(), Index{0});
-  std::sort(order.begin(), order.end(), [&v](Index a, Index b) { return v(a) < v(b); });
-  Eigen::VectorXd r(n);
+  // Sort (value, row) pairs rather than row indices by an indirect
+  // comparison: the values travel with the rows, so the sort reads
+  // contiguous memory.
+  std::vector<std::pair<double, Index>> order(static_cast<std::size_t>(n));
+  for (Index i = 0; i < n; ++i) order[static_cast<std::size_t>(i)] = {v(i), i};
+  std::sort(order.begin(), order.end());
+  long long tied_pairs = 0;
   for (Index i = 0; i < n;) {
     Index j = i;
-    while (j + 1 < n && v(order[static_cast<std::size_t>(j + 1)]) == v(order[static_cast<std::size_t>(i)])) ++j;
+    while (j + 1 < n && order[static_cast<std::size_t>(j + 1)].first == order[static_cast<std::size_t>(i)].first) ++j;
     const double avg = 0.5 * static_cast<double>(i + j) + 1.0;
-    for (Index k = i; k <= j; ++k) r(order[static_cast<std::size_t>(k)]) = avg;
+    for (Index k = i; k <= j; ++k) r(order[static_cast<std::size_t>(k)].second) = avg;
+    tied_pairs += static_cast<long long>(j - i) * (j - i + 1) / 2;
     i = j + 1;
   }
-  return r;
+  return tied_pairs;
 }
 
 // Spatial median by Weiszfeld iterations from the coordinatewise median.
@@ -58,11 +65,15 @@ Eigen::VectorXd spatial_median(const Eigen::MatrixXd& z) {
   return m;
 }
 
-double positive_scale(const Eigen::VectorXd& v) { return qn_scale(v); }
-
 }  // namespace
 
 std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk) {
+  ScaleWorkspace workspace;
+  return deterministic_starts(z, with_ogk, workspace, nullptr);
+}
+
+std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk,
+                                                  ScaleWorkspace& workspace, StartBasis* ogk_basis) {
   const Index n = z.rows(), p = z.cols();
   std::vector<Eigen::MatrixXd> s;
   // 1. Correlation of the tanh-transformed data.
@@ -74,8 +85,13 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
   for (Index k = 0; k < n; ++k)
     score[static_cast<std::size_t>(k)] =
         boost::math::quantile(normal, (static_cast<double>(k + 1) - 1.0 / 3.0) / (static_cast<double>(n) + 1.0 / 3.0));
+  // Qn of column j of z is 0 exactly when at least k = C(floor(n/2)+1, 2)
+  // pairs of its values coincide (differences of unequal doubles are never
+  // 0); the tied pairs come with the ranks.
+  const long long qn_h = n / 2 + 1, qn_k = qn_h * (qn_h - 1) / 2;
+  std::vector<bool> zero_qn(static_cast<std::size_t>(p));
   for (Index j = 0; j < p; ++j) {
-    r.col(j) = ranks(z.col(j));
+    zero_qn[static_cast<std::size_t>(j)] = ranks(z.col(j), r.col(j)) >= qn_k;
     for (Index i = 0; i < n; ++i) {
       const double rk = r(i, j);
       const double whole = std::floor(rk);
@@ -99,43 +115,65 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
     const Eigen::VectorXd norms = z.rowwise().squaredNorm();
     s.push_back(fit_subset(z, smallest_h(norms, (n + 1) / 2, z)).cov);
   }
-  // 6. Raw OGK (Maronna & Zamar 2002) with the Qn scale.
+  // 6. Raw OGK (Maronna & Zamar 2002) with the Qn scale: U_jk =
+  // (Qn(z_j + z_k)^2 - Qn(z_j - z_k)^2) / 4 on columns scaled to unit Qn, then
+  // the eigenvalues of U replaced by Qn^2 of the projections on its
+  // eigenvectors. The columns of z were divided by their Qn in the
+  // standardisation (step 1 of DetMCD), so Qn(z_j) is 1 up to rounding and is
+  // not evaluated again; it is 0 (that standardisation fell back to another
+  // scale) exactly when the column has at least qn_k tied pairs.
   if (with_ogk) {
     Eigen::MatrixXd u(p, p);
+    Eigen::VectorXd sum(n), diff(n);
     for (Index j = 0; j < p; ++j) {
-      const double sj = positive_scale(z.col(j));
-      u(j, j) = sj * sj;
+      u(j, j) = zero_qn[static_cast<std::size_t>(j)] ? 0.0 : 1.0;
       for (Index k = 0; k < j; ++k) {
-        const double a = positive_scale(z.col(j) + z.col(k));
-        const double b = positive_scale(z.col(j) - z.col(k));
+        sum = z.col(j) + z.col(k);
+        diff = z.col(j) - z.col(k);
+        const double a = qn_scale(sum, workspace);
+        const double b = qn_scale(diff, workspace);
         u(j, k) = u(k, j) = 0.25 * (a * a - b * b);
       }
     }
     Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(u);
     const Eigen::MatrixXd v = z * es.eigenvectors();
-    Eigen::VectorXd lambda(p);
-    for (Index l = 0; l < p; ++l) {
-      const double q = positive_scale(v.col(l));
-      lambda(l) = q * q;
+    Eigen::VectorXd root(p);
+    for (Index l = 0; l < p; ++l) root(l) = qn_scale(v.col(l), workspace);
+    s.push_back(es.eigenvectors() * root.cwiseAbs2().asDiagonal() * es.eigenvectors().transpose());
+    // Step 3 of DetMCD applied to this start would find the same eigenvectors
+    // and the same projection scales again: hand them over instead.
+    if (ogk_basis) {
+      ogk_basis->vectors = es.eigenvectors();
+      ogk_basis->root = root;
     }
-    s.push_back(es.eigenvectors() * lambda.asDiagonal() * es.eigenvectors().transpose());
   }
   return s;
 }
 
 Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s) {
+  ScaleWorkspace workspace;
+  return start_distances(z, s, workspace);
+}
+
+Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s,
+                                ScaleWorkspace& workspace) {
   const Index p = z.cols();
   Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(s);
   const Eigen::MatrixXd& e = es.eigenvectors();
   const Eigen::MatrixXd b = z * e;
   Eigen::VectorXd root(p);  // Qn of the projections: the re-estimated sqrt eigenvalues
-  for (Index l = 0; l < p; ++l) {
-    root(l) = qn_scale(b.col(l));
-    if (!(root(l) > 0.0)) return {};
-  }
+  for (Index l = 0; l < p; ++l) root(l) = qn_scale(b.col(l), workspace);
+  return start_distances(z, StartBasis{e, root});
+}
+
+Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const StartBasis& basis) {
+  const Index p = z.cols();
+  for (Index l = 0; l < p; ++l)
+    if (!(basis.root(l) > 0.0)) return {};
   // Centre Sigma^{1/2} med(z Sigma^{-1/2}) with the symmetric square root;
   // distances |(z_i - centre) Sigma^{-1/2}|^2 in those coordinates.
-  const Eigen::MatrixXd inv_root = e * root.cwiseInverse().asDiagonal() * e.transpose();
+  const Eigen::MatrixXd& e = basis.vectors;
+  const Eigen::MatrixXd inv_root = e * basis.root.cwiseInverse().asDiagonal() * e.transpose();
   const Eigen::MatrixXd y = z * inv_root;
   Eigen::RowVectorXd med(p);
   for (Index j = 0; j < p; ++j) med(j) = median(y.col(j));
@@ -169,14 +207,18 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   }
 
   mcd_detail::report_progress(opt.progress, "starting estimates", 0.05);
-  const std::vector<Eigen::MatrixXd> starts = mcd_detail::deterministic_starts(z, true);
+  ScaleWorkspace workspace;  // one set of Qn buffers for all p(p+1)/2 + 6p scales
+  mcd_detail::StartBasis ogk;
+  const std::vector<Eigen::MatrixXd> starts = mcd_detail::deterministic_starts(z, true, workspace, &ogk);
   std::optional<mcd_detail::SubsetFit> best;
   int iterations = 0, usable = 0;
   const Index half = (n + 1) / 2;
   for (std::size_t k = 0; k < starts.size(); ++k) {
     mcd_detail::report_progress(opt.progress, "C-steps",
                                 0.2 + 0.7 * static_cast<double>(k) / static_cast<double>(starts.size()));
-    const Eigen::VectorXd d2 = mcd_detail::start_distances(z, starts[k]);
+    // The last start is the OGK one, whose eigenbasis and scales are known.
+    const Eigen::VectorXd d2 = k + 1 == starts.size() ? mcd_detail::start_distances(z, ogk)
+                                                      : mcd_detail::start_distances(z, starts[k], workspace);
     if (d2.size() == 0) continue;
     mcd_detail::SubsetFit f = mcd_detail::fit_subset(z, mcd_detail::smallest_h(d2, half, z));
     if (!f.singular) iterations += mcd_detail::c_steps_to_convergence(z, h, f, opt.max_csteps);

@@ -10,6 +10,7 @@
 // selected subsets are the same unless two distances tie within rounding).
 #pragma once
 #include "mcd_common.hpp"
+#include "robust_scale.hpp"
 
 namespace ellipsa::core {
 
@@ -32,12 +33,30 @@ namespace mcd_detail {
 // covariance of the ceil(n/2) rows nearest the origin, raw OGK (Maronna &
 // Zamar 2002) with Qn. with_ogk = false leaves out the last (used by MRCD
 // for large p, where p^2 Qn evaluations dominate).
+// z must be standardised by column medians and Qn (mcd_detail::standardise
+// with ColumnScale::Qn): the OGK start takes the column scales of z as 1.
 std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk);
+// Step 3 of DetMCD for a start given by the eigenvectors of its scatter
+// (columns) and the robust scales of z projected on them (the square roots of
+// the re-estimated eigenvalues).
+struct StartBasis {
+  Eigen::MatrixXd vectors;
+  Eigen::VectorXd root;
+};
+// The same, with caller-provided Qn scratch memory; when with_ogk and
+// ogk_basis is not null, it receives the OGK start's basis (so that step 3
+// need not recompute it: start_distances(z, *ogk_basis)).
+std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk,
+                                                  ScaleWorkspace& workspace, StartBasis* ogk_basis);
 // Step 3 of DetMCD for one start: eigenvalues re-estimated as Qn^2 of the
 // projections on the eigenvectors of s; returns the squared distances of all
 // rows to the centre Sigma^{1/2} med(z Sigma^{-1/2}), or an empty vector when
 // a projection has zero scale.
 Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s);
+Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s,
+                                ScaleWorkspace& workspace);
+// Distances for a start whose basis is already known (empty when a root is 0).
+Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const StartBasis& basis);
 }  // namespace mcd_detail
 
 }  // namespace ellipsa::core

@@ -6,7 +6,9 @@
 #include <cstdint>
 #include <cstring>
 #include <limits>
-#include <random>
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 #include <utility>
 #include <vector>
 
@@ -54,48 +56,97 @@ double qn_consistency_constant() {
   return 1.0 / (std::sqrt(2.0) * boost::math::quantile(z, 0.625));
 }
 
+struct ScaleWorkspace::Buffers {
+  std::vector<std::uint64_t> key, tmp;  // radix sort
+  std::vector<std::uint32_t> count;
+  std::vector<double> y;                // sorted sample + NaN sentinels
+  std::vector<Index> lo, hi, cut_lo, cut_hi;
+  std::vector<double> sample, candidates;
+};
+
+ScaleWorkspace::ScaleWorkspace() : buffers_(std::make_unique<Buffers>()) {}
+ScaleWorkspace::~ScaleWorkspace() = default;
+ScaleWorkspace::ScaleWorkspace(ScaleWorkspace&&) noexcept = default;
+ScaleWorkspace& ScaleWorkspace::operator=(ScaleWorkspace&&) noexcept = default;
+
 namespace {
 
-// Ascending sort of finite doubles. Below a few hundred values std::sort;
-// above, an LSD radix sort on order-preserving 64-bit keys (the IEEE bit
-// pattern with the sign bit flipped for non-negative values and all bits
-// flipped for negative ones), 11 bits per pass, passes whose digit is the same
-// for every key skipped. -0.0 sorts before +0.0; both compare equal, so the
-// sorted sequence of values is the one std::sort gives.
-void sort_values(std::vector<double>& v) {
-  const std::size_t n = v.size();
+// Sentinels after the sorted values: NaN, so that y[j] - y[i] < t and <= t
+// are false there for every threshold t, +-inf included.
+constexpr std::size_t kPad = 4;
+
+// b.y = the values of x in ascending order followed by kPad NaN sentinels.
+// Below a few hundred values std::sort; above, an LSD radix sort on
+// order-preserving 64-bit keys (the IEEE bit pattern with the sign bit flipped
+// for non-negative values and all bits flipped for negative ones), 11 bits per
+// pass, passes whose digit is the same for every key skipped. -0.0 sorts
+// before +0.0; both compare equal, so the sorted sequence of values is the one
+// std::sort gives. The values must not be NaN (the callers demand finite data).
+void sorted_copy(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace::Buffers& b) {
+  const std::size_t n = static_cast<std::size_t>(x.size());
+  std::vector<double>& v = b.y;
+  v.resize(n + kPad);
   if (n < 512) {
-    std::sort(v.begin(), v.end());
-    return;
-  }
-  constexpr int kBits = 11, kPasses = 6;  // 6 * 11 >= 64
-  constexpr std::size_t kBuckets = std::size_t{1} << kBits;
-  std::vector<std::uint64_t> key(n), tmp(n);
-  std::vector<std::size_t> count(kPasses * kBuckets, 0);
-  for (std::size_t i = 0; i < n; ++i) {
-    std::uint64_t b;
-    std::memcpy(&b, &v[i], sizeof b);
-    b = (b >> 63) ? ~b : (b | (std::uint64_t{1} << 63));
-    key[i] = b;
-    for (int d = 0; d < kPasses; ++d) ++count[d * kBuckets + ((b >> (d * kBits)) & (kBuckets - 1))];
-  }
-  for (int d = 0; d < kPasses; ++d) {
-    std::size_t* c = count.data() + d * kBuckets;
-    if (c[(key[0] >> (d * kBits)) & (kBuckets - 1)] == n) continue;  // one digit value: no-op pass
-    std::size_t sum = 0;
-    for (std::size_t b = 0; b < kBuckets; ++b) {
-      const std::size_t t = c[b];
-      c[b] = sum;
-      sum += t;
+    for (std::size_t i = 0; i < n; ++i) v[i] = x(static_cast<Index>(i));
+    std::sort(v.begin(), v.begin() + static_cast<std::ptrdiff_t>(n));
+  } else {
+    constexpr int kBits = 11, kPasses = 6;  // 6 * 11 >= 64
+    constexpr std::size_t kBuckets = std::size_t{1} << kBits;
+    b.key.resize(n);
+    b.tmp.resize(n);
+    b.count.assign(kPasses * kBuckets, 0);
+    std::uint64_t* key = b.key.data();
+    std::uint64_t* tmp = b.tmp.data();
+    std::uint32_t* count = b.count.data();
+    for (std::size_t i = 0; i < n; ++i) {
+      const double value = x(static_cast<Index>(i));
+      std::uint64_t k;
+      std::memcpy(&k, &value, sizeof k);
+      k = (k >> 63) ? ~k : (k | (std::uint64_t{1} << 63));
+      key[i] = k;
+      for (int d = 0; d < kPasses; ++d) ++count[d * kBuckets + ((k >> (d * kBits)) & (kBuckets - 1))];
     }
-    for (std::size_t i = 0; i < n; ++i) tmp[c[(key[i] >> (d * kBits)) & (kBuckets - 1)]++] = key[i];
-    key.swap(tmp);
+    for (int d = 0; d < kPasses; ++d) {
+      std::uint32_t* c = count + d * kBuckets;
+      const int shift = d * kBits;
+      if (c[(key[0] >> shift) & (kBuckets - 1)] == n) continue;  // one digit value: no-op pass
+      std::uint32_t sum = 0;
+      for (std::size_t k = 0; k < kBuckets; ++k) {
+        const std::uint32_t t = c[k];
+        c[k] = sum;
+        sum += t;
+      }
+      for (std::size_t i = 0; i < n; ++i) tmp[c[(key[i] >> shift) & (kBuckets - 1)]++] = key[i];
+      std::swap(key, tmp);
+    }
+    for (std::size_t i = 0; i < n; ++i) {
+      std::uint64_t k = key[i];
+      k = (k >> 63) ? (k & ~(std::uint64_t{1} << 63)) : ~k;
+      std::memcpy(&v[i], &k, sizeof k);
+    }
   }
-  for (std::size_t i = 0; i < n; ++i) {
-    std::uint64_t b = key[i];
-    b = (b >> 63) ? (b & ~(std::uint64_t{1} << 63)) : ~b;
-    std::memcpy(&v[i], &b, sizeof b);
-  }
+  for (std::size_t i = n; i < n + kPad; ++i) v[i] = std::numeric_limits<double>::quiet_NaN();
+}
+
+// How many of y[j], ..., y[j+3] satisfy y[.] - yi < t (strict = false) or
+// <= t (strict = true). The predicate is monotone in j (y ascending, rounding
+// monotone, NaN sentinels false), so the count is how far the first failing
+// column lies beyond j, capped at 4.
+template <bool strict>
+inline Index advance4(const double* y, Index j, double yi, double t) {
+#if defined(__SSE2__)
+  const __m128d vi = _mm_set1_pd(yi), vt = _mm_set1_pd(t);
+  const __m128d d0 = _mm_sub_pd(_mm_loadu_pd(y + j), vi);
+  const __m128d d1 = _mm_sub_pd(_mm_loadu_pd(y + j + 2), vi);
+  const int m0 = _mm_movemask_pd(strict ? _mm_cmple_pd(d0, vt) : _mm_cmplt_pd(d0, vt));
+  const int m1 = _mm_movemask_pd(strict ? _mm_cmple_pd(d1, vt) : _mm_cmplt_pd(d1, vt));
+  // Each 2-bit mask is a prefix of ones (0, 1 or 3): (m + 1) >> 1 counts them.
+  return static_cast<Index>(((m0 + 1) >> 1) + ((m1 + 1) >> 1));
+#else
+  auto below = [t](double d) { return strict ? (d <= t) : (d < t); };
+  return static_cast<Index>(below(y[j] - yi)) + below(y[j + 1] - yi) + below(y[j + 2] - yi) +
+         below(y[j + 3] - yi);
+#endif
 }
 
 // Candidate pairs (i, j), i < j, of the implicit matrix d(i, j) = y[j] - y[i]
@@ -104,65 +155,105 @@ void sort_values(std::vector<double>& v) {
 // decreasing in i, so every "first column with d >= t" is non-decreasing in i
 // and lo, hi stay non-decreasing in i: one forward sweep finds all of them.
 struct PairWindows {
-  const std::vector<double>& y;
-  std::vector<Index> lo, hi;
+  const double* y;
+  std::size_t n;
+  std::vector<Index>& lo;
+  std::vector<Index>& hi;
   long long left_of_windows = 0;  // pairs excluded on the small side
   long long size = 0;             // pairs inside the windows
 
-  // sorted: ascending values followed by one +inf sentinel.
-  explicit PairWindows(const std::vector<double>& sorted) : y(sorted) {
-    const Index n = static_cast<Index>(y.size()) - 1;
-    lo.resize(static_cast<std::size_t>(n));
-    hi.assign(static_cast<std::size_t>(n), n);
-    for (Index i = 0; i < n; ++i) lo[static_cast<std::size_t>(i)] = i + 1;
-    size = static_cast<long long>(n) * (n - 1) / 2;
+  PairWindows(const std::vector<double>& sorted, std::size_t count, std::vector<Index>& lo_,
+              std::vector<Index>& hi_)
+      : y(sorted.data()), n(count), lo(lo_), hi(hi_) {
+    lo.resize(n);
+    hi.assign(n, static_cast<Index>(n));
+    for (std::size_t i = 0; i < n; ++i) lo[i] = static_cast<Index>(i + 1);
+    size = static_cast<long long>(n) * (static_cast<long long>(n) - 1) / 2;
   }
 
-  // For every row the first column in its window with d >= t (strict = false)
-  // or d > t (strict = true), clamped to the window; returns their total
-  // offset from lo, i.e. the number of candidates below t (or <= t).
-  // The first such column over all j is non-decreasing in i, so a merge-like
-  // walk of at most 2n steps finds all of them; it is written without
-  // data-dependent branches (y holds a +inf sentinel at index n). The rows are
-  // cut into kChains ranges walked in lock step: each walk is one long chain
-  // of dependent loads, and interleaving independent chains hides the latency.
-  template <bool strict>
-  long long split(double t, std::vector<Index>& at) const {
-    const std::size_t n = y.size() - 1;
-    at.resize(n);
-    const double* yy = y.data();
-    auto keep_going = [t](double d) { return strict ? (d <= t) : (d < t); };
+  // Both cuts in one sweep: for every row the first column in its window with
+  // d >= t_lo (into cut_lo) and with d > t_hi (into cut_hi), clamped to the
+  // window. Returns {candidates < t_lo, candidates <= t_hi}.
+  // Over all j, the first column with d >= t is non-decreasing in i, so each
+  // cut is a forward walk of j along the rows; j advances by up to 4 columns
+  // per comparison block (advance4). Each walk is a chain of dependent loads:
+  // the rows are cut into kChains ranges walked in lock step, two walks (t_lo,
+  // t_hi) each, so that 2 kChains independent chains hide the latency.
+  std::pair<long long, long long> split(double t_lo, double t_hi, std::vector<Index>& cut_lo,
+                                        std::vector<Index>& cut_hi) const {
+    cut_lo.resize(n);
+    cut_hi.resize(n);
+    const double* yy = y;
+    const Index* lo_p = lo.data();
+    const Index* hi_p = hi.data();
+    Index* cl_p = cut_lo.data();
+    Index* ch_p = cut_hi.data();
     constexpr int kChains = 4;
-    std::size_t i[kChains], end[kChains], j[kChains];
+    std::size_t i[kChains], end[kChains];
+    Index jl[kChains], jh[kChains];
+    long long sum_lo[kChains] = {}, sum_hi[kChains] = {};
     for (int c = 0; c < kChains; ++c) {
       i[c] = n * static_cast<std::size_t>(c) / kChains;
       end[c] = n * static_cast<std::size_t>(c + 1) / kChains;
-      // Start column of the chain: the first j with !keep_going(y[j] - y[i]).
       const double yi = i[c] < n ? yy[i[c]] : 0.0;
-      j[c] = static_cast<std::size_t>(
-          std::partition_point(yy, yy + n, [&](double yj) { return keep_going(yj - yi); }) - yy);
+      jl[c] = static_cast<Index>(std::partition_point(yy, yy + n, [&](double yj) { return yj - yi < t_lo; }) - yy);
+      jh[c] = static_cast<Index>(std::partition_point(yy, yy + n, [&](double yj) { return yj - yi <= t_hi; }) - yy);
     }
-    auto step = [&](int c) {
-      const bool advance_j = (j[c] < n) & keep_going(yy[j[c]] - yy[i[c]]);
-      at[i[c]] = static_cast<Index>(j[c]);
-      j[c] += advance_j;
-      i[c] += !advance_j;
+    // One row of chain c (always inlined so that the chains' state stays in
+    // registers and the lock-step loop below interleaves them).
+    auto step = [&](int c) __attribute__((always_inline)) {
+      const std::size_t r = i[c];
+      const double yi = yy[r];
+      Index a, b;
+      Index u = jl[c], v = jh[c];
+      do {
+        a = advance4<false>(yy, u, yi, t_lo);
+        u += a;
+      } while (a == 4);
+      do {
+        b = advance4<true>(yy, v, yi, t_hi);
+        v += b;
+      } while (b == 4);
+      jl[c] = u;
+      jh[c] = v;
+      const Index l = lo_p[r], h = hi_p[r];
+      const Index a_lo = std::clamp(u, l, h), a_hi = std::clamp(v, l, h);
+      cl_p[r] = a_lo;
+      ch_p[r] = a_hi;
+      sum_lo[c] += a_lo - l;
+      sum_hi[c] += a_hi - l;
+      i[c] = r + 1;
     };
-    for (;;) {
-      bool all_running = true;
-      for (int c = 0; c < kChains; ++c) all_running = all_running && i[c] < end[c];
-      if (!all_running) break;
-      for (int c = 0; c < kChains; ++c) step(c);
+    // Every chain has end[c] - i[c] rows, equal up to one: run the common
+    // count in lock step, then the leftovers.
+    std::size_t common = end[0] - i[0];
+    for (int c = 1; c < kChains; ++c) common = std::min(common, end[c] - i[c]);
+    for (std::size_t s = 0; s < common; ++s) {
+      step(0);
+      step(1);
+      step(2);
+      step(3);
     }
-    for (int c = 0; c < kChains; ++c)
+    static_assert(kChains == 4, "the lock-step loop above names four chains");
+    long long below = 0, not_above = 0;
+    for (int c = 0; c < kChains; ++c) {
       while (i[c] < end[c]) step(c);
-    long long total = 0;
-    for (std::size_t r = 0; r < n; ++r) {
-      const Index cut = std::clamp(at[r], lo[r], hi[r]);
-      at[r] = cut;
-      total += cut - lo[r];
+      below += sum_lo[c];
+      not_above += sum_hi[c];
     }
-    return total;
+    return {below, not_above};
+  }
+};
+
+// splitmix64 (Steele, Lea & Flood 2014): a small, fast generator; the sample
+// it draws only steers the selection, never its result.
+struct SplitMix64 {
+  std::uint64_t state;
+  std::uint64_t operator()() {
+    std::uint64_t z = (state += 0x9e3779b97f4a7c15ULL);
+    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+    z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+    return z ^ (z >> 31);
   }
 };
 
@@ -175,54 +266,62 @@ struct PairWindows {
 // below each trial value in O(n) with a monotone sweep. Croux & Rousseeuw take
 // the weighted median of the row medians as the trial value, which removes at
 // least a quarter of the candidates per round (about log_{4/3}(n^2) rounds).
-// Here the trial values come from a random sample of the remaining candidates
+// Here the trial values come from a sample of the remaining candidates
 // instead, placed a few standard errors either side of the target's expected
 // sample rank (the sampling idea of Floyd & Rivest 1975, "Expected time bounds
-// for selection"): each round keeps about 1/15 of the candidates, so a handful
-// of O(n) sweeps suffice. The sample only steers which counts are taken; the
-// result is the exact order statistic whatever it draws, and the generator has
-// a fixed seed, so the work done is also reproducible.
+// for selection"): each round keeps a few percent of the candidates, so a
+// handful of O(n) sweeps suffice. The sample is stratified (one random
+// candidate from each of s equal runs of the candidates in row order), which
+// gives positions already in order and a quantile estimate no less accurate
+// than a simple random sample. The sample only steers which counts are taken;
+// the result is the exact order statistic whatever it draws, and the generator
+// has a fixed seed, so the work done is also reproducible.
 double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x,
-                                           long long k) {
+                                           long long k, ScaleWorkspace& workspace) {
   const Index n = x.size();
   require_nonempty(n, "pairwise differences");
   const long long pairs = static_cast<long long>(n) * (n - 1) / 2;
   if (k < 1 || k > pairs)
     throw Error(ErrorKind::Argument, "pairwise difference order statistic: rank out of range");
-  std::vector<double> y(static_cast<std::size_t>(n));
-  for (Index i = 0; i < n; ++i) y[static_cast<std::size_t>(i)] = x(i);
-  sort_values(y);
-  y.push_back(std::numeric_limits<double>::infinity());  // sentinel for the sweeps
+  ScaleWorkspace::Buffers& b = workspace.buffers();
+  sorted_copy(x, b);
+  const std::vector<double>& y = b.y;
   const std::size_t un = static_cast<std::size_t>(n);
 
-  PairWindows w(y);
-  std::vector<Index> cut_lo, cut_hi;
-  std::vector<long long> positions;
-  std::vector<double> sample;
-  std::mt19937_64 engine(0x51a7c0de5eedULL);
-  // sample_size: 4096 (each round keeps about 1/20 of the candidates) for
-  // large n; smaller for small n, where sampling would cost more than sweeps.
-  const long long sample_size = std::clamp<long long>(static_cast<long long>(n) / 8, 256, 4096);
-  const long long enumerate_below = std::max<long long>(static_cast<long long>(n), 16 * sample_size);
+  PairWindows w(y, un, b.lo, b.hi);
+  std::vector<Index>& cut_lo = b.cut_lo;
+  std::vector<Index>& cut_hi = b.cut_hi;
+  std::vector<double>& sample = b.sample;
+  SplitMix64 engine{0x51a7c0de5eedULL};
+  // sample_size s: a round costs two O(n) sweeps plus O(s) sampling and keeps
+  // about 7 sqrt(f(1-f)/s) of the candidates; s near n/8 (at most 8192)
+  // balances the two. Below about n candidates, enumerating them is cheaper
+  // than another round.
+  const long long sample_size = std::clamp<long long>(static_cast<long long>(n) / 8, 256, 8192);
+  const long long enumerate_below = std::max<long long>(static_cast<long long>(n), 4 * sample_size);
   while (w.size > enumerate_below) {
-    // Uniform sample of the candidates: sorted random positions in [0, size),
-    // located by one sweep over the rows' cumulative window widths.
-    positions.clear();
-    for (long long s = 0; s < sample_size; ++s)
-      // Modulo bias (< size / 2^64) only nudges the sample, never the result.
-      positions.push_back(static_cast<long long>(engine() % static_cast<std::uint64_t>(w.size)));
-    std::sort(positions.begin(), positions.end());
-    sample.clear();
+    // Stratified sample: candidate position u in run q = [size q/s, size (q+1)/s),
+    // located by one sweep over the rows' window widths.
+    sample.resize(static_cast<std::size_t>(sample_size));
     {
+      const long long run_base = w.size / sample_size, run_rest = w.size % sample_size;
       std::size_t row = 0;
       long long row_start = 0;  // position of the first candidate of `row`
-      for (long long u : positions) {
+      long long run_start = 0;
+      for (long long q = 0; q < sample_size; ++q) {
+        // run_end = floor(size (q+1) / s) without overflow.
+        const long long run_end = run_base * (q + 1) + run_rest * (q + 1) / sample_size;
+        const long long width = run_end - run_start;  // >= 1: size >= 4 s here
+        const double fraction = static_cast<double>(engine() >> 11) * 0x1.0p-53;  // in [0, 1)
+        const long long u =
+            run_start + std::min(width - 1, static_cast<long long>(fraction * static_cast<double>(width)));
+        run_start = run_end;
         while (u >= row_start + (w.hi[row] - w.lo[row])) {
           row_start += w.hi[row] - w.lo[row];
           ++row;
         }
         const Index col = w.lo[row] + static_cast<Index>(u - row_start);
-        sample.push_back(y[static_cast<std::size_t>(col)] - y[row]);
+        sample[static_cast<std::size_t>(q)] = y[static_cast<std::size_t>(col)] - y[row];
       }
     }
     // Target rank among the candidates, and its expected place in the sample
@@ -234,18 +333,22 @@ double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorX
     const long long s_lo = static_cast<long long>(std::floor(centre - spread));
     const long long s_hi = static_cast<long long>(std::ceil(centre + spread));
     const bool have_lo = s_lo >= 0, have_hi = s_hi < sample_size;
-    double t_lo = 0.0, t_hi = 0.0;
+    // Without a lower (upper) trial value the cut is at -inf (+inf): nothing
+    // lies below it (everything lies at or below it).
+    double t_lo = -std::numeric_limits<double>::infinity();
+    double t_hi = std::numeric_limits<double>::infinity();
     if (have_lo) {
       std::nth_element(sample.begin(), sample.begin() + s_lo, sample.end());
       t_lo = sample[static_cast<std::size_t>(s_lo)];
     }
     if (have_hi) {
-      std::nth_element(sample.begin(), sample.begin() + s_hi, sample.end());
+      // After the first selection everything from s_lo on is >= t_lo.
+      const auto from = sample.begin() + (have_lo ? s_lo : 0);
+      std::nth_element(from, sample.begin() + s_hi, sample.end());
       t_hi = sample[static_cast<std::size_t>(s_hi)];
     }
     // below: candidates < t_lo; not_above: candidates <= t_hi.
-    const long long below = have_lo ? w.split<false>(t_lo, cut_lo) : 0;
-    const long long not_above = have_hi ? w.split<true>(t_hi, cut_hi) : w.size;
+    const auto [below, not_above] = w.split(t_lo, t_hi, cut_lo, cut_hi);
     if (rank <= below) {  // answer < t_lo: keep the candidates below t_lo
       w.hi.swap(cut_lo);
       w.size = below;
@@ -254,8 +357,8 @@ double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorX
       w.left_of_windows += not_above;
       w.size -= not_above;
     } else if (not_above - below < w.size) {  // t_lo <= answer <= t_hi: keep those between
-      if (have_hi) w.hi.swap(cut_hi);
-      if (have_lo) w.lo.swap(cut_lo);
+      w.hi.swap(cut_hi);
+      w.lo.swap(cut_lo);
       w.left_of_windows += below;
       w.size = not_above - below;
     } else {
@@ -265,7 +368,7 @@ double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorX
       const std::size_t mid = static_cast<std::size_t>(std::clamp<long long>(static_cast<long long>(centre), 0, sample_size - 1));
       std::nth_element(sample.begin(), sample.begin() + static_cast<std::ptrdiff_t>(mid), sample.end());
       const double t = sample[mid];
-      const long long lt = w.split<false>(t, cut_lo), le = w.split<true>(t, cut_hi);
+      const auto [lt, le] = w.split(t, t, cut_lo, cut_hi);
       if (rank > lt && rank <= le) return t;
       if (rank <= lt) {
         w.hi.swap(cut_lo);
@@ -279,7 +382,8 @@ double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorX
   }
   // Few candidates left: everything left of the windows is smaller than the
   // answer, everything right of them larger.
-  std::vector<double> candidates;
+  std::vector<double>& candidates = b.candidates;
+  candidates.clear();
   candidates.reserve(static_cast<std::size_t>(w.size));
   for (std::size_t i = 0; i < un; ++i)
     for (Index j = w.lo[i]; j < w.hi[i]; ++j) candidates.push_back(y[static_cast<std::size_t>(j)] - y[i]);
@@ -291,13 +395,24 @@ double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorX
   return *nth;
 }
 
-double qn_scale(const Eigen::Ref<const Eigen::VectorXd>& x) {
+double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x,
+                                           long long k) {
+  ScaleWorkspace workspace;
+  return pairwise_difference_order_statistic(x, k, workspace);
+}
+
+double qn_scale(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace& workspace) {
   const Index n = x.size();
   require_nonempty(n, "Qn");
   if (n == 1) return 0.0;
   const long long h = n / 2 + 1;
   const long long k = h * (h - 1) / 2;
-  return qn_consistency_constant() * pairwise_difference_order_statistic(x, k);
+  return qn_consistency_constant() * pairwise_difference_order_statistic(x, k, workspace);
+}
+
+double qn_scale(const Eigen::Ref<const Eigen::VectorXd>& x) {
+  ScaleWorkspace workspace;
+  return qn_scale(x, workspace);
 }
 
 }  // namespace ellipsa::core
