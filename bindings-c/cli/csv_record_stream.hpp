@@ -74,6 +74,7 @@ class RecordStream {
   std::int64_t line_ = 1;            ///< physical line of the next record
   std::array<bool, 256> separator_{};
   std::array<bool, 256> stop_{};     ///< separator or '\n': ends an unquoted scan
+  char single_separator_ = ',';      ///< the separator when there is one ('\0' while detecting)
   // Fields of the record being parsed: refs_[0, ref_count_). Appended through
   // add_ref, which stays inline in the scanning loop (a push_back did not).
   void add_ref(std::size_t offset, std::size_t length, bool in_scratch) {
