@@ -33,15 +33,33 @@ CsvWriter::CsvWriter(std::FILE* out, CsvWriteOptions options) : out_(out), optio
     throw std::invalid_argument("with decimal comma the separator must be ';' or tab");
   if (options_.digits < 0 || options_.digits > 17)
     throw std::invalid_argument("significant digits must be 1 to 17 (or 0 for the shortest exact form)");
-  buffer_.reserve(kDrainSize + 4096);
+  buffer_.resize(kDrainSize + 4096);
 }
 
 CsvWriter::~CsvWriter() {
-  if (!buffer_.empty() && out_ != nullptr) std::fwrite(buffer_.data(), 1, buffer_.size(), out_);
+  if (used_ > 0 && out_ != nullptr) std::fwrite(buffer_.data(), 1, used_, out_);
+}
+
+char* CsvWriter::room(std::size_t bytes) {
+  if (used_ + bytes > buffer_.size()) {
+    write_buffer();
+    if (bytes > buffer_.size()) buffer_.resize(bytes);
+  }
+  return buffer_.data() + used_;
+}
+
+void CsvWriter::put(char c) {
+  *room(1) = c;
+  ++used_;
+}
+
+void CsvWriter::put(std::string_view text) {
+  std::memcpy(room(text.size()), text.data(), text.size());
+  used_ += text.size();
 }
 
 void CsvWriter::begin_field() {
-  if (fields_in_row_++ > 0) buffer_ += options_.separator;
+  if (fields_in_row_++ > 0) put(options_.separator);
 }
 
 void CsvWriter::header(std::span<const std::string> names) {
@@ -53,14 +71,14 @@ CsvWriter& CsvWriter::text(std::string_view field) {
   begin_field();
   const char specials[] = {options_.separator, '"', '\n', '\r'};
   if (field.find_first_of(std::string_view(specials, 4)) == std::string_view::npos) {
-    buffer_.append(field);
+    put(field);
   } else {
-    buffer_ += '"';
+    put('"');
     for (char c : field) {
-      if (c == '"') buffer_ += '"';
-      buffer_ += c;
+      if (c == '"') put('"');
+      put(c);
     }
-    buffer_ += '"';
+    put('"');
   }
   last_field_empty_ = field.empty();
   drain_if_full();
@@ -70,8 +88,8 @@ CsvWriter& CsvWriter::text(std::string_view field) {
 CsvWriter& CsvWriter::number(double value) {
   if (std::isnan(value)) return missing();
   begin_field();
-  char digits[kNumberTextMax];
-  buffer_.append(digits, append_number(digits, value, options_.decimal, options_.digits));
+  // Formatted straight into the buffer: no copy of the digits.
+  used_ += append_number(room(kNumberTextMax), value, options_.decimal, options_.digits);
   last_field_empty_ = false;
   drain_if_full();
   return *this;
@@ -79,10 +97,10 @@ CsvWriter& CsvWriter::number(double value) {
 
 CsvWriter& CsvWriter::integer(std::int64_t value) {
   begin_field();
-  char digits[24];
-  const auto [end, ec] = std::to_chars(digits, digits + sizeof digits, value);
+  char* at = room(24);
+  const auto [end, ec] = std::to_chars(at, at + 24, value);
   (void)ec;
-  buffer_.append(digits, end);
+  used_ += static_cast<std::size_t>(end - at);
   last_field_empty_ = false;
   drain_if_full();
   return *this;
@@ -90,7 +108,7 @@ CsvWriter& CsvWriter::integer(std::int64_t value) {
 
 CsvWriter& CsvWriter::missing() {
   begin_field();
-  buffer_ += options_.missing;
+  put(options_.missing);
   last_field_empty_ = options_.missing.empty();
   drain_if_full();
   return *this;
@@ -98,7 +116,7 @@ CsvWriter& CsvWriter::missing() {
 
 CsvWriter& CsvWriter::raw(std::string_view fields) {
   begin_field();
-  buffer_.append(fields);
+  put(fields);
   last_field_empty_ = fields.empty();
   drain_if_full();
   return *this;
@@ -107,23 +125,22 @@ CsvWriter& CsvWriter::raw(std::string_view fields) {
 void CsvWriter::end_row() {
   // A row of one empty field would be a blank line, which readers skip at the
   // end of a file; the quotes keep the row.
-  if (fields_in_row_ == 1 && last_field_empty_) buffer_ += "\"\"";
-  buffer_ += options_.crlf ? "\r\n" : "\n";
+  if (fields_in_row_ == 1 && last_field_empty_) put("\"\"");
+  put(options_.crlf ? std::string_view("\r\n") : std::string_view("\n"));
   fields_in_row_ = 0;
   drain_if_full();
 }
 
 void CsvWriter::drain_if_full() {
-  if (buffer_.size() >= kDrainSize) write_buffer();
+  if (used_ >= kDrainSize) write_buffer();
 }
 
 void CsvWriter::write_buffer() {
-  if (buffer_.empty()) return;
-  if (std::fwrite(buffer_.data(), 1, buffer_.size(), out_) != buffer_.size()) {
-    buffer_.clear();
+  if (used_ == 0) return;
+  const std::size_t n = used_;
+  used_ = 0;
+  if (std::fwrite(buffer_.data(), 1, n, out_) != n)
     throw OutputError(std::string("cannot write output: ") + std::strerror(errno));
-  }
-  buffer_.clear();
 }
 
 void CsvWriter::flush() {

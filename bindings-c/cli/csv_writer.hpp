@@ -62,10 +62,16 @@ class CsvWriter {
   void begin_field();
   void drain_if_full();
   void write_buffer();
+  // Space for `bytes` more at buffer_[used_], draining (or, for one huge
+  // field, growing) the buffer first when needed.
+  char* room(std::size_t bytes);
+  void put(char c);
+  void put(std::string_view text);
 
   std::FILE* out_;
   CsvWriteOptions options_;
-  std::string buffer_;
+  std::string buffer_;    // fixed size; buffer_[0, used_) waits to be written
+  std::size_t used_ = 0;
   std::size_t fields_in_row_ = 0;
   bool last_field_empty_ = false;
 };
