@@ -2,13 +2,16 @@
 
 #include <Eigen/Eigenvalues>
 #include <algorithm>
+#include <boost/math/distributions/normal.hpp>
 #include <cmath>
 #include <limits>
 #include <string>
+#include <utility>
 
 #include "distributions.hpp"
 #include "error.hpp"
 #include "moments.hpp"
+#include "order_statistics.hpp"
 #include "robust_scale.hpp"
 
 namespace ellipsa::core {
@@ -70,11 +73,20 @@ Standardised standardise(DataView x, ColumnScale kind) {
   s.centre.resize(p);
   s.scale.resize(p);
   s.z.resize(n, p);
-  Eigen::VectorXd col;
+  // Phi^-1(3/4): the MAD of a normal sample estimates sigma Phi^-1(3/4).
+  const double q75 = boost::math::quantile(boost::math::normal_distribution<double>(), 0.75);
+  Eigen::VectorXd col, dev;
+  std::vector<double> buf;
   for (Index j = 0; j < p; ++j) {
     col = x.col(j);
-    const double m = median(col);
-    double sc = kind == ColumnScale::Qn ? qn_scale(col) : mad(col);
+    const double m = median_of(col.data(), n, buf);
+    double sc;
+    if (kind == ColumnScale::Qn) {
+      sc = qn_scale(col);
+    } else {
+      dev = (col.array() - m).abs();
+      sc = median_of(dev.data(), n, buf) / q75;
+    }
     if (!(sc > 0.0)) {
       // More than half the values coincide: fall back to the standard deviation
       // (the C-steps then find the exact fit if h rows share that value).
@@ -89,6 +101,22 @@ Standardised standardise(DataView x, ColumnScale kind) {
     s.z.col(j) = (col.array() - m) / sc;
   }
   return s;
+}
+
+void factor_fit(SubsetFit& f) {
+  const Index p = f.cov.rows();
+  bool regular = f.chol.compute(f.cov);
+  // lambda_min >= 1 / trace(cov^-1) = 1 / |L^-1|_F^2 >= lambda_min / p: a cheap
+  // lower bound clears most subsets; only doubtful ones pay for eigenvalues.
+  if (regular) {
+    f.linv = f.chol.lower().triangularView<Eigen::Lower>().solve(Eigen::MatrixXd::Identity(p, p));
+    if (!(1.0 / f.linv.squaredNorm() > kExactFitEigenvalue)) {
+      Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(f.cov, Eigen::EigenvaluesOnly);
+      regular = es.eigenvalues()(0) > kExactFitEigenvalue;
+    }
+  }
+  f.singular = !regular;
+  f.log_det = regular ? f.chol.log_determinant() : -std::numeric_limits<double>::infinity();
 }
 
 SubsetFit fit_subset(const Eigen::MatrixXd& z, std::vector<Index> rows) {
@@ -110,95 +138,174 @@ SubsetFit fit_subset(const Eigen::MatrixXd& z, std::vector<Index> rows) {
   f.cov.selfadjointView<Eigen::Lower>().rankUpdate(g.transpose());
   f.cov /= static_cast<double>(k);
   f.cov = f.cov.selfadjointView<Eigen::Lower>();
-  bool regular = f.chol.compute(f.cov);
-  // lambda_min >= 1 / trace(cov^-1) = 1 / |L^-1|_F^2 >= lambda_min / p: a cheap
-  // lower bound clears most subsets; only doubtful ones pay for eigenvalues.
-  if (regular) {
-    f.linv = f.chol.lower().triangularView<Eigen::Lower>().solve(Eigen::MatrixXd::Identity(p, p));
-    if (!(1.0 / f.linv.squaredNorm() > kExactFitEigenvalue)) {
-      Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(f.cov, Eigen::EigenvaluesOnly);
-      regular = es.eigenvalues()(0) > kExactFitEigenvalue;
-    }
-  }
-  f.singular = !regular;
-  f.log_det = regular ? f.chol.log_determinant() : -std::numeric_limits<double>::infinity();
+  factor_fit(f);
   return f;
 }
 
-void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, Eigen::VectorXd& d2) {
-  const Index n = z.rows();
-  d2.resize(n);
-  // Rows in chunks: centre, multiply by L^-T (one small GEMM per chunk), sum
-  // squares. L^-1 of the p x p factor is the triangular inverse fit_subset
-  // forms anyway for its exact-fit test.
-  constexpr Index kChunk = 2048;
-  const Eigen::MatrixXd linv_t = fit.linv.transpose();
-  Eigen::MatrixXd c, y;
-  for (Index s = 0; s < n; s += kChunk) {
-    const Index m = std::min(kChunk, n - s);
-    c = z.middleRows(s, m).rowwise() - fit.mean.transpose();
-    y.noalias() = c * linv_t;  // plain GEMM: faster than a triangular product at small p
-    d2.segment(s, m) = y.rowwise().squaredNorm();
+void fit_rows(const Eigen::MatrixXd& z, SubsetFit& f, CStepWorkspace& w) {
+  const std::vector<Index>& rows = f.rows;
+  const Index k = static_cast<Index>(rows.size()), p = z.cols();
+  constexpr Index kChunk = 256;  // rows per gathered chunk (stays in cache)
+  const Eigen::RowVectorXd shift = z.row(rows.front());
+  Eigen::RowVectorXd sum = Eigen::RowVectorXd::Zero(p);
+  Eigen::MatrixXd cross = Eigen::MatrixXd::Zero(p, p);
+  w.g.resize(std::min(kChunk, k), p);
+  for (Index s = 0; s < k; s += kChunk) {
+    const Index m = std::min(kChunk, k - s);
+    auto g = w.g.topRows(m);
+    for (Index j = 0; j < p; ++j) {
+      const double* src = z.col(j).data();
+      const double sj = shift(j);
+      double* dst = g.col(j).data();
+      for (Index i = 0; i < m; ++i) dst[i] = src[rows[static_cast<std::size_t>(s + i)]] - sj;
+    }
+    sum += g.colwise().sum();
+    cross.selfadjointView<Eigen::Lower>().rankUpdate(g.transpose());
   }
+  const Eigen::RowVectorXd d = sum / static_cast<double>(k);  // mean - shift
+  f.mean = (shift + d).transpose();
+  f.cov = cross / static_cast<double>(k);
+  f.cov.selfadjointView<Eigen::Lower>().rankUpdate(d.transpose(), -1.0);
+  f.cov = f.cov.selfadjointView<Eigen::Lower>();
+  factor_fit(f);
 }
 
-std::vector<Index> smallest_h(const Eigen::VectorXd& d2, Index h, const Eigen::MatrixXd& z) {
-  const Index n = d2.size();
-  std::vector<double> v(d2.data(), d2.data() + n);
-  std::nth_element(v.begin(), v.begin() + (h - 1), v.end());
-  const double cut = v[static_cast<std::size_t>(h - 1)];
-  // Rows strictly below the cut, collected without data-dependent branches
-  // (about half the rows are taken, in no predictable pattern); v is reused.
-  std::vector<Index> rows(static_cast<std::size_t>(n) + 1);
-  std::size_t below = 0, at_cut = 0;
-  for (Index i = 0; i < n; ++i) {
-    rows[below] = i;
-    below += d2(i) < cut;
-    at_cut += d2(i) == cut;
+bool update_fit(const Eigen::MatrixXd& z, const SubsetFit& old, SubsetFit& f, CStepWorkspace& w) {
+  const std::vector<Index>& rows = f.rows;
+  const Index k = static_cast<Index>(rows.size()), p = z.cols();
+  if (old.singular || static_cast<Index>(old.rows.size()) != k) return false;
+  // Rows entering and leaving in one merge of the two ascending lists (most
+  // rows are in both, so the branches are predictable); stop as soon as so
+  // many changed that a recomputation is the better choice.
+  w.enter.clear();
+  w.leave.clear();
+  const std::size_t limit = static_cast<std::size_t>(k / 8);
+  auto a = rows.begin(), b = old.rows.begin();
+  while (a != rows.end() && b != old.rows.end()) {
+    if (*a < *b) {
+      w.enter.push_back(*a++);
+    } else if (*b < *a) {
+      w.leave.push_back(*b++);
+    } else {
+      ++a;
+      ++b;
+      continue;
+    }
+    if (w.enter.size() + w.leave.size() > limit) return false;
   }
-  rows.resize(below);
-  const std::size_t need = static_cast<std::size_t>(h) - below;
-  std::vector<Index> tied;
-  tied.reserve(at_cut);
-  for (Index i = 0; i < n; ++i)
-    if (d2(i) == cut) tied.push_back(i);
-  if (tied.size() > need) {
-    // Ties at the cut are broken by the values of the rows, not by row order.
-    std::sort(tied.begin(), tied.end(), [&z](Index a, Index b) {
-      for (Index j = 0; j < z.cols(); ++j)
-        if (z(a, j) != z(b, j)) return z(a, j) < z(b, j);
-      return a < b;
-    });
-    tied.resize(need);
-    std::sort(tied.begin(), tied.end());
-  }
-  const std::size_t mid = rows.size();
-  rows.insert(rows.end(), tied.begin(), tied.end());
-  std::inplace_merge(rows.begin(), rows.begin() + static_cast<std::ptrdiff_t>(mid), rows.end());
-  return rows;
-}
-
-bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit) {
-  Eigen::VectorXd d2;
-  subset_distances(z, fit, d2);
-  std::vector<Index> rows = smallest_h(d2, h, z);
-  if (rows == fit.rows) return false;
-  SubsetFit next = fit_subset(z, std::move(rows));
-  // The determinant cannot increase (Rousseeuw & Van Driessen 1999, Theorem 1);
-  // a rise can only be rounding between equal-determinant subsets: stop there.
-  // (Only comparable when the current subset has h rows too: starts are smaller.)
-  if (!next.singular && static_cast<Index>(fit.rows.size()) == h && next.log_det > fit.log_det)
-    return false;
-  fit = std::move(next);
+  w.enter.insert(w.enter.end(), a, rows.end());
+  w.leave.insert(w.leave.end(), b, old.rows.end());
+  const std::size_t changed = w.enter.size() + w.leave.size();
+  if (changed == 0 || changed > limit) return false;
+  auto gather = [&](const std::vector<Index>& r, Eigen::MatrixXd& g) {
+    g.resize(static_cast<Index>(r.size()), p);
+    for (Index j = 0; j < p; ++j)
+      for (std::size_t i = 0; i < r.size(); ++i) g(static_cast<Index>(i), j) = z(r[i], j) - old.mean(j);
+  };
+  gather(w.enter, w.g);
+  gather(w.leave, w.g2);
+  Eigen::MatrixXd cross = static_cast<double>(k) * old.cov;
+  cross.selfadjointView<Eigen::Lower>().rankUpdate(w.g.transpose());
+  cross.selfadjointView<Eigen::Lower>().rankUpdate(w.g2.transpose(), -1.0);
+  const Eigen::RowVectorXd d = (w.g.colwise().sum() - w.g2.colwise().sum()) / static_cast<double>(k);
+  f.mean = old.mean + d.transpose();
+  f.cov = cross / static_cast<double>(k);
+  f.cov.selfadjointView<Eigen::Lower>().rankUpdate(d.transpose(), -1.0);
+  f.cov = f.cov.selfadjointView<Eigen::Lower>();
+  factor_fit(f);
   return true;
 }
 
+void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, CStepWorkspace& w) {
+  const Index n = z.rows(), p = z.cols();
+  constexpr Index kChunk = 1024;  // rows; a chunk of y stays in cache
+  w.linv_t = fit.linv.transpose();
+  w.shift.noalias() = fit.linv * fit.mean;
+  w.d2.resize(n);
+  w.y.resize(std::min(kChunk, n), p);
+  for (Index s = 0; s < n; s += kChunk) {
+    const Index m = std::min(kChunk, n - s);
+    auto y = w.y.topRows(m);
+    y.noalias() = z.middleRows(s, m) * w.linv_t;  // plain GEMM: faster than a triangular product
+    auto d = w.d2.segment(s, m).array();
+    d = (y.col(0).array() - w.shift(0)).square();
+    for (Index j = 1; j < p; ++j) d += (y.col(j).array() - w.shift(j)).square();
+  }
+}
+
+void smallest_h_into(const Eigen::VectorXd& d2, Index h, const Eigen::MatrixXd& z, CStepWorkspace& w) {
+  const Index n = d2.size();
+  const double cut = order_statistics(d2.data(), n, h - 1, w.select).at;
+  if (w.below.size() < static_cast<std::size_t>(n) + 1) w.below.resize(static_cast<std::size_t>(n) + 1);
+  // One branch-free pass (about half the rows are taken, unpredictably): the
+  // rows at or below the cut, ascending, and how many lie strictly below.
+  std::size_t taken = 0, below = 0;
+  for (Index i = 0; i < n; ++i) {
+    w.below[taken] = i;
+    taken += d2(i) <= cut;
+    below += d2(i) < cut;
+  }
+  const auto first = w.below.begin();
+  if (taken == static_cast<std::size_t>(h)) {  // the usual case: no surplus ties at the cut
+    w.rows.assign(first, first + h);
+    return;
+  }
+  // More rows sit at the cut than places are left: they are taken in
+  // lexicographic order of their values, not by row order.
+  const std::size_t need = static_cast<std::size_t>(h) - below;
+  w.rows.clear();
+  w.tied.clear();
+  for (auto it = first; it != first + static_cast<std::ptrdiff_t>(taken); ++it)
+    (d2(*it) == cut ? w.tied : w.rows).push_back(*it);
+  std::sort(w.tied.begin(), w.tied.end(), [&z](Index a, Index b) {
+    for (Index j = 0; j < z.cols(); ++j)
+      if (z(a, j) != z(b, j)) return z(a, j) < z(b, j);
+    return a < b;
+  });
+  w.tied.resize(need);
+  std::sort(w.tied.begin(), w.tied.end());
+  const auto mid = static_cast<std::ptrdiff_t>(w.rows.size());
+  w.rows.insert(w.rows.end(), w.tied.begin(), w.tied.end());
+  std::inplace_merge(w.rows.begin(), w.rows.begin() + mid, w.rows.end());
+}
+
+std::vector<Index> smallest_h(const Eigen::VectorXd& d2, Index h, const Eigen::MatrixXd& z) {
+  CStepWorkspace w;
+  smallest_h_into(d2, h, z, w);
+  return std::move(w.rows);
+}
+
+bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, CStepWorkspace& w) {
+  subset_distances(z, fit, w);
+  smallest_h_into(w.d2, h, z, w);
+  if (w.rows == fit.rows) return false;
+  // The new rows travel by swapping buffers (w.rows <-> next.rows <-> the old
+  // fit's rows), so no step allocates a row list.
+  SubsetFit next;
+  next.rows.swap(w.rows);
+  // Few rows changed: update the fit; a singular update is recomputed from
+  // the rows so that exact fits are judged as fit_subset() judges them.
+  if (!update_fit(z, fit, next, w) || next.singular) fit_rows(z, next, w);
+  // The determinant cannot increase (Rousseeuw & Van Driessen 1999, Theorem 1);
+  // a rise can only be rounding between equal-determinant subsets: stop there.
+  // (Only comparable when the current subset has h rows too: starts are smaller.)
+  const bool accept =
+      next.singular || static_cast<Index>(fit.rows.size()) != h || !(next.log_det > fit.log_det);
+  if (accept) std::swap(fit, next);
+  w.rows.swap(next.rows);  // recycle the buffer of the fit not kept
+  return accept;
+}
+
 int c_steps_to_convergence(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, int max_steps) {
+  CStepWorkspace w;
   int steps = 0;
+  bool changed = false;
   while (steps < max_steps && !fit.singular) {
     ++steps;
-    if (!c_step(z, h, fit)) break;
+    if (!c_step(z, h, fit, w)) break;
+    changed = true;
   }
+  if (changed && !fit.singular) fit = fit_subset(z, std::move(fit.rows));
   return steps;
 }
 
@@ -223,6 +330,29 @@ Eigen::MatrixXd scale_both_sides(const Eigen::MatrixXd& m, const Eigen::VectorXd
   return d.asDiagonal() * m * d.asDiagonal();
 }
 
+// d2_i = |L^-1 (z_i - centre)|^2 for every row, L = chol.lower(): rows in
+// chunks, centred first (no cancellation against L^-1 centre), then one GEMM
+// per chunk with the explicit L^-T of the p x p factor. At p ~ 10 this is
+// several times faster than triangular solves with n right-hand sides; the
+// inverse of a well-conditioned triangular factor (the data are standardised)
+// costs no accuracy that matters for flags at a chi-square cutoff.
+Eigen::VectorXd centred_distances(const Eigen::MatrixXd& z, const Eigen::VectorXd& centre,
+                                  const CholeskyFactor& chol) {
+  const Index n = z.rows(), p = z.cols();
+  const Eigen::MatrixXd linv_t =
+      chol.lower().triangularView<Eigen::Lower>().solve(Eigen::MatrixXd::Identity(p, p)).transpose();
+  constexpr Index kChunk = 1024;
+  Eigen::VectorXd d2(n);
+  Eigen::MatrixXd c(std::min(kChunk, n), p), y(std::min(kChunk, n), p);
+  for (Index s = 0; s < n; s += kChunk) {
+    const Index m = std::min(kChunk, n - s);
+    c.topRows(m) = z.middleRows(s, m).rowwise() - centre.transpose();
+    y.topRows(m).noalias() = c.topRows(m) * linv_t;
+    d2.segment(s, m) = y.topRows(m).rowwise().squaredNorm();
+  }
+  return d2;
+}
+
 }  // namespace
 
 RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h, double level) {
@@ -237,11 +367,14 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
   r.raw_scatter = r.consistency_factor * scale_both_sides(best.cov, s.scale);
   r.raw_log_det = best.log_det + 2.0 * s.scale.array().log().sum();
   // Distances are affine invariant: compute them on the standardised data.
+  // They set the reweighting flags and RobustFit::raw_d2/robust_d2; the
+  // distances users score rows with come from MahalanobisScorer (scoring.hpp)
+  // on the returned location and scatter, not from here.
   const DataView zv = make_view(s.z);
   CholeskyFactor raw_chol;
   if (!raw_chol.compute(r.consistency_factor * best.cov))
     throw Error(ErrorKind::Singular, "MCD: raw scatter is not positive definite (internal error)");
-  r.raw_d2 = raw_chol.squared_distances(zv, best.mean);
+  r.raw_d2 = centred_distances(s.z, best.mean, raw_chol);
   const double cutoff = chi2_quantile(level, static_cast<double>(p));
   r.outlier.assign(static_cast<std::size_t>(n), false);
   Eigen::VectorXd w(n);
@@ -259,7 +392,7 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
       r.reweighted = true;
       r.location = s.centre + s.scale.cwiseProduct(acc.mean());
       r.scatter = scale_both_sides(cov_z, s.scale);
-      r.robust_d2 = chol.squared_distances(zv, acc.mean());
+      r.robust_d2 = centred_distances(s.z, acc.mean(), chol);
     }
   }
   if (!r.reweighted) {

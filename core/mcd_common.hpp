@@ -108,7 +108,12 @@ void report_progress(const ProgressCallback& cb, const char* stage, double fract
 // Input checks common to MCD and DetMCD (need_more_rows: n > p demanded).
 void check_input(DataView x, double alpha, bool need_more_rows, const char* method);
 
-// Column-wise robust standardisation z = (x - centre) / scale.
+// Column-wise robust standardisation z = (x - centre) / scale: centre = the
+// column median; scale = the MAD (times 1/Phi^-1(3/4), as mad()) or Qn; when
+// that is 0 (more than half the values coincide) the root mean square about
+// the mean; when that is 0 too (a constant column) 1. Each median and MAD is
+// one selection (order_statistics.hpp) on the column, and the median is found
+// once per column; the values equal median() and mad() of robust_scale.hpp.
 enum class ColumnScale { Mad, Qn };
 struct Standardised {
   Eigen::MatrixXd z;
@@ -127,24 +132,68 @@ struct SubsetFit {
   double log_det = 0.0;  // -inf when singular
   bool singular = false;
 };
+// Two passes (mean, then the centred cross-products): the most accurate form,
+// for starts and final fits.
 SubsetFit fit_subset(const Eigen::MatrixXd& z, std::vector<Index> rows);
 
-// d2_i = |L^-1 (z_i - mean)|^2 for every row of z under a nonsingular fit,
-// into d2 (resized), in row chunks with one small GEMM each.
-void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, Eigen::VectorXd& d2);
+// Scratch memory of the C-steps. One lives for a whole fit, so that once the
+// sizes are reached no C-step allocates O(n) memory. It carries no state
+// between calls beyond buffer capacity: results never depend on its history.
+struct CStepWorkspace {
+  Eigen::MatrixXd linv_t, y;  // L^-T of the fit; one chunk of whitened rows
+  Eigen::VectorXd shift, d2;  // L^-1 mean; squared distances of all rows
+  std::vector<double> select;  // order-statistic scratch
+  std::vector<Index> below, rows, tied;
+  Eigen::MatrixXd g, g2;  // gathered, shifted rows
+  std::vector<Index> enter, leave;
+};
 
-// The h rows with the smallest d2, ascending by row. Rows tied at the cut are
-// taken in lexicographic order of their values, so the chosen set does not
-// depend on row order (identical rows are interchangeable).
+// Cholesky factor, L^-1, log-determinant and exact-fit test of a fit whose
+// mean and covariance are set.
+void factor_fit(SubsetFit& f);
+
+// The fit of the rows f.rows (ascending, set by the caller) in one pass:
+// chunks of rows gathered into w, shifted by the subset's first row (so that no
+// large common offset cancels) and accumulated by rank updates. Depends only on
+// the set of rows. Agrees with fit_subset() to rounding.
+void fit_rows(const Eigen::MatrixXd& z, SubsetFit& f, CStepWorkspace& w);
+
+// The fit of f.rows (set by the caller, ascending, as many rows as old) as an
+// update of the fit `old` of another subset: with D = rows entering, E = rows
+// leaving and m the old mean, sum_new (z-m)(z-m)' = k cov_old + sum_D (z-m)(z-m)'
+// - sum_E (z-m)(z-m)', then the shift to the new mean. Work grows with
+// |D| + |E|, not with the subset size. Returns false (f untouched) when old
+// is singular, the sizes differ, no row changed, or more than 1/8 of the rows
+// changed (a recomputation is then as cheap and more accurate). Agrees with fit_rows() to rounding that grows
+// with the number of chained updates.
+bool update_fit(const Eigen::MatrixXd& z, const SubsetFit& old, SubsetFit& f, CStepWorkspace& w);
+
+// d2_i = |L^-1 z_i - L^-1 mean|^2 for every row of z under a nonsingular fit,
+// into w.d2: chunks of rows times L^-T (one small GEMM each, faster than
+// triangular solves at small p), then the shift per column. For choosing rows;
+// the distances reported in a RobustFit are computed with centring first.
+void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, CStepWorkspace& w);
+
+// The h rows with the smallest d2, ascending by row, into w.rows (d2 may be
+// w.d2). Rows tied at the cut are taken in lexicographic order of their
+// values, so the chosen set does not depend on row order (identical rows are
+// interchangeable).
+void smallest_h_into(const Eigen::VectorXd& d2, Index h, const Eigen::MatrixXd& z, CStepWorkspace& w);
+// The same, returning the rows (allocates its own scratch).
 std::vector<Index> smallest_h(const Eigen::VectorXd& d2, Index h, const Eigen::MatrixXd& z);
 
 // One C-step (Rousseeuw & Van Driessen 1999): distances of all rows of z under
-// fit, the h smallest, their mean and covariance. Returns false when the
-// subset did not change (a fixed point). fit must not be singular.
-bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit);
+// fit, the h smallest, their mean and covariance (updated from the current fit
+// when few rows changed). Returns false when the subset did not change (a
+// fixed point) or the determinant would rise (rounding between subsets of
+// equal determinant). fit must not be singular; a singular new fit is always
+// recomputed from its rows before it is accepted.
+bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, CStepWorkspace& w);
 
 // C-steps until the subset repeats, the fit turns singular, or max_steps.
-// Returns the number of steps taken.
+// Returns the number of steps taken. A fit changed by the steps is recomputed
+// from its rows by fit_subset() at the end, so that it depends only on the set
+// of rows and not on the path of updates.
 int c_steps_to_convergence(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, int max_steps);
 
 // A singular subset fit found on some stage's rows z_stage (a group, a pool or

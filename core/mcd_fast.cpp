@@ -1,11 +1,7 @@
 #include "mcd_fast.hpp"
 
-#include <Eigen/Eigenvalues>
-
 #include <algorithm>
-#include <boost/math/distributions/normal.hpp>
 #include <cmath>
-#include <iterator>
 #include <limits>
 #include <numeric>
 #include <optional>
@@ -67,276 +63,6 @@ void keep_best(std::vector<Candidate>& c, int keep) {
 }
 
 
-// ---------------------------------------------------------------------------
-// Per-fit workspace and the C-step used by every stage. Buffers live for one
-// fast_mcd() call, so no C-step allocates once the sizes are reached.
-
-// Order statistics k-1 and k (0-based, k >= 1; `below` = value k-1, `at` =
-// value k) of v[0..n) without reordering v. Order statistics are unique
-// values, so the answer equals that of std::nth_element on a copy; only the
-// work differs. Large inputs: a deterministic strided sample brackets the
-// k-th value (Floyd & Rivest 1975, "Expected time bounds for selection"), one
-// pass counts the values under the bracket (keeping their maximum) and copies
-// those inside it, and std::nth_element finishes on that small remainder.
-// When the sample misleads (the k-th value falls outside the bracket), the
-// full copy is selected instead: slower, never wrong.
-struct OrderPair {
-  double below, at;
-};
-OrderPair order_statistics(const double* v, Index n, Index k, std::vector<double>& buf) {
-  constexpr Index kSmall = 8192;
-  const auto on_copy = [&]() {
-    buf.assign(v, v + n);
-    const auto kth = buf.begin() + k;
-    std::nth_element(buf.begin(), kth, buf.begin() + n);
-    return OrderPair{*std::max_element(buf.begin(), kth), *kth};
-  };
-  if (n <= kSmall) return on_copy();
-  constexpr Index kSample = 2048;
-  buf.resize(static_cast<std::size_t>(n + kSample));
-  double* sample = buf.data() + n;
-  for (Index i = 0; i < kSample; ++i) sample[i] = v[(i * n) / kSample];
-  // Rank of the k-th value inside the sample, +- 4 binomial standard deviations.
-  const double q = (static_cast<double>(k) + 0.5) / static_cast<double>(n);
-  const Index r = static_cast<Index>(q * kSample);
-  const Index gap = 8 + static_cast<Index>(4.0 * std::sqrt(kSample * q * (1.0 - q)));
-  const double inf = std::numeric_limits<double>::infinity();
-  double lo = -inf, hi = inf;
-  Index from = 0;
-  if (r - gap >= 0) {
-    std::nth_element(sample, sample + (r - gap), sample + kSample);
-    lo = sample[r - gap];
-    from = r - gap + 1;
-  }
-  if (r + gap < kSample) {
-    std::nth_element(sample + from, sample + (r + gap), sample + kSample);
-    hi = sample[r + gap];
-  }
-  Index under = 0, inside = 0;
-  double* keep = buf.data();
-  for (Index i = 0; i < n; ++i) {  // branch-free: the tests are unpredictable
-    const double x = v[i];
-    keep[inside] = x;
-    under += x < lo;
-    inside += (x >= lo) & (x <= hi);
-  }
-  if (k < under || k >= under + inside) return on_copy();
-  double* kth = keep + (k - under);
-  std::nth_element(keep, kth, keep + inside);
-  if (kth != keep) return {*std::max_element(keep, kth), *kth};
-  double under_max = -inf;  // rare: value k-1 lies under the bracket
-  for (Index i = 0; i < n; ++i)
-    if (v[i] < lo) under_max = std::max(under_max, v[i]);
-  return {under_max, *kth};
-}
-
-// Median as robust_scale's median(): the middle order statistic, or the
-// midpoint of the two middle ones written so that it cannot overflow.
-double median_of(const double* v, Index n, std::vector<double>& buf) {
-  if (n == 1) return v[0];
-  const OrderPair m = order_statistics(v, n, n / 2, buf);
-  if (n % 2 == 1) return m.at;
-  return m.below + (m.at - m.below) / 2.0;
-}
-
-// mcd_detail::standardise(x, ColumnScale::Mad) with the same values: median
-// and MAD (normal-consistent) per column, the root mean square about the mean
-// when the MAD is 0, and 1 for a constant column. Faster only because each
-// order statistic is found by order_statistics() and the median is not computed
-// twice per column.
-mcd_detail::Standardised standardise_mad(DataView x) {
-  const Index n = x.rows(), p = x.cols();
-  mcd_detail::Standardised s;
-  s.centre.resize(p);
-  s.scale.resize(p);
-  s.z.resize(n, p);
-  const double q75 = boost::math::quantile(boost::math::normal_distribution<double>(), 0.75);
-  Eigen::VectorXd col, dev;
-  std::vector<double> buf;
-  for (Index j = 0; j < p; ++j) {
-    col = x.col(j);
-    const double m = median_of(col.data(), n, buf);
-    dev = (col.array() - m).abs();
-    double sc = median_of(dev.data(), n, buf) / q75;
-    if (!(sc > 0.0)) sc = std::sqrt((col.array() - col.mean()).square().mean());
-    if (!(sc > 0.0)) {
-      sc = 1.0;
-      if (s.constant_column < 0) s.constant_column = j;
-    }
-    s.centre(j) = m;
-    s.scale(j) = sc;
-    s.z.col(j) = (col.array() - m) / sc;
-  }
-  return s;
-}
-
-struct StepWork {
-  Eigen::MatrixXd linv_t, y;  // L^-T of the fit; one chunk of whitened rows
-  Eigen::VectorXd shift, d2;  // L^-1 mean; squared distances
-  std::vector<double> select;
-  std::vector<Index> below, rows, tied;
-  Eigen::MatrixXd g, g2;  // gathered, shifted rows
-  std::vector<Index> enter, leave;
-};
-
-// d2_i = |L^-1 z_i - L^-1 mean|^2 for every row: chunks of rows times L^-T
-// straight from z (one GEMM each, no centred copy), then the shift per column.
-void distances(const Eigen::MatrixXd& z, const SubsetFit& fit, StepWork& w) {
-  const Index n = z.rows(), p = z.cols();
-  constexpr Index kChunk = 1024;  // rows; a chunk of y stays in cache
-  w.linv_t = fit.linv.transpose();
-  w.shift.noalias() = fit.linv * fit.mean;
-  w.d2.resize(n);
-  w.y.resize(std::min(kChunk, n), p);
-  for (Index s = 0; s < n; s += kChunk) {
-    const Index m = std::min(kChunk, n - s);
-    auto y = w.y.topRows(m);
-    y.noalias() = z.middleRows(s, m) * w.linv_t;
-    auto d = w.d2.segment(s, m).array();
-    d = (y.col(0).array() - w.shift(0)).square();
-    for (Index j = 1; j < p; ++j) d += (y.col(j).array() - w.shift(j)).square();
-  }
-}
-
-// mcd_detail::smallest_h() with the same output (the h smallest d2, ascending
-// by row, ties at the cut broken by the rows' values), into w.rows.
-void smallest_h_into(const Eigen::VectorXd& d2, Index h, const Eigen::MatrixXd& z, StepWork& w) {
-  const Index n = d2.size();
-  const double cut = h == 1 ? d2.minCoeff() : order_statistics(d2.data(), n, h - 1, w.select).at;
-  if (w.below.size() < static_cast<std::size_t>(n) + 1) w.below.resize(static_cast<std::size_t>(n) + 1);
-  std::size_t below = 0;
-  for (Index i = 0; i < n; ++i) {  // branch-free collection of the rows below the cut
-    w.below[below] = i;
-    below += d2(i) < cut;
-  }
-  w.rows.assign(w.below.begin(), w.below.begin() + static_cast<std::ptrdiff_t>(below));
-  const std::size_t need = static_cast<std::size_t>(h) - below;
-  w.tied.clear();
-  for (Index i = 0; i < n; ++i)
-    if (d2(i) == cut) w.tied.push_back(i);
-  if (w.tied.size() > need) {
-    // Ties at the cut are broken by the values of the rows, not by row order.
-    std::sort(w.tied.begin(), w.tied.end(), [&z](Index a, Index b) {
-      for (Index j = 0; j < z.cols(); ++j)
-        if (z(a, j) != z(b, j)) return z(a, j) < z(b, j);
-      return a < b;
-    });
-    w.tied.resize(need);
-    std::sort(w.tied.begin(), w.tied.end());
-  }
-  const auto mid = static_cast<std::ptrdiff_t>(w.rows.size());
-  w.rows.insert(w.rows.end(), w.tied.begin(), w.tied.end());
-  std::inplace_merge(w.rows.begin(), w.rows.begin() + mid, w.rows.end());
-}
-
-void factor_fit(SubsetFit& f);
-
-// mcd_detail::fit_subset() in one pass over the rows: chunks of rows are
-// gathered, shifted by the subset's first row (so that no large common offset
-// cancels) and accumulated by a rank update; the mean and covariance follow
-// from the shifted sums. The result depends only on the set of rows, so two
-// candidates holding the same subset get the same determinant. Same
-// positive-definiteness and exact-fit tests as fit_subset().
-SubsetFit fit_rows(const Eigen::MatrixXd& z, const std::vector<Index>& rows, StepWork& w) {
-  const Index k = static_cast<Index>(rows.size()), p = z.cols();
-  constexpr Index kChunk = 256;
-  SubsetFit f;
-  f.rows = rows;
-  const Eigen::RowVectorXd shift = z.row(rows.front());
-  Eigen::RowVectorXd sum = Eigen::RowVectorXd::Zero(p);
-  Eigen::MatrixXd cross = Eigen::MatrixXd::Zero(p, p);
-  w.g.resize(std::min(kChunk, k), p);
-  for (Index s = 0; s < k; s += kChunk) {
-    const Index m = std::min(kChunk, k - s);
-    auto g = w.g.topRows(m);
-    for (Index j = 0; j < p; ++j) {
-      const double* src = z.col(j).data();
-      const double sj = shift(j);
-      double* dst = g.col(j).data();
-      for (Index i = 0; i < m; ++i) dst[i] = src[rows[static_cast<std::size_t>(s + i)]] - sj;
-    }
-    sum += g.colwise().sum();
-    cross.selfadjointView<Eigen::Lower>().rankUpdate(g.transpose());
-  }
-  const Eigen::RowVectorXd d = sum / static_cast<double>(k);  // mean - shift
-  f.mean = (shift + d).transpose();
-  f.cov = cross / static_cast<double>(k);
-  f.cov.selfadjointView<Eigen::Lower>().rankUpdate(d.transpose(), -1.0);
-  f.cov = f.cov.selfadjointView<Eigen::Lower>();
-  factor_fit(f);
-  return f;
-}
-
-// Cholesky factor, L^-1, determinant and exact-fit test of a fit whose mean
-// and covariance are set (as at the end of fit_subset()).
-void factor_fit(SubsetFit& f) {
-  const Index p = f.cov.rows();
-  bool regular = f.chol.compute(f.cov);
-  // As fit_subset(): lambda_min >= 1 / |L^-1|_F^2 clears most subsets cheaply.
-  if (regular) {
-    f.linv = f.chol.lower().triangularView<Eigen::Lower>().solve(Eigen::MatrixXd::Identity(p, p));
-    if (!(1.0 / f.linv.squaredNorm() > mcd_detail::kExactFitEigenvalue)) {
-      Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(f.cov, Eigen::EigenvaluesOnly);
-      regular = es.eigenvalues()(0) > mcd_detail::kExactFitEigenvalue;
-    }
-  }
-  f.singular = !regular;
-  f.log_det = regular ? f.chol.log_determinant() : -std::numeric_limits<double>::infinity();
-}
-
-// The fit of `rows` from the fit `old` of another subset of the same size
-// that shares most rows: with D = rows entering, E = rows leaving and m the
-// old mean, sum_new (z-m)(z-m)' = k cov_old + sum_D (z-m)(z-m)' - sum_E (z-m)(z-m)',
-// then the shift to the new mean. Work grows with |D| + |E|, not with k, which
-// is what makes the many late C-steps on the full data cheap (they move a
-// few rows). Returns false (and leaves f alone) when the update is not worth it.
-bool update_fit(const Eigen::MatrixXd& z, const SubsetFit& old, const std::vector<Index>& rows,
-                StepWork& w, SubsetFit& f) {
-  const Index k = static_cast<Index>(rows.size()), p = z.cols();
-  if (old.singular || static_cast<Index>(old.rows.size()) != k) return false;
-  w.enter.clear();
-  w.leave.clear();
-  std::set_difference(rows.begin(), rows.end(), old.rows.begin(), old.rows.end(), std::back_inserter(w.enter));
-  std::set_difference(old.rows.begin(), old.rows.end(), rows.begin(), rows.end(), std::back_inserter(w.leave));
-  const Index changed = static_cast<Index>(w.enter.size() + w.leave.size());
-  if (changed == 0 || changed > k / 8) return false;
-  auto gather = [&](const std::vector<Index>& r, Eigen::MatrixXd& g) {
-    g.resize(static_cast<Index>(r.size()), p);
-    for (Index j = 0; j < p; ++j)
-      for (std::size_t i = 0; i < r.size(); ++i) g(static_cast<Index>(i), j) = z(r[i], j) - old.mean(j);
-  };
-  gather(w.enter, w.g);
-  gather(w.leave, w.g2);
-  Eigen::MatrixXd cross = static_cast<double>(k) * old.cov;
-  cross.selfadjointView<Eigen::Lower>().rankUpdate(w.g.transpose());
-  cross.selfadjointView<Eigen::Lower>().rankUpdate(w.g2.transpose(), -1.0);
-  const Eigen::RowVectorXd d = (w.g.colwise().sum() - w.g2.colwise().sum()) / static_cast<double>(k);
-  f.rows = rows;
-  f.mean = old.mean + d.transpose();
-  f.cov = cross / static_cast<double>(k);
-  f.cov.selfadjointView<Eigen::Lower>().rankUpdate(d.transpose(), -1.0);
-  f.cov = f.cov.selfadjointView<Eigen::Lower>();
-  factor_fit(f);
-  return true;
-}
-
-// One C-step (Rousseeuw & Van Driessen 1999, Theorem 1), as mcd_detail::c_step:
-// false when the subset repeats (a fixed point) or the determinant would rise
-// (rounding between equal-determinant subsets).
-bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, StepWork& w) {
-  distances(z, fit, w);
-  smallest_h_into(w.d2, h, z, w);
-  if (w.rows == fit.rows) return false;
-  // Few rows changed: update the fit; a singular update is recomputed from
-  // the rows so that exact fits are judged as fit_subset() judges them.
-  SubsetFit next;
-  if (!update_fit(z, fit, w.rows, w, next) || next.singular) next = fit_rows(z, w.rows, w);
-  if (!next.singular && static_cast<Index>(fit.rows.size()) == h && next.log_det > fit.log_det)
-    return false;
-  fit = std::move(next);
-  return true;
-}
-
 // The search state shared by the stages.
 struct Search {
   const Eigen::MatrixXd& z;  // standardised full data
@@ -346,7 +72,7 @@ struct Search {
   int iterations = 0;
   int starts = 0;
   std::optional<SubsetFit> exact;  // set once an exact fit of the full data is found
-  StepWork work;
+  mcd_detail::CStepWorkspace work;  // buffers for every C-step of this fit
 };
 
 // A singular fit on stage rows: an exact fit of the whole problem if h rows
@@ -393,7 +119,7 @@ std::vector<Candidate> run_starts(Search& s, const Eigen::MatrixXd& zs, Index hs
     if (!f) continue;
     for (int step = 0; step < s.opt.initial_csteps && !f->singular; ++step) {
       ++s.iterations;
-      if (!c_step(zs, hs, *f, s.work)) break;
+      if (!mcd_detail::c_step(zs, hs, *f, s.work)) break;
     }
     if (f->singular) {
       note_singular(s, zs, *f);
@@ -426,7 +152,7 @@ void refine(Search& s, const Eigen::MatrixXd& zs, Index hs, std::vector<Candidat
     for (std::size_t k = 0; k < c.size(); ++k) {
       if (done[k]) continue;
       ++s.iterations;
-      const bool changed = c_step(zs, hs, c[k].fit, s.work);
+      const bool changed = mcd_detail::c_step(zs, hs, c[k].fit, s.work);
       if (c[k].fit.singular) {
         note_singular(s, zs, c[k].fit);
         done[k] = dropped[k] = 1;
@@ -471,7 +197,7 @@ RobustFit univariate_mcd(DataView x, double alpha, double reweight_level) {
   if (x.cols() != 1) throw Error(ErrorKind::Shape, "univariate MCD: data must have one column");
   const Index n = x.rows();
   const Index h = mcd_subset_size(n, 1, alpha);
-  const mcd_detail::Standardised s = standardise_mad(x);
+  const mcd_detail::Standardised s = mcd_detail::standardise(x, mcd_detail::ColumnScale::Mad);
   std::vector<Index> order(static_cast<std::size_t>(n));
   std::iota(order.begin(), order.end(), Index{0});
   const Eigen::VectorXd y0 = s.z.col(0);
@@ -537,7 +263,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   if (p == 1) return univariate_mcd(x, opt.alpha, opt.reweight_level);
   const Index h = mcd_subset_size(n, p, opt.alpha);
   mcd_detail::report_progress(opt.progress, "standardise", 0.0);
-  const mcd_detail::Standardised st = standardise_mad(x);
+  const mcd_detail::Standardised st = mcd_detail::standardise(x, mcd_detail::ColumnScale::Mad);
   if (st.constant_column >= 0) return mcd_detail::constant_column_result(x, st, h);
 
   std::vector<Index> all(static_cast<std::size_t>(n));
@@ -591,7 +317,9 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
     // The winner's fit may come from updates (update_fit): report the fit
     // computed from its rows.
     if (!cands.empty()) {
-      SubsetFit fresh = fit_rows(st.z, cands.front().fit.rows, s.work);
+      SubsetFit fresh;
+      fresh.rows = cands.front().fit.rows;
+      mcd_detail::fit_rows(st.z, fresh, s.work);
       if (fresh.singular)
         note_singular(s, st.z, fresh);
       else
