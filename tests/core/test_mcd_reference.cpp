@@ -108,10 +108,18 @@ TEST(McdReference, StacklossReachesExhaustiveOptimum) {
 // optimum every time. DetMCD (six deterministic starts, no guarantee of the
 // global optimum) may never go below it and must reach it in most cases:
 // measured 23 of 40 when this test was written; demand at least 20.
+// Unoptimised builds (the sanitizer pass of CI) enumerate 3 seeds per p: the
+// enumeration alone takes minutes there, and the optimised `make test` runs
+// all 40 sets and the DetMCD count.
+#ifdef __OPTIMIZE__
+constexpr std::uint64_t kExhaustiveSeeds = 20;
+#else
+constexpr std::uint64_t kExhaustiveSeeds = 3;
+#endif
 TEST(McdReference, InventedSmallSetsReachExhaustiveOptimum) {
   int det_reached = 0, total = 0;
   for (Index p = 2; p <= 3; ++p)
-    for (std::uint64_t seed = 1; seed <= 20; ++seed) {
+    for (std::uint64_t seed = 1; seed <= kExhaustiveSeeds; ++seed) {
       const Index n = p == 2 ? 20 : 18;
       Eigen::MatrixXd x = mcd_test::normal_data(n, p, seed);
       x.col(1) += 0.6 * x.col(0);
@@ -133,5 +141,6 @@ TEST(McdReference, InventedSmallSetsReachExhaustiveOptimum) {
         EXPECT_NEAR(fast_mcd(make_view(x), o).raw_log_det, mcd_test::exhaustive_min_log_det(x, h75), 1e-9);
       }
     }
-  EXPECT_GE(det_reached, 20) << "DetMCD reached the optimum in " << det_reached << " of " << total;
+  if (kExhaustiveSeeds == 20)
+    EXPECT_GE(det_reached, 20) << "DetMCD reached the optimum in " << det_reached << " of " << total;
 }
