@@ -53,17 +53,14 @@ double oas_intensity(double trace_s2, double trace_s, double spread, double n, d
 
 }  // namespace
 
+// The shape and row-count checks are shrinkage_from_moments'; only the
+// finiteness of the raw data must be checked here.
 ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method) {
-  const Index n = x.rows(), p = x.cols();
-  if (p < 1) throw Error(ErrorKind::Shape, "shrinkage estimate: no columns");
-  if (n < 2)
-    throw Error(ErrorKind::Data, "shrinkage estimate: needs at least 2 rows, got " + std::to_string(n));
   require_finite(x, "shrinkage estimate");
-
-  MomentAccumulator acc(p);
+  MomentAccumulator acc(x.cols());
   acc.add(x);
   const double fourth = method == ShrinkageMethod::LedoitWolf ? sum_fourth_powers_of_norms(x, acc.mean()) : 0.0;
-  return shrinkage_from_moments(n, acc.mean(), acc.cross_products(), fourth, method);
+  return shrinkage_from_moments(x.rows(), acc.mean(), acc.cross_products(), fourth, method);
 }
 
 ShrinkageEstimate shrinkage_from_moments(Index n, const Eigen::VectorXd& mean, const Eigen::MatrixXd& cross_products,

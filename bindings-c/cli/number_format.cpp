@@ -1,5 +1,7 @@
 #include "number_format.hpp"
 
+#include "exact_powers_of_ten.hpp"
+
 #include <charconv>
 #include <cmath>
 #include <cstdint>
@@ -8,10 +10,6 @@
 namespace ellipsa::cli {
 namespace {
 
-// Powers of ten that doubles hold exactly (10^22 is the largest).
-constexpr double kExactPow10[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
-                                  1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
-constexpr int kMaxExactPow10 = 22;
 constexpr std::uint64_t kIntPow10[] = {1ULL,
                                        10ULL,
                                        100ULL,

@@ -1,5 +1,7 @@
 #include "number_parse.hpp"
 
+#include "exact_powers_of_ten.hpp"
+
 #include <array>
 #include <charconv>
 #include <cmath>
@@ -59,8 +61,6 @@ double out_of_range_value(std::string_view s) noexcept {
   return negative ? -magnitude : magnitude;
 }
 
-constexpr double kExactPow10[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
-                                  1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
 
 // The common cell, [-]digits[.digits] with at most 15 digits in all, read
 // exactly without std::from_chars: the digits form an integer below 10^15 <

@@ -1,5 +1,6 @@
-// Small helpers for the contract tests: RAII for handles, seeded data, and a
-// reader for the plain numeric reference CSV files.
+// Small helpers for the contract tests: RAII for handles, caller buffers for
+// every score output, seeded data, and a reader for the plain numeric
+// reference CSV files.
 #pragma once
 #include <cmath>
 #include <cstdint>
@@ -28,6 +29,31 @@ inline Options options(ellipsa_method m) {
   if (ellipsa_fit_options_create(&o, m) != ELLIPSA_OK) return nullptr;
   return Options(o);
 }
+
+// Buffers for every output of ellipsa_model_score on n rows of p columns
+// (mixture outputs for k components), and `scores` pointing at all of them.
+// Not copyable: `scores` holds pointers into the vectors.
+struct ScoreBuffers {
+  std::vector<double> d2, p_value, contribution, conditional_drop, membership, log_density;
+  std::vector<int32_t> flag, observed, component, low_density;
+  ellipsa_scores scores = ELLIPSA_SCORES_INIT;
+  ScoreBuffers(int64_t n, int64_t p, int64_t k = 1)
+      : d2(n), p_value(n), contribution(n * p), conditional_drop(n * p), membership(n * k), log_density(n),
+        flag(n), observed(n), component(n), low_density(n) {
+    scores.squared_distance = d2.data();
+    scores.p_value = p_value.data();
+    scores.flag = flag.data();
+    scores.observed = observed.data();
+    scores.contribution = contribution.data();
+    scores.conditional_drop = conditional_drop.data();
+    scores.component = component.data();
+    scores.membership = membership.data();
+    scores.log_density = log_density.data();
+    scores.low_density = low_density.data();
+  }
+  ScoreBuffers(const ScoreBuffers&) = delete;
+  ScoreBuffers& operator=(const ScoreBuffers&) = delete;
+};
 
 // Row-major n x p with correlated normal columns and a location offset.
 inline std::vector<double> correlated_rows(int64_t n, int64_t p, uint64_t seed, double offset = 0.0) {

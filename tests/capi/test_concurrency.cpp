@@ -111,23 +111,12 @@ Outcome observe(const ellipsa_model* m, const std::vector<double>& rows) {
     append_bytes(r.bytes, weight);
   }
   const int64_t n = kScoreRows;
-  std::vector<double> d2(n), pv(n), contrib(n * kCols), drop(n * kCols), member(n * components), logd(n);
-  std::vector<int32_t> flag(n), observed(n), comp(n), low(n);
-  ellipsa_scores s = ELLIPSA_SCORES_INIT;
-  s.squared_distance = d2.data();
-  s.p_value = pv.data();
-  s.flag = flag.data();
-  s.observed = observed.data();
-  s.contribution = contrib.data();
-  s.conditional_drop = drop.data();
-  s.component = comp.data();
-  s.membership = member.data();
-  s.log_density = logd.data();
-  s.low_density = low.data();
+  ScoreBuffers b(n, kCols, components);
   const ellipsa_matrix v = ellipsa_matrix_row_major(rows.data(), n, kCols);
-  r.score_status = ellipsa_model_score(&s, m, &v, 0.975);
-  for (const auto* d : {&d2, &pv, &contrib, &drop, &member, &logd}) append_bytes(r.bytes, *d);
-  for (const auto* i : {&flag, &observed, &comp, &low}) append_bytes(r.bytes, *i);
+  r.score_status = ellipsa_model_score(&b.scores, m, &v, 0.975);
+  for (const auto* d : {&b.d2, &b.p_value, &b.contribution, &b.conditional_drop, &b.membership, &b.log_density})
+    append_bytes(r.bytes, *d);
+  for (const auto* i : {&b.flag, &b.observed, &b.component, &b.low_density}) append_bytes(r.bytes, *i);
   return r;
 }
 
