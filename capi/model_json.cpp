@@ -9,6 +9,7 @@
 #include "boundary.hpp"
 #include "core/error.hpp"
 #include "model.hpp"
+#include "options.hpp"
 
 using ellipsa::capi::guard;
 using ellipsa::capi::Misuse;
@@ -26,21 +27,8 @@ constexpr int64_t kMaxBytes = int64_t{1} << 30;
 constexpr int kMaxDepth = 16;
 constexpr int64_t kMaxDimension = 100000;
 
-const char* structure_name(int32_t s) {
-  switch (s) {
-    case ELLIPSA_STRUCTURE_FULL: return "full";
-    case ELLIPSA_STRUCTURE_DIAGONAL: return "diagonal";
-    case ELLIPSA_STRUCTURE_TIED: return "tied";
-    case ELLIPSA_STRUCTURE_SPHERICAL: return "spherical";
-  }
-  return "unknown";
-}
-
-int32_t structure_from_name(const std::string& s) {
-  for (int32_t v = ELLIPSA_STRUCTURE_FULL; v <= ELLIPSA_STRUCTURE_SPHERICAL; ++v)
-    if (s == structure_name(v)) return v;
-  return 0;
-}
+int32_t structure_from_name(const std::string& s) { return ellipsa::capi::structure_from_name(s, false); }
+using ellipsa::capi::structure_name;
 
 json vector_json(const Eigen::VectorXd& v) {
   json a = json::array();

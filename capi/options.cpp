@@ -46,6 +46,24 @@ bool method_from_name(const char* name, ellipsa_method* out) {
     }
   return false;
 }
+const char* structure_name(int32_t structure) {
+  switch (structure) {
+    case ELLIPSA_STRUCTURE_FULL: return "full";
+    case ELLIPSA_STRUCTURE_DIAGONAL: return "diagonal";
+    case ELLIPSA_STRUCTURE_TIED: return "tied";
+    case ELLIPSA_STRUCTURE_SPHERICAL: return "spherical";
+    case ELLIPSA_STRUCTURE_ALL: return "all";
+  }
+  return "unknown";
+}
+
+int32_t structure_from_name(const std::string& name, bool allow_all) {
+  const int32_t last = allow_all ? ELLIPSA_STRUCTURE_ALL : ELLIPSA_STRUCTURE_SPHERICAL;
+  for (int32_t v = ELLIPSA_STRUCTURE_FULL; v <= last; ++v)
+    if (name == structure_name(v)) return v;
+  return 0;
+}
+
 }  // namespace ellipsa::capi
 
 namespace {

@@ -27,4 +27,8 @@ struct ellipsa_fit_options {
 
 namespace ellipsa::capi {
 bool is_known_method(ellipsa_method m);
+// "full", "diagonal", "tied", "spherical", "all" (ELLIPSA_STRUCTURE_ALL), or "unknown".
+const char* structure_name(int32_t structure);
+// The ELLIPSA_STRUCTURE_ value of a name, or 0; "all" only when allow_all.
+int32_t structure_from_name(const std::string& name, bool allow_all);
 }

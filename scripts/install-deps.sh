@@ -15,6 +15,7 @@ packages=(
   clang libclang-rt-14-dev       # fuzz targets (libFuzzer)
   chromium                       # renders the HTML report in its end-to-end test
   abi-compliance-checker universal-ctags  # ABI check (scripts/check-abi.sh)
+  gnumeric gnumeric-plugins-extra         # spreadsheet host and its Python plugin loader (sheet test)
 )
 
 missing=()

@@ -858,6 +858,245 @@ ELLIPSA_API ellipsa_status ellipsa_model_load(ellipsa_model **out, const char *t
                                               int64_t length);
 /** @} */
 
+/* ======================================================================== */
+/** @name Sheet functions
+ *  A catalog of functions for spreadsheet hosts, described by the library
+ *  itself, and one entry point that evaluates any of them on cell-like
+ *  inputs. A host adapter reads the catalog (names, help, arguments, result
+ *  shapes), registers every function with its host, and on each call converts
+ *  the cells into ::ellipsa_sheet_value arguments, asks for the result shape,
+ *  and evaluates into an array of ::ellipsa_sheet_cell. It holds no code per
+ *  function: a function added to the catalog appears in every host.
+ *
+ *  Sheet semantics, the same in every host:
+ *  - A range is a matrix view with NaN for blank cells; text and error cells
+ *    are NaN too and are marked in the value's cell_kind mask.
+ *  - Fits use the complete rows of their range (rows with blank, text or error
+ *    cells are left out). Scored rows with blanks are scored on their observed
+ *    cells; a row with a text or error cell gets ::ELLIPSA_SHEET_ERROR_VALUE in
+ *    that row only; a row with no observed cell stays empty.
+ *  - An optional argument that is ::ELLIPSA_SHEET_VALUE_ABSENT, or an empty
+ *    text, takes its default.
+ *  - A failure of the whole function (a misspelt option, ranges whose shapes
+ *    disagree, data a method cannot fit) is a status and a message naming the
+ *    argument; the adapter shows it as one error value.
+ *  Thread safety: the catalog is immutable; ellipsa_sheet_evaluate() may run
+ *  on any number of threads at once, sharing one ::ellipsa_sheet_cache.
+ *  @{ */
+/** Kind of a catalog argument, and of a value passed for it. */
+#define ELLIPSA_SHEET_VALUE_ABSENT 0 /**< A value: the optional argument was not given (default applies). */
+#define ELLIPSA_SHEET_ARG_RANGE 1    /**< A block of cells (a single number is a 1 x 1 range). */
+#define ELLIPSA_SHEET_ARG_NUMBER 2   /**< A number (a flag counts as 0/1; a text must read as a number). */
+#define ELLIPSA_SHEET_ARG_TEXT 3     /**< A short text, e.g. a method name (a number is read as its text). */
+#define ELLIPSA_SHEET_ARG_FLAG 4     /**< TRUE/FALSE (a number is true when non-zero). */
+
+/** How a catalog function's result is shaped (n rows and p columns of its first range). */
+#define ELLIPSA_SHEET_SHAPE_SCALAR 1     /**< One value. */
+#define ELLIPSA_SHEET_SHAPE_PER_ROW 2    /**< n x 1: one value per row of the first range. */
+#define ELLIPSA_SHEET_SHAPE_ROW_BLOCK 3  /**< n x q: several values per row (q = p, or K components). */
+#define ELLIPSA_SHEET_SHAPE_PER_COLUMN 4 /**< 1 x p: one value per column. */
+#define ELLIPSA_SHEET_SHAPE_SQUARE 5     /**< p x p. */
+#define ELLIPSA_SHEET_SHAPE_TABLE 6      /**< A table whose first row holds column titles. */
+
+/** What an input cell held, for the cell_kind mask of a range value. */
+#define ELLIPSA_SHEET_INPUT_NUMBER 0 /**< A number, or blank (then NaN in the view). */
+#define ELLIPSA_SHEET_INPUT_TEXT 1   /**< Text in a numeric range. */
+#define ELLIPSA_SHEET_INPUT_ERROR 2  /**< An error value of the host. */
+
+/** Type of a result cell. */
+#define ELLIPSA_SHEET_CELL_EMPTY 0  /**< Nothing to show (a blank row, or space beyond the result). */
+#define ELLIPSA_SHEET_CELL_NUMBER 1 /**< `number` holds the value. */
+#define ELLIPSA_SHEET_CELL_TEXT 2   /**< `text` holds the value (table titles and names). */
+#define ELLIPSA_SHEET_CELL_ERROR 3  /**< `error` says which error value to show. */
+
+/** Error value of a result cell, as spreadsheets name them. */
+#define ELLIPSA_SHEET_ERROR_VALUE 1 /**< "#VALUE!": the row holds text or an error value. */
+#define ELLIPSA_SHEET_ERROR_NUM 2   /**< "#NUM!": no finite result (e.g. a distance the scatter cannot give). */
+#define ELLIPSA_SHEET_ERROR_NA 3    /**< "#N/A": not applicable to this row or model. */
+
+/** Description of one catalog function. Grows only at the end. */
+typedef struct ellipsa_sheet_function_info {
+  int64_t struct_size;    /**< Set to sizeof(ellipsa_sheet_function_info) by the caller. */
+  const char *name;       /**< Upper-case name, e.g. "ELL.DIST2"; static. */
+  const char *category;   /**< Category for the host's function list; static. */
+  const char *help;       /**< One-line help; static. */
+  int32_t argument_count; /**< Number of arguments (required ones first). */
+  int32_t required_count; /**< Number of required arguments. */
+  int32_t result_shape;   /**< An ELLIPSA_SHEET_SHAPE_ value. */
+} ellipsa_sheet_function_info;
+
+/** Description of one argument of a catalog function. Grows only at the end. */
+typedef struct ellipsa_sheet_argument_info {
+  int64_t struct_size;      /**< Set to sizeof(ellipsa_sheet_argument_info) by the caller. */
+  const char *name;         /**< Lower-case name, e.g. "level"; static. */
+  const char *help;         /**< One-line help; static. */
+  int32_t kind;             /**< An ELLIPSA_SHEET_ARG_ value. */
+  int32_t optional;         /**< 1 when the argument may be left out. */
+  const char *default_text; /**< How the default reads (e.g. "0.975"); "" for required ones; static. */
+} ellipsa_sheet_argument_info;
+
+/**
+ * @brief Number of functions in the catalog.
+ * @param[out] count The count (>= 1).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL. Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_sheet_function_count(int32_t *count);
+
+/**
+ * @brief Describes catalog function `index`.
+ *
+ * Only the fields that fit in the caller's struct_size are written, so a
+ * caller compiled against an older, shorter struct keeps working.
+ * @param[out] out    The description; out->struct_size must be set and at least
+ *                    the size of the first version (up to result_shape).
+ * @param index       0 <= index < count.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (index);
+ *         ::ELLIPSA_ERR_SHAPE (struct_size too small). Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_sheet_function_describe(ellipsa_sheet_function_info *out,
+                                                           int32_t index);
+
+/**
+ * @brief Describes argument `argument` of catalog function `index`.
+ * @param[out] out  The description; out->struct_size must be set (at least the
+ *                  first version's size); only fields that fit are written.
+ * @param index     Function, 0 <= index < count.
+ * @param argument  0 <= argument < argument_count of that function.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (an index);
+ *         ::ELLIPSA_ERR_SHAPE (struct_size too small). Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_sheet_argument_describe(ellipsa_sheet_argument_info *out,
+                                                           int32_t index, int32_t argument);
+
+/**
+ * @brief Index of the catalog function with this name (case-insensitive).
+ * @param[out] index The index.
+ * @param name       NUL-terminated name, e.g. "ell.dist2".
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (no such
+ *         function; the message says so). Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_sheet_function_find(int32_t *index, const char *name);
+
+/**
+ * @brief One argument value as a host passes it. Grows only at the end.
+ *
+ * Only the member that `kind` names is read. The library reads the pointers
+ * during the call only.
+ */
+typedef struct ellipsa_sheet_value {
+  int64_t struct_size;       /**< sizeof(ellipsa_sheet_value) as the caller compiled it; the same in every element of an array. */
+  int32_t kind;              /**< ::ELLIPSA_SHEET_VALUE_ABSENT or an ELLIPSA_SHEET_ARG_ value. */
+  ellipsa_matrix range;      /**< RANGE: the cells, NaN for blank, text and error cells. */
+  const uint8_t *cell_kind;  /**< RANGE: NULL (all numbers or blank), or rows*cols bytes in row-major order, each an ELLIPSA_SHEET_INPUT_ value. */
+  double number;             /**< NUMBER and FLAG. */
+  const char *text;          /**< TEXT: NUL-terminated UTF-8. */
+} ellipsa_sheet_value;
+
+/** Initialiser for ::ellipsa_sheet_value: an absent argument. */
+#define ELLIPSA_SHEET_VALUE_INIT \
+  { (int64_t)sizeof(ellipsa_sheet_value), ELLIPSA_SHEET_VALUE_ABSENT, {NULL, 0, 0, 0, 0}, NULL, 0.0, NULL }
+
+/** One result cell. This struct does not grow: a new layout would be a new type. */
+typedef struct ellipsa_sheet_cell {
+  int32_t type;     /**< An ELLIPSA_SHEET_CELL_ value. */
+  int32_t error;    /**< For ::ELLIPSA_SHEET_CELL_ERROR: an ELLIPSA_SHEET_ERROR_ value; else 0. */
+  double number;    /**< For ::ELLIPSA_SHEET_CELL_NUMBER. */
+  const char *text; /**< For ::ELLIPSA_SHEET_CELL_TEXT: a static string owned by the library; else NULL. */
+} ellipsa_sheet_cell;
+
+/** Opaque, bounded, thread-safe cache of fits keyed by their data and options. */
+typedef struct ellipsa_sheet_cache ellipsa_sheet_cache;
+
+/**
+ * @brief Creates a fit cache for ellipsa_sheet_evaluate().
+ *
+ * A sheet with a hundred formulas over one range then fits once: a fit is
+ * reused when its data (bit for bit, after the sheet conversion) and its
+ * options are equal. The least recently used fits are dropped to stay within
+ * both bounds. Unlike other handles, a cache may be used by any number of
+ * threads at once.
+ * @param[out] out     The cache; destroy it with ellipsa_sheet_cache_destroy().
+ * @param max_entries  Most fits kept, in [1, 100000].
+ * @param max_bytes    Most bytes of copied data kept, >= 0 (0 keeps nothing
+ *                     larger than 0 bytes, i.e. disables reuse).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT; ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_sheet_cache_create(ellipsa_sheet_cache **out,
+                                                      int64_t max_entries, int64_t max_bytes);
+
+/**
+ * @brief Destroys a cache and every fit it holds; NULL is a no-op.
+ *
+ * No ellipsa_sheet_evaluate() call may be using it.
+ * @param cache The cache, or NULL.
+ */
+ELLIPSA_API void ellipsa_sheet_cache_destroy(ellipsa_sheet_cache *cache);
+
+/**
+ * @brief Counters of a cache: lookups that found a fit, lookups that fitted,
+ *        fits held and bytes of data held. NULL out-pointers are skipped.
+ * @param[out] hits    Lookups answered from the cache, or NULL.
+ * @param[out] misses  Lookups that fitted, or NULL.
+ * @param[out] entries Fits held now, or NULL.
+ * @param[out] bytes   Bytes of copied data held now, or NULL.
+ * @param cache        The cache.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (cache). Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_sheet_cache_stats(int64_t *hits, int64_t *misses,
+                                                     int64_t *entries, int64_t *bytes,
+                                                     const ellipsa_sheet_cache *cache);
+
+/**
+ * @brief Shape of the result of a catalog function for these arguments.
+ *
+ * Cheap: it checks the arguments and reads range sizes, never fits. The shape
+ * of a mixture's memberships uses the largest K asked for; columns beyond the
+ * chosen K are left empty.
+ * @param[out] rows  Result rows.
+ * @param[out] cols  Result columns.
+ * @param index      Catalog function.
+ * @param args       count values, in the catalog's argument order; trailing
+ *                   optional ones may be left out (count smaller). NULL only
+ *                   when count is 0.
+ * @param count      Number of values, 0 <= count <= argument_count.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (unknown
+ *         function, a required argument missing, a value of the wrong kind or
+ *         out of range, a misspelt option: the message names the argument);
+ *         ::ELLIPSA_ERR_SHAPE (struct_size, ranges that must agree and do not,
+ *         an empty range). Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_sheet_result_shape(int64_t *rows, int64_t *cols, int32_t index,
+                                                      const ellipsa_sheet_value *args,
+                                                      int32_t count);
+
+/**
+ * @brief Evaluates a catalog function into caller-allocated cells.
+ *
+ * Every number equals, bit for bit, what the ordinary C interface gives for
+ * the same computation (ellipsa_model_fit() with the same options on the
+ * complete rows, then ellipsa_model_score(), a model query or a distribution
+ * function). Cells beyond the result shape are set to
+ * ::ELLIPSA_SHEET_CELL_EMPTY.
+ * @param[out] cells  rows x cols cells, row-major; contents unspecified on failure.
+ * @param rows        Rows of cells, >= the result rows.
+ * @param cols        Columns of cells, >= the result columns.
+ * @param cache       A fit cache shared by calls, or NULL to fit every time.
+ * @param index       Catalog function.
+ * @param args        As for ellipsa_sheet_result_shape().
+ * @param count       As for ellipsa_sheet_result_shape().
+ * @return ::ELLIPSA_OK (individual cells may still hold errors);
+ *         every status of ellipsa_sheet_result_shape(); ::ELLIPSA_ERR_SHAPE
+ *         (cells smaller than the result); the statuses of
+ *         ellipsa_model_fit() for data that cannot be fitted (::ELLIPSA_ERR_DATA,
+ *         ::ELLIPSA_NUM_SINGULAR, ::ELLIPSA_NUM_EXACT_FIT,
+ *         ::ELLIPSA_NUM_NOT_CONVERGED); ::ELLIPSA_ERR_MEMORY. Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_sheet_evaluate(ellipsa_sheet_cell *cells, int64_t rows,
+                                                  int64_t cols, ellipsa_sheet_cache *cache,
+                                                  int32_t index, const ellipsa_sheet_value *args,
+                                                  int32_t count);
+/** @} */
+
 #ifdef __cplusplus
 } /* extern "C" */
 #endif
