@@ -4,7 +4,7 @@ BUILD ?= build
 JOBS ?= 2
 CMAKE_FLAGS ?=
 
-.PHONY: all deps build test demo bench docs clean sanitize
+.PHONY: all deps build test demo bench docs clean sanitize gnumeric-plugin
 
 all: build
 
@@ -25,6 +25,9 @@ demo: build
 
 bench: build
 	@scripts/run-benchmarks.sh $(BUILD)
+
+gnumeric-plugin: build
+	@scripts/install-gnumeric-plugin.sh $(BUILD)
 
 docs: deps
 	doxygen docs/Doxyfile

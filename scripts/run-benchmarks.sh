@@ -13,3 +13,5 @@ for b in "$build"/bench/bench_*; do
 done
 echo "== batch throughput of the CLI"
 "$(dirname "$0")/bench-batch-throughput.sh" "$build" "${THROUGHPUT_MB:-256}"
+echo "== sheet functions in Gnumeric against the batch tool"
+"$(dirname "$0")/../bench/sheet_recalc.py" "$build"

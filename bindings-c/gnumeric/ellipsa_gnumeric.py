@@ -14,6 +14,10 @@ Host facts this relies on (../shared notes, measured on Gnumeric 1.12.55):
 - Error cells arrive as None, like blanks; COUNTA tells them apart.
 - An error value can be raised for a one-cell result; inside an array result
   a NaN shows as #NUM!, the only error value an array can hold here.
+- Argument kinds: 'A' passes a range (a blank cell as a 1 x 1 range, an
+  empty argument as 0); 'E' passes a scalar (blank or empty as None). The
+  kinds '?' and 'S' drop every argument after a blank one, and '?' crashes
+  the host when given a blank cell.
 - A raised GnumericError shows as an error value only when the class is also
   set on the Gnumeric module of the calling interpreter.
 - Deactivating a Python plugin at exit crashes ssconvert; holding a reference
@@ -102,9 +106,11 @@ def _rows_of_reference(ref, bridge):
     return rows
 
 
-def _to_bridge(x, kind, bridge):
+def _to_bridge(x, kind, optional, bridge):
     """One Gnumeric argument as a bridge value (None, number, text, flag or Block)."""
     t = type(x)
+    if optional and kind == bridge.ARG_RANGE and t is float and x == 0.0:
+        return None  # an empty argument in a range position: left out
     if x is None or t is float or t is int or t is str or t is bool:
         if kind == bridge.ARG_RANGE and (t is float or t is int):
             return bridge.Block([[float(x)]])
@@ -147,7 +153,11 @@ def _argspec(f):
     for i, a in enumerate(f["arguments"]):
         if i == f["required"]:
             spec += "|"
-        spec += "A" if (a["kind"] == 1 and not a["optional"]) else "?"
+        # A: ranges (a blank cell comes as a 1 x 1 range, an empty argument as
+        # 0); E: scalars (a blank cell or an empty argument comes as None).
+        # '?' and 'S' would drop every argument after a blank one, and '?'
+        # crashes the host on a blank cell.
+        spec += "A" if a["kind"] == 1 else "E"
     return spec
 
 
@@ -165,10 +175,11 @@ def catalog_records(lib):
 
 
 def _make(index, record, lib, bridge):
-    kinds = [a["kind"] for a in record["arguments"]]
+    kinds = [(a["kind"], a["optional"]) for a in record["arguments"]]
 
     def sheet_function(*args):
-        values = [_to_bridge(x, kinds[i], bridge) if i < len(kinds) else x for i, x in enumerate(args)]
+        values = [_to_bridge(x, kinds[i][0], kinds[i][1], bridge) if i < len(kinds) else x
+                  for i, x in enumerate(args)]
         try:
             rows = lib.evaluate(index, values)
         except bridge.SheetFailure as e:

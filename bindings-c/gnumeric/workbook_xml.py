@@ -57,8 +57,9 @@ class Sheet(object):
         self.cells[(row, col)] = (' Rows="%d" Cols="%d"' % (rows, cols), formula)
 
     def highlight(self, r0, c0, r1, c1, formula, back="FFFF:C8C8:C8C8"):
-        """Fills (r0, c0)-(r1, c1) with `back` where `formula` (relative to the
-        top-left cell) is true."""
+        """Fills (r0, c0)-(r1, c1) with `back` where `formula` is true. Gnumeric
+        reads the formula's relative references as seen from cell A1, whatever
+        the region: "=$L1=1" tests column L of each cell's own row."""
         self.highlights.append((r0, c0, r1, c1, formula, back))
 
     def width(self, col, points):

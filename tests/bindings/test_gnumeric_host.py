@@ -154,6 +154,8 @@ def main():
         ("ELL.DIST2", rows_ref, [data_block], 40, 1),
         ("ELL.DIST2", rows_ref + "," + ref_ref, [data_block, ref_block], 40, 1),
         ("ELL.DIST2", rows_ref + ',"","classical"', [data_block, None, "classical"], 40, 1),
+        ("ELL.DIST2", rows_ref + ',,"classical"', [data_block, None, "classical"], 40, 1),  # empty argument
+        ("ELL.FLAG", rows_ref + "," + ref_ref + ',"","classical"', [data_block, ref_block, None, "classical"], 40, 1),
         ("ELL.PVALUE", rows_ref + "," + ref_ref + ',"mcd",0.75,3', [data_block, ref_block, "mcd", 0.75, 3.0], 40, 1),
         ("ELL.FLAG", rows_ref + "," + ref_ref + ",0.99", [data_block, ref_block, 0.99], 40, 1),
         ("ELL.DRIVER", rows_ref + "," + ref_ref + ',"detmcd"', [data_block, ref_block, "detmcd"], 40, 1),
@@ -208,6 +210,11 @@ def main():
     sheet.put(65, 9, "=ELL.CHI2INV(0.95,10)")   # NIST/SEMATECH e-Handbook 1.3.6.7.4: 18.307
     sheet.put(65, 10, "=ELL.CHI2INV(0.999,1)")  # same table: 10.828
     sheet.put(66, 8, "=ISERROR(%s)" % wb.a1(1 + 17, 8))  # the text row of the first DIST2 block
+
+    # The docs page lists every function.
+    with open(os.path.join(SRC, "docs", "sheet-functions.md")) as f:
+        docs = f.read()
+    check(all("`%s(" % name in docs for name in index), "docs/sheet-functions.md lists every catalog function")
 
     covered = {name for name, *_ in checks}
     check(covered == set(index), "host checks cover every catalog function (missing: %s)"
