@@ -4,7 +4,7 @@ BUILD ?= build
 JOBS ?= 2
 CMAKE_FLAGS ?=
 
-.PHONY: all deps build test demo bench docs clean sanitize gnumeric-plugin
+.PHONY: all deps build test demo bench docs clean sanitize gnumeric-plugin calc-addin
 
 all: build
 
@@ -28,6 +28,9 @@ bench: build
 
 gnumeric-plugin: build
 	@scripts/install-gnumeric-plugin.sh $(BUILD)
+
+calc-addin: build
+	@scripts/install-calc-addin.sh $(BUILD)
 
 docs: deps
 	doxygen docs/Doxyfile

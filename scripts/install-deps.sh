@@ -16,6 +16,8 @@ packages=(
   chromium                       # renders the HTML report in its end-to-end test
   abi-compliance-checker universal-ctags  # ABI check (scripts/check-abi.sh)
   gnumeric gnumeric-plugins-extra         # spreadsheet host and its Python plugin loader (sheet test)
+  libreoffice-calc-nogui python3-uno      # second spreadsheet host, its Python UNO bridge (sheet test)
+  libreoffice-dev                         # unoidl-write: the Calc add-in type library at build time
 )
 
 missing=()

@@ -161,19 +161,6 @@ def _argspec(f):
     return spec
 
 
-def catalog_records(lib):
-    """The catalog as plain records (also written to catalog.json at build time)."""
-    import ellipsa_sheet as bridge
-    out = []
-    for f in lib.catalog():
-        out.append({
-            "name": f.name, "category": f.category, "help": f.help, "required": f.required,
-            "shape_text": bridge.SHAPE_NAMES.get(f.shape, "an array"),
-            "arguments": [{"name": a.name, "help": a.help, "kind": a.kind, "optional": a.optional,
-                           "default": a.default} for a in f.arguments]})
-    return out
-
-
 def _make(index, record, lib, bridge):
     kinds = [(a["kind"], a["optional"]) for a in record["arguments"]]
 
@@ -208,7 +195,7 @@ def _register():
     import ellipsa_sheet as bridge
     try:
         lib = bridge.SheetLibrary(_library_path(plugin_dir))
-        records = catalog_records(lib)
+        records = bridge.catalog_records(lib)
         for f, record in zip(lib.catalog(), records):
             table[f.name.lower()] = (_argspec(record), ",".join(a["name"] for a in record["arguments"]),
                                      _make(f.index, record, lib, bridge))

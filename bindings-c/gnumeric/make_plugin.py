@@ -30,7 +30,7 @@ def main(argv):
     import ellipsa_sheet
     import ellipsa_gnumeric
     lib = ellipsa_sheet.SheetLibrary(library)
-    records = ellipsa_gnumeric.catalog_records(lib)
+    records = ellipsa_sheet.catalog_records(lib)
     names = "\n".join('        <function name=%s/>' % quoteattr(r["name"].lower()) for r in records)
     xml = """<?xml version="1.0" encoding="UTF-8"?>
 <plugin id=%s>

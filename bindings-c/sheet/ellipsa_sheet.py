@@ -19,6 +19,7 @@ import math
 VALUE_ABSENT = 0
 ARG_RANGE, ARG_NUMBER, ARG_TEXT, ARG_FLAG = 1, 2, 3, 4
 KIND_NAMES = {ARG_RANGE: "range", ARG_NUMBER: "number", ARG_TEXT: "text", ARG_FLAG: "flag"}
+SHAPE_SCALAR = 1
 SHAPE_NAMES = {1: "one value", 2: "one per row", 3: "several per row", 4: "one per column",
                5: "p x p", 6: "table with a title row"}
 INPUT_NUMBER, INPUT_TEXT, INPUT_ERROR = 0, 1, 2
@@ -210,6 +211,19 @@ class SheetLibrary(object):
         if self._cache:
             self._lib.ellipsa_sheet_cache_destroy(self._cache)
             self._cache = None
+
+
+def catalog_records(lib):
+    """The catalog as plain records (names, help, arguments), for the files a
+    host needs at build time (plugin.xml, IDL) and to explain a missing library."""
+    out = []
+    for f in lib.catalog():
+        out.append({
+            "name": f.name, "category": f.category, "help": f.help, "required": f.required, "shape": f.shape,
+            "shape_text": SHAPE_NAMES.get(f.shape, "an array"),
+            "arguments": [{"name": a.name, "help": a.help, "kind": a.kind, "optional": a.optional,
+                           "default": a.default} for a in f.arguments]})
+    return out
 
 
 def _to_value(out, v, keep):
