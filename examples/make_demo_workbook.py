@@ -1,9 +1,14 @@
 #!/usr/bin/env python3
-"""Writes examples/moulding_line_screen.gnumeric, the demo workbook of the
-Gnumeric plugin, from the invented cap-moulding data in this folder
-(examples/README.md). Standard library only:
+"""Writes the demo workbook of the sheet functions from the invented
+cap-moulding data in this folder (examples/README.md):
 
-    python3 examples/make_demo_workbook.py [OUT]
+    python3 examples/make_demo_workbook.py [OUT.gnumeric]
+        Gnumeric's format (standard library only);
+        default examples/moulding_line_screen.gnumeric
+    /usr/bin/python3 examples/make_demo_workbook.py --calc ELLIPSA_CALC.OXT [OUT.ods]
+        the same sheets and formulas in LibreOffice Calc's native format, made
+        by a headless Calc with the extension installed (values computed by
+        Calc); default examples/moulding_line_screen.ods
 
 Sheets:
   NewBatch  - the new batch's mould A shots (invented; 3 faults planted) scored
@@ -44,9 +49,9 @@ def readings_sheet(name, records, extra_first=("shot_id", "timestamp")):
     for i, r in enumerate(records):
         s.put_row(1 + i, 0, [r[k] for k in extra_first] + [number(r[k]) for k in READINGS])
     s.width(0, 60)
-    s.width(1, 120)
+    s.width(1, 105)
     for j in range(2, 2 + len(READINGS)):
-        s.width(j, 110)
+        s.width(j, 70)
     return s
 
 
@@ -73,7 +78,7 @@ def notes(s, row, col, lines):
         s.put(row + k, col, line)
 
 
-def main(out):
+def sheets():
     ref_a = rows_of("moulding_reference.csv", "A")
     new_a = rows_of("moulding_new_batch.csv", "A")
     shift_a = rows_of("moulding_line.csv", "A")
@@ -125,8 +130,25 @@ def main(out):
     notes(regimes, 6, 11, ["INVENTED DATA. Both moulds of the reference period: the mixture with the lowest BIC",
                            "should find the two moulds as two regimes without being told which shot is which."])
 
-    wb.write(out, [new, ref, shift, regimes], compress=True)
+    return [new, ref, shift, regimes]
+
+
+def main(argv):
+    if len(argv) > 2 and argv[1] == "--calc":
+        sys.path.insert(0, os.path.join(HERE, "..", "bindings-c", "calc"))
+        from calc_session import CalcSession
+        import calc_workbook
+        session = CalcSession(os.path.abspath(argv[2]))
+        try:
+            out = os.path.abspath(argv[3] if len(argv) > 3 else os.path.join(HERE, "moulding_line_screen.ods"))
+            calc_workbook.write(session, out, sheets()).close(True)
+        finally:
+            session.close()
+        return 0
+    wb.write(argv[1] if len(argv) > 1 else os.path.join(HERE, "moulding_line_screen.gnumeric"), sheets(),
+             compress=True)
+    return 0
 
 
 if __name__ == "__main__":
-    main(sys.argv[1] if len(sys.argv) > 1 else os.path.join(HERE, "moulding_line_screen.gnumeric"))
+    sys.exit(main(sys.argv))

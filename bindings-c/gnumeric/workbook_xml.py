@@ -32,6 +32,7 @@ class Sheet(object):
     def __init__(self, name):
         self.name = name
         self.cells = {}  # (row, col) -> xml attributes and text
+        self.content = {}  # (row, col) -> ("number"|"text"|"formula", value) or ("array", formula, rows, cols)
         self.highlights = []  # (r0, c0, r1, c1, formula, back colour)
         self.widths = {}
 
@@ -39,14 +40,16 @@ class Sheet(object):
         """A number, a text, a formula ("=..."), or None (left blank)."""
         if value is None:
             self.cells.pop((row, col), None)
+            self.content.pop((row, col), None)
         elif isinstance(value, str) and value.startswith("="):
             self.cells[(row, col)] = ("", value)
+            self.content[(row, col)] = ("formula", value)
         elif isinstance(value, str):
             self.cells[(row, col)] = (' ValueType="60"', value)
-        elif isinstance(value, bool):
-            self.cells[(row, col)] = (' ValueType="20"', "TRUE" if value else "FALSE")
+            self.content[(row, col)] = ("text", value)
         else:
             self.cells[(row, col)] = (' ValueType="40"', repr(float(value)))
+            self.content[(row, col)] = ("number", float(value))
 
     def put_row(self, row, col, values):
         for j, v in enumerate(values):
@@ -55,6 +58,7 @@ class Sheet(object):
     def array(self, row, col, rows, cols, formula):
         """An array formula filling rows x cols cells from (row, col)."""
         self.cells[(row, col)] = (' Rows="%d" Cols="%d"' % (rows, cols), formula)
+        self.content[(row, col)] = ("array", formula, rows, cols)
 
     def highlight(self, r0, c0, r1, c1, formula, back="FFFF:C8C8:C8C8"):
         """Fills (r0, c0)-(r1, c1) with `back` where `formula` is true. Gnumeric

@@ -24,7 +24,7 @@ SRC = os.environ["ELLIPSA_SOURCE_DIR"]
 OXT = os.environ["ELLIPSA_CALC_ADDIN"]
 HERE = os.path.dirname(os.path.abspath(__file__))
 FIXTURE = os.path.join(HERE, "fixtures", "calc_saved_by_0.1.0.ods")
-sys.path[:0] = [os.path.join(SRC, "bindings-c", "sheet"), HERE]
+sys.path[:0] = [os.path.join(SRC, "bindings-c", "sheet"), os.path.join(SRC, "bindings-c", "calc"), HERE]
 import ellipsa_sheet as bridge  # noqa: E402
 import sheet_host_cases as cases  # noqa: E402
 
