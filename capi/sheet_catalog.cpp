@@ -119,6 +119,9 @@ std::vector<FunctionSpec> build() {
                 {"a", "first shape, > 0", kNumber, false, ""},
                 {"b", "second shape, > 0", kNumber, false, ""}},
                ELLIPSA_SHEET_SHAPE_SCALAR, shape_scalar, eval_beta_tail});
+  c.push_back({"ELL.VERSION", kLimits,
+               "Version of the ellipsa library the sheet uses: a quick check that the functions are installed",
+               {}, ELLIPSA_SHEET_SHAPE_SCALAR, shape_scalar, eval_version});
   return c;
 }
 

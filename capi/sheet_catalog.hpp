@@ -71,5 +71,6 @@ void eval_f_quantile(const Arguments&, ellipsa_sheet_cache*, Grid&);
 void eval_f_tail(const Arguments&, ellipsa_sheet_cache*, Grid&);
 void eval_beta_quantile(const Arguments&, ellipsa_sheet_cache*, Grid&);
 void eval_beta_tail(const Arguments&, ellipsa_sheet_cache*, Grid&);
+void eval_version(const Arguments&, ellipsa_sheet_cache*, Grid&);
 
 }  // namespace ellipsa::capi::sheet

@@ -57,4 +57,6 @@ void eval_beta_tail(const Arguments& a, ellipsa_sheet_cache*, Grid& g) {
   put(g, [&](double* out) { return ellipsa_beta_tail(out, need(a, "x"), need(a, "a"), need(a, "b")); });
 }
 
+void eval_version(const Arguments&, ellipsa_sheet_cache*, Grid& g) { g.text(0, 0, ellipsa_version()); }
+
 }  // namespace ellipsa::capi::sheet

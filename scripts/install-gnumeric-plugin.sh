@@ -26,7 +26,8 @@ for f in plugin.xml catalog.json ellipsa_gnumeric.py ellipsa_sheet.py; do
   install -m 644 "$plugin/$f" "$dest/$f"
 done
 install -m 755 "$library" "$dest/libellipsa.so"
-printf '{"library": "%s"}\n' "$dest/libellipsa.so" > "$dest/paths.json"
+# The copy's path, and the version the plugin was made for (checked at load).
+sed 's|"library": "[^"]*"|"library": "'"$dest/libellipsa.so"'"|' "$plugin/paths.json" > "$dest/paths.json"
 echo "installed: $dest ($(grep -c '<function ' "$dest/plugin.xml") functions)"
 
 # The check: Gnumeric itself computes one catalog function.

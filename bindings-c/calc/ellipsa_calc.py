@@ -66,9 +66,16 @@ def _library():
     return bridge.SheetLibrary(path)
 
 
+CANARY = "ELL.VERSION"  # answers with a text even when the library cannot be used
+with open(os.path.join(HERE, "build_info.json")) as f:
+    MADE_FOR = json.load(f)["version"]
 try:
     LIBRARY = _library()
     LOAD_ERROR = None
+    if LIBRARY.version() != MADE_FOR:
+        LOAD_ERROR = "library %s is version %s, the extension was made for %s; reinstall the extension" % (
+            LIBRARY.path, LIBRARY.version(), MADE_FOR)
+        LIBRARY = None
 except OSError as e:  # the library is missing or broken: every function says so
     LIBRARY = None
     LOAD_ERROR = str(e)
@@ -112,7 +119,10 @@ def _make(method, index, record):
 
     def evaluate(self, args):
         if LIBRARY is None:
-            raise IllegalArgumentException("ellipsa: the library could not be loaded (%s)" % LOAD_ERROR, self, 0)
+            message = "ellipsa: the library cannot be used (%s)" % LOAD_ERROR
+            if record["name"] == CANARY:
+                return message
+            raise IllegalArgumentException(message, self, 0)
         values = [_to_bridge(x, kinds[i]) for i, x in enumerate(args)]
         while values and values[-1] is None:
             values.pop()

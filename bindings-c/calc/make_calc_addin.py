@@ -62,6 +62,8 @@ def main(argv):
                                              os.path.join(stage, "ellipsa.rdb")], check=True)
     with open(os.path.join(stage, "catalog.json"), "w") as f:
         json.dump(records, f, indent=1)
+    with open(os.path.join(stage, "build_info.json"), "w") as f:
+        json.dump({"version": version}, f)
     shutil.copyfile(COMPONENT, os.path.join(stage, "ellipsa_calc.py"))
     shutil.copyfile(BRIDGE, os.path.join(stage, "ellipsa_sheet.py"))
     # Without its debugging sections: the extension is copied into every profile.

@@ -65,16 +65,14 @@ def _plugin_dir():
 
 
 def _library_path(plugin_dir):
-    """ELLIPSA_LIBRARY, else the library copied next to the plugin, else the
-    build tree's library recorded when the plugin folder was made."""
-    env = os.environ.get("ELLIPSA_LIBRARY")
-    if env:
-        return env
-    local = os.path.join(plugin_dir, "libellipsa.so")
-    if os.path.exists(local):
-        return local
+    """(path, version the plugin was made for): ELLIPSA_LIBRARY, else the
+    library copied next to the plugin, else the build tree's library recorded
+    when the plugin folder was made."""
     with open(os.path.join(plugin_dir, "paths.json")) as f:
-        return json.load(f)["library"]
+        recorded = json.load(f)
+    local = os.path.join(plugin_dir, "libellipsa.so")
+    path = os.environ.get("ELLIPSA_LIBRARY") or (local if os.path.exists(local) else recorded["library"])
+    return path, recorded.get("version")
 
 
 def _raise(text):
@@ -180,7 +178,7 @@ def _make(index, record, lib, bridge):
 
 def _make_unavailable(record, reason):
     def unavailable(*args):
-        _raise(ERROR_PREFIX + "the ellipsa library could not be loaded (" + reason + ")")
+        _raise(ERROR_PREFIX + "the ellipsa library cannot be used (" + reason + ")")
 
     unavailable.__doc__ = _help_text(record)
     return unavailable
@@ -194,7 +192,11 @@ def _register():
     sys.path.insert(0, plugin_dir)
     import ellipsa_sheet as bridge
     try:
-        lib = bridge.SheetLibrary(_library_path(plugin_dir))
+        path, made_for = _library_path(plugin_dir)
+        lib = bridge.SheetLibrary(path)
+        if made_for and lib.version() != made_for:
+            raise ValueError("library %s is version %s, the plugin was made for %s; reinstall the plugin"
+                             % (path, lib.version(), made_for))
         records = bridge.catalog_records(lib)
         for f, record in zip(lib.catalog(), records):
             table[f.name.lower()] = (_argspec(record), ",".join(a["name"] for a in record["arguments"]),

@@ -60,7 +60,7 @@ def main(argv):
     with open(os.path.join(out, "catalog.json"), "w") as f:
         json.dump(records, f, indent=1)
     with open(os.path.join(out, "paths.json"), "w") as f:
-        json.dump({"library": library}, f)
+        json.dump({"library": library, "version": lib.version()}, f)
     shutil.copyfile(MODULE, os.path.join(out, "ellipsa_gnumeric.py"))
     shutil.copyfile(BRIDGE, os.path.join(out, "ellipsa_sheet.py"))
     lib.close()

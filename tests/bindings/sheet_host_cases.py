@@ -63,6 +63,7 @@ def formulas(bridge, data, ref, rows, refs, sep):
         ("ELL.FTAIL", args("2.9045", "3", "17"), [2.9045, 3.0, 17.0], 1, 1),
         ("ELL.BETAINV", args("0.3", "2", "5"), [0.3, 2.0, 5.0], 1, 1),
         ("ELL.BETATAIL", args("0.3", "2", "5"), [0.3, 2.0, 5.0], 1, 1),
+        ("ELL.VERSION", "", [], 1, 1),
     ]
 
 

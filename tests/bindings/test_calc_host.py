@@ -114,14 +114,42 @@ def main():
         sheet.getCellByPosition(10, 62).setFormula("=ELL.CHI2INV(1.5;3)")
         sheet.getCellByPosition(11, 62).setFormula("=NA()")
         sheet.getCellByPosition(12, 62).setFormula("=ELL.DIST2(E2:G61;L63:N63)")
+        sheet.getCellByPosition(13, 62).setFormula("=ELL.DIST2(A2:C2)")  # one row cannot be fitted
+        fill(sheet, 70, 0, [["x", "y"], ["z", "w"], ["u", "v"]])
+        sheet.getCellByPosition(14, 62).setFormula("=ELL.DIST2(A71:B73)")  # text only
+        # Outside references through Calc: Johnson & Wichern Example 5.2 (sweat
+        # data, H0 mu = (4, 50, 10)): T^2 = 9.7388; NIST/SEMATECH e-Handbook
+        # 1.3.6.7.4 chi-square critical values 18.307 (0.05, 10 df), 10.828 (0.001, 1 df).
+        sweat = []
+        with open(os.path.join(SRC, "tests", "reference", "hotelling", "sweat_johnson_wichern.csv")) as f:
+            for line in f.read().splitlines()[1:]:
+                sweat.append([float(x) for x in line.split(",")])
+        fill(sheet, 80, 0, sweat)
+        fill(sheet, 101, 0, [[4.0, 50.0, 10.0]])
+        sheet.getCellByPosition(8, 65).setFormula('=20*ELL.DIST2(A102:C102;A81:C100;"classical")')
+        sheet.getCellByPosition(9, 65).setFormula("=ELL.CHI2INV(0.95;10)")
+        sheet.getCellByPosition(10, 65).setFormula("=ELL.CHI2INV(0.999;1)")
         doc.calculateAll()
         for name, formula, values, r0, c0 in placed:
             expect_block(sheet, r0, c0, lib.evaluate(index[name], values), formula)
-        for c, what in ((8, "misspelt method"), (9, "reference with other columns"), (10, "probability 1.5")):
+        for c, what in ((8, "misspelt method"), (9, "reference with other columns"), (10, "probability 1.5"),
+                        (13, "a one-row range fitted on itself"), (14, "a text-only range")):
             kind, got = read_cell(sheet.getCellByPosition(c, 62))
             check(kind == "error" and got == 502, "%s is Err:502 (got %s %r)" % (what, kind, got))
         kind, got = read_cell(sheet.getCellByPosition(12, 62))
         check(kind == "error", "an error value in a range gives an error (got %s %r)" % (kind, got))
+        for c, expected, tolerance, what in ((8, 9.7388, 5e-5, "J&W Example 5.2 T^2"),
+                                             (9, 18.307, 0.0015, "NIST chi-square 0.05, 10 df"),
+                                             (10, 10.828, 0.0015, "NIST chi-square 0.001, 1 df")):
+            kind, got = read_cell(sheet.getCellByPosition(c, 65))
+            check(kind == "number" and abs(got - expected) < tolerance, "%s: %s %r" % (what, kind, got))
+        # No cell anywhere shows the name error (525: an unknown function).
+        cursor = sheet.createCursor()
+        cursor.gotoEndOfUsedArea(False)
+        end = cursor.RangeAddress
+        names = [(r, c) for r in range(end.EndRow + 1) for c in range(8, end.EndColumn + 1)
+                 if sheet.getCellByPosition(c, r).getError() == 525]
+        check(not names, "no cell shows #NAME? (525): %s" % names[:5])
         # Semantics spelled out on the first DIST2 block (column I).
         check(read_cell(sheet.getCellByPosition(8, 10)) == ("text", ""), "a blank row stays empty")
         check(read_cell(sheet.getCellByPosition(8, 18)) == ("error", 519), "a text row is #VALUE! in that row")
@@ -147,6 +175,31 @@ def main():
         old.close(True)
     finally:
         session.close()
+
+    # An extension made for another library version: the canary says so in its cell.
+    other = os.path.join(os.path.dirname(os.path.abspath(OXT)), "ellipsa-calc-other-version.oxt")
+    with zipfile.ZipFile(OXT) as src, zipfile.ZipFile(other, "w", zipfile.ZIP_DEFLATED) as dst:
+        for item in src.infolist():
+            body = src.read(item.filename)
+            if item.filename == "build_info.json":
+                body = b'{"version": "0.0.0"}'
+            dst.writestr(item, body)
+    session = CalcSession(other)
+    try:
+        doc = session.new_sheet_document()
+        sheet = doc.Sheets.getByIndex(0)
+        sheet.getCellByPosition(0, 0).setFormula("=ELL.VERSION()")
+        sheet.getCellByPosition(1, 0).setFormula("=ELL.CHI2INV(0.95;3)")
+        sheet.getCellByPosition(2, 0).setFormula("=1+1")
+        doc.calculateAll()
+        kind, got = read_cell(sheet.getCellByPosition(0, 0))
+        check(kind == "text" and "the extension was made for 0.0.0" in got, "version mismatch explained: %r" % got)
+        check(read_cell(sheet.getCellByPosition(1, 0)) == ("error", 502), "other functions refuse to compute")
+        check(read_cell(sheet.getCellByPosition(2, 0)) == ("number", 2.0), "the host stays up")
+        doc.close(True)
+    finally:
+        session.close()
+        os.remove(other)
     if FAILURES:
         print("%d failed checks" % len(FAILURES))
         return 1

@@ -210,9 +210,16 @@ def main():
     small.put(0, 2, "=ISERROR(A1)")
     wb.write(os.path.join(work, "missing.gnumeric"), [small])
     out2, _ = recalc(os.path.join(work, "missing.gnumeric"), os.path.dirname(broken), os.path.join(work, "m.csv"))
-    check(cell(out2, 0, 0).startswith("#ELLIPSA: the ellipsa library could not be loaded"),
+    check(cell(out2, 0, 0).startswith("#ELLIPSA: the ellipsa library cannot be used"),
           "missing library explained: %r" % cell(out2, 0, 0))
     check(cell(out2, 0, 1) == "2" and cell(out2, 0, 2) == "TRUE", "the host stays up: %r" % out2[:1])
+    # A library of another version than the plugin was made for: the canary says so.
+    with open(os.path.join(broken, "paths.json"), "w") as f:
+        json.dump({"library": lib.path, "version": "0.0.0"}, f)
+    small.put(0, 0, "=ELL.VERSION()")
+    wb.write(os.path.join(work, "version.gnumeric"), [small])
+    out3, _ = recalc(os.path.join(work, "version.gnumeric"), os.path.dirname(broken), os.path.join(work, "v.csv"))
+    check("the plugin was made for 0.0.0" in cell(out3, 0, 0), "version mismatch explained: %r" % cell(out3, 0, 0))
 
     if FAILURES:
         print("%d failed checks" % len(FAILURES))

@@ -67,7 +67,7 @@ ellipsa_sheet_value valid(const ellipsa_sheet_argument_info& a) {
 
 TEST(SheetCatalog, EveryFunctionIsDescribedCompletely) {
   const int32_t n = count();
-  ASSERT_GE(n, 18);
+  ASSERT_GE(n, 19);
   std::set<std::string> names;
   for (int32_t f = 0; f < n; ++f) {
     const auto i = info(f);
@@ -78,7 +78,7 @@ TEST(SheetCatalog, EveryFunctionIsDescribedCompletely) {
     EXPECT_GT(std::strlen(i.category), 0u);
     EXPECT_GE(i.result_shape, ELLIPSA_SHEET_SHAPE_SCALAR);
     EXPECT_LE(i.result_shape, ELLIPSA_SHEET_SHAPE_TABLE);
-    ASSERT_GE(i.argument_count, 1);
+    ASSERT_GE(i.argument_count, 0);
     int32_t required = 0;
     bool seen_optional = false;
     for (int32_t a = 0; a < i.argument_count; ++a) {

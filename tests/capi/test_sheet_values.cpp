@@ -217,6 +217,11 @@ TEST(SheetValues, LimitsAndDistributionsEqualTheCFunctions) {
   // Numbers typed as text are read as numbers, as sheets do.
   ASSERT_EQ(ellipsa_chi2_quantile(&v, 0.95, 3), ELLIPSA_OK);
   expect_bits(evaluate("ELL.CHI2INV", {text("0.95"), text(" 3")}).at(0, 0), v);
+  // The version canary: the library's own version text.
+  const Result version = evaluate("ELL.VERSION", {});
+  ASSERT_EQ(version.status, ELLIPSA_OK);
+  ASSERT_EQ(version.at(0, 0).type, ELLIPSA_SHEET_CELL_TEXT);
+  EXPECT_STREQ(version.at(0, 0).text, ellipsa_version());
   // A probability outside its range is a whole-function argument error.
   EXPECT_EQ(evaluate("ELL.CHI2INV", {number(1.5), number(3)}).status, ELLIPSA_ERR_ARGUMENT);
 }
