@@ -76,6 +76,9 @@ std::vector<std::string> verdict(const CompareSummary& s) {
       !s.robust_mean.significant(s.significance))
     v.push_back("The classical mean test is significant but the robust one is not: a few unusual rows may be "
                 "moving the mean rather than the whole batch; screen the new batch to find them.");
+  if (s.covariance.significant(s.significance))
+    v.push_back("A handful of unusual rows in either batch can make Box's M significant on their own: screen or "
+                "score the new batch to see whether a few rows explain it before concluding that the spread changed.");
   if (!s.mean.available || !s.covariance.available || (s.robust_mean.requested && !s.robust_mean.available))
     v.push_back("Some tests could not be computed; their reasons are listed with them.");
   v.push_back("Box's M is sensitive to non-normal data (skewed or heavy-tailed readings, cycles): read its p-value "
