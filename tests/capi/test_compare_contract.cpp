@@ -5,6 +5,7 @@
 
 #include <cmath>
 #include <string>
+#include <thread>
 #include <vector>
 
 #include "capi_test_util.hpp"
@@ -244,4 +245,53 @@ TEST(Compare, RobustTestIsSeededAndCancellable) {
   EXPECT_EQ(ellipsa_batch_compare(&none, &va, &vb, &o), ELLIPSA_ERR_CANCELLED);
   EXPECT_EQ(none, nullptr);
   EXPECT_EQ(calls, 3);
+}
+
+TEST(Compare, NullOptionsMeanTheDefaults) {
+  const auto a = correlated_rows(40, 2, 12), b = correlated_rows(30, 2, 13);
+  const ellipsa_matrix va = ellipsa_matrix_row_major(a.data(), 40, 2), vb = ellipsa_matrix_row_major(b.data(), 30, 2);
+  auto c = compare(va, vb, nullptr);
+  const ellipsa_compare_options init = ELLIPSA_COMPARE_OPTIONS_INIT;
+  auto d = compare(va, vb, &init);
+  ellipsa_test_result t, u;
+  t.struct_size = u.struct_size = sizeof t;
+  ASSERT_EQ(ellipsa_comparison_test(&t, c.get(), ELLIPSA_TEST_ROBUST_MEAN_SHIFT), ELLIPSA_OK);
+  ASSERT_EQ(ellipsa_comparison_test(&u, d.get(), ELLIPSA_TEST_ROBUST_MEAN_SHIFT), ELLIPSA_OK);
+  EXPECT_EQ(t.permutations_used + t.permutations_failed, 199);  // the documented default
+  EXPECT_EQ(t.p_value, u.p_value);
+  EXPECT_EQ(t.statistic, u.statistic);
+}
+
+TEST(Compare, ThreadsShareOneResultAndCompareIndependently) {
+  // Header: ellipsa_batch_compare is thread-safe; a result is shareable read-only.
+  const auto a = correlated_rows(50, 3, 14), b = correlated_rows(40, 3, 15, 0.3);
+  const ellipsa_matrix va = ellipsa_matrix_row_major(a.data(), 50, 3), vb = ellipsa_matrix_row_major(b.data(), 40, 3);
+  ellipsa_compare_options o = ELLIPSA_COMPARE_OPTIONS_INIT;
+  o.permutations = 9;
+  auto shared = compare(va, vb, &o);
+  ellipsa_test_result want;
+  want.struct_size = sizeof want;
+  ASSERT_EQ(ellipsa_comparison_test(&want, shared.get(), ELLIPSA_TEST_ROBUST_MEAN_SHIFT), ELLIPSA_OK);
+  std::vector<double> robust(4), classical(4);
+  std::vector<std::thread> threads;
+  for (int k = 0; k < 4; ++k)
+    threads.emplace_back([&, k] {
+      ellipsa_comparison* own = nullptr;
+      ellipsa_test_result r;
+      r.struct_size = sizeof r;
+      if (ellipsa_batch_compare(&own, &va, &vb, &o) == ELLIPSA_OK &&
+          ellipsa_comparison_test(&r, own, ELLIPSA_TEST_ROBUST_MEAN_SHIFT) == ELLIPSA_OK)
+        robust[static_cast<size_t>(k)] = r.p_value;
+      ellipsa_comparison_destroy(own);
+      if (ellipsa_comparison_test(&r, shared.get(), ELLIPSA_TEST_MEAN_SHIFT) == ELLIPSA_OK)
+        classical[static_cast<size_t>(k)] = r.statistic;
+    });
+  for (auto& t : threads) t.join();
+  ellipsa_test_result m;
+  m.struct_size = sizeof m;
+  ASSERT_EQ(ellipsa_comparison_test(&m, shared.get(), ELLIPSA_TEST_MEAN_SHIFT), ELLIPSA_OK);
+  for (int k = 0; k < 4; ++k) {
+    EXPECT_EQ(robust[static_cast<size_t>(k)], want.p_value);
+    EXPECT_EQ(classical[static_cast<size_t>(k)], m.statistic);
+  }
 }

@@ -86,6 +86,34 @@ TEST(Shape, RobustModelUsesTheRowsOfItsFinalEstimate) {
   EXPECT_LT(s.skewness_p_value, 1e-6);
 }
 
+TEST(Shape, RowsWithNaNKeepTheFitsRowNumbers) {
+  // The model's row sets count NaN rows (ellipsa_model_row_set); the check of
+  // a robust model on data with a NaN row uses the same rows as the check of
+  // those data without it.
+  auto x = correlated_rows(90, 2, 41);
+  for (int j = 0; j < 2; ++j) x[static_cast<size_t>(5 * 2 + j)] += 30.0;  // row 5: gross
+  std::vector<double> with_nan(x.begin(), x.begin() + 2 * 3);
+  with_nan.insert(with_nan.end(), {NAN, 1.0});
+  with_nan.insert(with_nan.end(), x.begin() + 2 * 3, x.end());
+  const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), 90, 2);
+  const ellipsa_matrix vn = ellipsa_matrix_row_major(with_nan.data(), 91, 2);
+  auto o = options(ELLIPSA_METHOD_DETMCD);
+  ellipsa_model *m = nullptr, *mn = nullptr;
+  ASSERT_EQ(ellipsa_model_fit(&m, &v, o.get()), ELLIPSA_OK);
+  ASSERT_EQ(ellipsa_model_fit(&mn, &vn, o.get()), ELLIPSA_OK);
+  Model model(m), model_nan(mn);
+  ellipsa_shape_test s, t;
+  s.struct_size = t.struct_size = sizeof s;
+  ASSERT_EQ(ellipsa_model_shape(&s, model.get(), &v), ELLIPSA_OK);
+  ASSERT_EQ(ellipsa_model_shape(&t, model_nan.get(), &vn), ELLIPSA_OK) << ellipsa_last_error();
+  EXPECT_EQ(s.rows, t.rows);
+  EXPECT_NEAR(s.skewness, t.skewness, 1e-10 * (1.0 + s.skewness));
+  EXPECT_NEAR(s.kurtosis, t.kurtosis, 1e-10 * s.kurtosis);
+  EXPECT_LT(s.rows, 90);  // the gross row is not among them
+  const ellipsa_matrix short_by_one = ellipsa_matrix_row_major(with_nan.data(), 90, 2);
+  EXPECT_EQ(ellipsa_model_shape(&t, model_nan.get(), &short_by_one), ELLIPSA_ERR_SHAPE);
+}
+
 TEST(Shape, MisuseIsReported) {
   const auto x = correlated_rows(40, 3, 31);
   const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), 40, 3);
