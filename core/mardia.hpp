@@ -30,7 +30,8 @@ struct MardiaTest {
 //
 // b1 is computed from the third-moment tensor of the whitened rows,
 // b1 = sum_rst (mean_i z_ir z_is z_it)^2, an identity that avoids the n x n
-// matrix of g_ij: n p^3 / 6 work and p^3 memory.
+// matrix of g_ij: n p^3 / 2 flops in matrix products, p^3 / 2 memory plus
+// one chunk of rows.
 MardiaTest mardia(DataView x, double kurtosis_centre = -1.0);
 
 // Expected b2 (to first order) of normal rows kept by a hard cutoff
