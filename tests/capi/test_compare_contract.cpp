@@ -295,3 +295,30 @@ TEST(Compare, ThreadsShareOneResultAndCompareIndependently) {
     EXPECT_EQ(classical[static_cast<size_t>(k)], m.statistic);
   }
 }
+
+TEST(Compare, ExactFitInABatchIsTheRobustTestsReason) {
+  // 36 of 40 reference rows on the line x2 = 2 x1 + 1, 4 off it: the classical
+  // covariance is regular, but the DetMCD subset (h = 31 of 40 at alpha 0.75)
+  // lies on the line (METHODS.md, MCD exact fit).
+  std::vector<double> a;
+  for (int i = 0; i < 40; ++i) {
+    const double x1 = 0.1 * i;
+    a.push_back(x1);
+    a.push_back(i < 36 ? 2.0 * x1 + 1.0 : 2.0 * x1 + 1.0 + (i % 2 ? 3.0 : -2.5));
+  }
+  const auto b = correlated_rows(30, 2, 16);
+  const ellipsa_matrix va = ellipsa_matrix_row_major(a.data(), 40, 2), vb = ellipsa_matrix_row_major(b.data(), 30, 2);
+  ellipsa_compare_options o = ELLIPSA_COMPARE_OPTIONS_INIT;
+  o.permutations = 0;
+  auto c = compare(va, vb, &o);
+  ASSERT_TRUE(c);
+  ellipsa_test_result t;
+  t.struct_size = sizeof t;
+  EXPECT_EQ(ellipsa_comparison_test(&t, c.get(), ELLIPSA_TEST_MEAN_SHIFT), ELLIPSA_OK);
+  EXPECT_EQ(ellipsa_comparison_test(&t, c.get(), ELLIPSA_TEST_ROBUST_MEAN_SHIFT), ELLIPSA_NUM_EXACT_FIT);
+  EXPECT_NE(std::string(ellipsa_last_error()).find("hyperplane"), std::string::npos) << ellipsa_last_error();
+  // No columns at all.
+  const ellipsa_matrix none = ellipsa_matrix_row_major(a.data(), 40, 0);
+  ellipsa_comparison* out = nullptr;
+  EXPECT_EQ(ellipsa_batch_compare(&out, &none, &none, &o), ELLIPSA_ERR_SHAPE);
+}
