@@ -23,6 +23,9 @@ grep -E '^(shot_id|A-)' "$here/moulding_new_batch.csv" > "$out/new_batch_A.csv"
 "$bin" fit --method mcd --seed 1 "$out/reference_A.csv" -o "$out/mould_A_model.json"
 "$bin" score "$out/mould_A_model.json" "$out/new_batch_A.csv" -o "$out/new_batch_A_scored.csv"
 echo
+echo "Has the process moved? The new batch's mould A shots against the reference's, as batches"
+"$bin" compare "$out/reference_A.csv" "$out/new_batch_A.csv" --html "$out/compare_mould_A.html"
+echo
 echo "Report: mould A's shots against a robust profile of mould A"
 grep -E '^(shot_id|A-)' "$here/moulding_line.csv" > "$out/line_A.csv"
 "$bin" fit --method mcd --seed 1 --quiet "$out/line_A.csv" -o "$out/line_A_model.json"
@@ -33,3 +36,4 @@ echo "  $out/moulding_line_scored.csv   every shot with its robust distance, p-v
 echo "  $out/mould_A_model.json          the mould A profile (model file)"
 echo "  $out/new_batch_A_scored.csv      the new batch's mould A shots scored against it"
 echo "  $out/report_mould_A.html         the HTML report (open it in a browser)"
+echo "  $out/compare_mould_A.html        the batch comparison as a page"

@@ -20,6 +20,7 @@ enum ExitCode : int {
   kExitData = 3,       // unreadable or unusable file or data
   kExitNumerical = 4,  // singular scatter, exact fit, no convergence
   kExitFlagged = 5,    // --fail-on-flag and at least one row flagged
+  kExitChanged = 6,    // compare --fail-on-change and some test significant
   kExitInternal = 70,  // a defect: please report
 };
 

@@ -10,10 +10,15 @@ namespace ellipsa::cli {
 Command add_inspect(CLI::App& parent) {
   auto path = std::make_shared<std::string>();
   auto out = std::make_shared<OutputFlags>();
+  auto data = std::make_shared<std::string>();
+  auto dialect = std::make_shared<DialectFlags>();
   CLI::App* app = parent.add_subcommand("inspect", "Show what a model file holds");
   app->add_option("model", *path, "Model file ('-' reads standard input)")->required();
+  app->add_option("--data", *data,
+                  "The CSV file the model was fitted on: also check whether the rows of the fit look elliptical (Mardia)");
+  add_dialect_flags(*app, *dialect);
   add_output_flags(*app, *out);
-  return {app, [path, out]() {
+  return {app, [path, out, data, dialect]() {
             const ModelPtr m = load_model_file(*path);
             int32_t kind = 0, components = 0;
             ellipsa_method method = 0;
@@ -66,6 +71,19 @@ Command add_inspect(CLI::App& parent) {
                   h << buf;
                 }
               }
+            }
+            if (!data->empty()) {
+              DialectFlags d = *dialect;
+              d.columns = names;
+              d.exclude.clear();
+              const Table t = read_table(*data, d.to_options());
+              const ellipsa_matrix x = t.view();
+              ellipsa_shape_test s;
+              s.struct_size = sizeof s;
+              check(ellipsa_model_shape(&s, m.get(), &x), "checking the shape of the rows of the fit");
+              h << "bulk shape (Mardia): " << shape_numbers(s) << "\n";
+              for (const auto& sentence : shape_sentences(s)) h << "  " << sentence << "\n";
+              j["shape"] = shape_json(s);
             }
             if (out->json) std::fputs((j.dump(2) + "\n").c_str(), stdout);
             else std::fputs(h.str().c_str(), stdout);

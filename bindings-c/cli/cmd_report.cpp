@@ -170,6 +170,13 @@ Command add_report(CLI::App& parent) {
             in.cutoff = chi2_quantile(a->level, static_cast<double>(cols.p));
             in.cutoff_2d = chi2_quantile(a->level, 2.0);
             in.facts = model_facts(model.get(), cols.components);
+            // Mardia's check needs the fitting rows: shown when the data are the model's own.
+            if (const auto shape = model_shape(model.get(), t.view())) {
+              in.facts.emplace_back("bulk shape (Mardia)", shape_numbers(*shape));
+              std::string note;
+              for (const auto& sentence : shape_sentences(*shape)) note += (note.empty() ? "" : " ") + sentence;
+              if (!note.empty()) in.facts.emplace_back("about the shape", note);
+            }
             in.values = t.values;
             in.contribution = block.contribution;
 

@@ -44,6 +44,7 @@ struct GroupResult {
   ModelPtr model;
   ScoreColumns cols;
   ScoreBlock block;
+  std::optional<ellipsa_shape_test> shape;  // Mardia on the rows of the fit
 };
 
 }  // namespace
@@ -100,6 +101,7 @@ Command add_screen(CLI::App& parent) {
               progress.finish();
               g.cols = score_columns(g.model.get());
               g.block.score(g.model.get(), g.cols, x, a->level);
+              g.shape = model_shape(g.model.get(), x);
               groups.push_back(std::move(g));
             }
 
@@ -156,6 +158,11 @@ Command add_screen(CLI::App& parent) {
               human << ", " << flagged.size() << " flagged\n" << lines.str();
               machine["groups"].push_back({{"group", g.name}, {"rows_used", used}, {"rows_dropped", dropped},
                                            {"flagged", flagged}});
+              if (g.shape) {
+                human << "    bulk shape (Mardia): " << shape_numbers(*g.shape) << "\n";
+                for (const auto& sentence : shape_sentences(*g.shape)) human << "    " << sentence << "\n";
+                machine["groups"].back()["shape"] = shape_json(*g.shape);
+              }
             }
             machine["flagged"] = total_flagged;
             if (!a->output.empty()) human << "scored rows written to " << a->output << "\n";

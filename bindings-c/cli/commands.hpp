@@ -3,6 +3,7 @@
 #pragma once
 #include <CLI/CLI.hpp>
 #include <functional>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -24,6 +25,7 @@ Command add_screen(CLI::App& parent);
 Command add_inspect(CLI::App& parent);
 Command add_report(CLI::App& parent);
 Command add_cluster(CLI::App& parent);
+Command add_compare(CLI::App& parent);
 
 // ---- pieces shared by fit and screen -------------------------------------
 struct FitFlags {
@@ -75,5 +77,15 @@ struct ScoreBlock {
 
 // The variables that contribute most to row r's distance, as "name (share%)".
 std::string top_contributors(const ScoreBlock& b, const ScoreColumns& c, std::size_t r, int how_many);
+
+// ---- Mardia's shape check, shared by screen, inspect and report ----------
+// The check of the rows a model was fitted on (x: the fitting data), or
+// nothing when the library cannot compute it (e.g. a mixture, too few rows).
+std::optional<ellipsa_shape_test> model_shape(const ellipsa_model* m, const ellipsa_matrix& x);
+// "skewness ... (p = ...), kurtosis ... against ... (p = ...), on N rows".
+std::string shape_numbers(const ellipsa_shape_test& s);
+// Plain sentences when the limits should be read as approximate (empty when none).
+std::vector<std::string> shape_sentences(const ellipsa_shape_test& s, double level = 0.05);
+nlohmann::json shape_json(const ellipsa_shape_test& s);
 
 }  // namespace ellipsa::cli

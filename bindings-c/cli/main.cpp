@@ -15,6 +15,7 @@ constexpr const char* kExitCodes =
     "  3  bad data or file (unreadable CSV, no numeric columns, too few rows, bad model file)\n"
     "  4  numerical failure (singular scatter, exact fit, no convergence)\n"
     "  5  rows were flagged (only with --fail-on-flag)\n"
+    "  6  compare: the new batch differs from the reference (only with --fail-on-change)\n"
     "  70 internal error (please report it)\n";
 }
 
@@ -24,7 +25,8 @@ int main(int argc, char** argv) {
   app.set_version_flag("--version", std::string("ellipsa ") + ellipsa_version());
   app.require_subcommand(0, 1);
   app.footer(kExitCodes);
-  std::vector<Command> commands{add_fit(app), add_score(app), add_screen(app), add_cluster(app), add_inspect(app), add_report(app)};
+  std::vector<Command> commands{add_fit(app), add_score(app), add_screen(app), add_cluster(app), add_inspect(app), add_report(app),
+                                add_compare(app)};
   for (auto& c : commands) c.app->footer(kExitCodes);
   try {
     app.parse(argc, argv);

@@ -88,11 +88,13 @@ std::string fmt(const char* format, double v) {
   return buf;
 }
 
-std::string p_value_text(double p) {
+std::string p_value_plain(double p) {
   if (std::isnan(p)) return "NA";
-  if (p == 0.0) return "&lt; 1e-300";
+  if (p == 0.0) return "< 1e-300";
   return fmt(p < 0.001 ? "%.1e" : "%.3f", p);
 }
+
+std::string p_value_text(double p) { return escape(p_value_plain(p)); }
 
 std::string tile(const std::string& key, const std::string& value, const std::string& note, bool alert = false) {
   return "<div class=\"tile\"><span class=\"k\">" + escape(key) + "</span><span class=\"v" + (alert ? " alert" : "") +
@@ -151,6 +153,15 @@ std::string matrix_subject(const ReportInput& in, bool any_flagged) {
 }
 
 }  // namespace
+
+// Shared with the comparison page (report_compare.cpp), so both pages look alike.
+const char* report_style() { return kStyle; }
+std::string report_p_value(double p) { return p_value_text(p); }
+std::string report_p_value_plain(double p) { return p_value_plain(p); }
+std::string report_number(const char* format, double v) { return fmt(format, v); }
+std::string report_tile(const std::string& key, const std::string& value, const std::string& note, bool alert) {
+  return tile(key, value, note, alert);
+}
 
 std::string render_report(const ReportInput& in) {
   std::vector<std::size_t> flagged;

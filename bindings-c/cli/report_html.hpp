@@ -68,6 +68,15 @@ struct ReportInput {
   std::vector<std::size_t> matrix_columns;  // variables asked for the scatter-plot matrix (empty: choose)
 };
 
+// Pieces shared by the pages: the style sheet, a p-value as HTML or plain text, a
+// formatted number, and an
+// at-a-glance tile (key, value, note; alert colours the value).
+const char* report_style();
+std::string report_p_value(double p);
+std::string report_p_value_plain(double p);  // the same as plain text ("NA", "< 1e-300", "0.012", "3.1e-05")
+std::string report_number(const char* format, double v);  // one printf-formatted number
+std::string report_tile(const std::string& key, const std::string& value, const std::string& note, bool alert);
+
 // The whole page. Deterministic: the same input gives the same bytes.
 std::string render_report(const ReportInput& in);
 

@@ -317,8 +317,47 @@ def numpy_main():
     check(child["text"] == here["text"], "same model file with and without NumPy")
 
 
+def compare_any_path():
+    """ellipsa.compare and ellipsa.shape on lists: T^2 against a pure-Python
+    two-pass computation with Gaussian elimination (an independent check)."""
+    a, b = list_data(21, 40, 3), list_data(22, 30, 3)
+    for r in b:
+        r[1] += 0.4
+    got = ellipsa.compare(a, b, permutations=9, seed=1)
+    p, n1, n2 = 3, len(a), len(b)
+    mean = lambda x: [sum(r[j] for r in x) / len(x) for j in range(p)]
+    ma, mb = mean(a), mean(b)
+    s = [[0.0] * p for _ in range(p)]
+    for x, m in ((a, ma), (b, mb)):
+        for r in x:
+            for i in range(p):
+                for j in range(p):
+                    s[i][j] += (r[i] - m[i]) * (r[j] - m[j]) / (n1 + n2 - 2)
+    d = [mb[j] - ma[j] for j in range(p)]
+    aug = [s[i][:] + [d[i]] for i in range(p)]
+    for k in range(p):  # Gaussian elimination, no pivoting needed (positive definite)
+        for i in range(k + 1, p):
+            f = aug[i][k] / aug[k][k]
+            for j in range(k, p + 1):
+                aug[i][j] -= f * aug[k][j]
+    w = [0.0] * p
+    for i in reversed(range(p)):
+        w[i] = (aug[i][p] - sum(aug[i][j] * w[j] for j in range(i + 1, p))) / aug[i][i]
+    t2 = n1 * n2 / (n1 + n2) * sum(d[j] * w[j] for j in range(p))
+    check(close(got["mean_shift"]["statistic"], t2, 1e-10), "compare: T^2 against pure Python")
+    check(got["mean_shift"]["law"] == "F" and got["covariance_change"]["law"] == "chi-square", "compare: laws")
+    check(got["robust_mean_shift"]["permutations_used"] + got["robust_mean_shift"]["permutations_failed"] == 9,
+          "compare: relabellings")
+    check(len(got["variables"]) == 3 and close(got["variables"][1]["batch_mean"], mb[1], 1e-12), "compare: variables")
+    check(got["rows"]["batch_used"] == 30, "compare: rows")
+    sh = ellipsa.shape(a)
+    check(sh["rows"] == 40 and sh["kurtosis_expected"] == 15.0 and not sh["approximate"], "shape of rows")
+    expect_error(lambda: ellipsa.compare(a, [r[:2] for r in b]), "ELLIPSA_ERR_SHAPE", "ellipsa_batch_compare")
+
+
 def main():
     errors_any_path()
+    compare_any_path()
     if np is None:
         result = list_path()
         if LISTS_ONLY:  # the parent reads the last line

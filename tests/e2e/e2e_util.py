@@ -49,3 +49,20 @@ def filtered_csv(src, dst, keep):
             if keep(r):
                 f.write(",".join(r[n] for n in names) + "\n")
     return dst
+
+
+class Checks:
+    """Collects failed checks; finish() prints the count and exits 1 if any failed."""
+
+    def __init__(self):
+        self.failures = []
+
+    def __call__(self, cond, what):
+        if not cond:
+            self.failures.append(what)
+            print("FAIL:", what)
+
+    def finish(self):
+        import sys
+        print(f"{len(self.failures)} failures")
+        sys.exit(1 if self.failures else 0)

@@ -4,6 +4,7 @@
     model = ellipsa.fit(data, method="mcd", seed=1)
     scores = model.score(new_rows, level=0.975)
     text = model.save(); same = ellipsa.load(text)
+    moved = ellipsa.compare(reference_rows, new_rows)   # has the process moved?
 
 Results are statistical evidence (distances, probabilities, flags at a chosen
 level), not verdicts about any row.
@@ -19,10 +20,11 @@ from ._lib import Error, lib as _clib, check as _check, status_name
 from ._matrix import HAVE_NUMPY
 from ._buffers import set_output, output_kind
 from ._model import Model, Scores, SCORE_FIELDS, fit, load
+from ._compare import compare, shape, model_shape
 
 __all__ = ["Error", "Model", "Scores", "SCORE_FIELDS", "fit", "load", "version", "status_name",
            "chi2_quantile", "chi2_tail", "f_quantile", "f_tail", "beta_quantile", "beta_tail",
-           "hotelling_limit", "set_output", "output_kind", "HAVE_NUMPY"]
+           "hotelling_limit", "set_output", "output_kind", "HAVE_NUMPY", "compare", "shape", "model_shape"]
 
 
 def version():

@@ -102,6 +102,50 @@ class ScoresBuffers(ctypes.Structure):
     ]
 
 
+class CompareOptions(ctypes.Structure):
+    """struct ellipsa_compare_options."""
+    _fields_ = [
+        ("struct_size", ctypes.c_int64),
+        ("robust", ctypes.c_int32),
+        ("permutations", ctypes.c_int32),
+        ("seed", ctypes.c_uint64),
+        ("alpha", ctypes.c_double),
+        ("progress", PROGRESS_FN),
+        ("progress_user", ctypes.c_void_p),
+    ]
+
+
+class TestResult(ctypes.Structure):
+    """struct ellipsa_test_result (one test of a comparison)."""
+    _fields_ = [
+        ("struct_size", ctypes.c_int64),
+        ("statistic", ctypes.c_double),
+        ("transformed", ctypes.c_double),
+        ("df1", ctypes.c_double),
+        ("df2", ctypes.c_double),
+        ("p_value", ctypes.c_double),
+        ("law", ctypes.c_int32),
+        ("approximate", ctypes.c_int32),
+        ("permutations_used", ctypes.c_int64),
+        ("permutations_failed", ctypes.c_int64),
+    ]
+
+
+class VariableShift(ctypes.Structure):
+    """struct ellipsa_variable_shift (one variable of a comparison)."""
+    _fields_ = [("struct_size", ctypes.c_int64)] + [
+        (name, ctypes.c_double) for name in
+        ("reference_mean", "reference_sd", "batch_mean", "batch_sd", "shift_in_sd", "t", "df", "p_value", "p_holm")]
+
+
+class ShapeTest(ctypes.Structure):
+    """struct ellipsa_shape_test (Mardia's skewness and kurtosis)."""
+    _fields_ = [("struct_size", ctypes.c_int64), ("rows", ctypes.c_int64)] + [
+        (name, ctypes.c_double) for name in
+        ("skewness", "skewness_statistic", "skewness_df", "skewness_p_value", "kurtosis", "kurtosis_expected",
+         "kurtosis_z", "kurtosis_p_value")] + [("approximate", ctypes.c_int32)]
+
+
 # --------------------------------------------------------------------------
 # Locating the library.
 def _candidate_paths():
@@ -187,6 +231,13 @@ _SIGNATURES = {
     "ellipsa_model_save": (_status, [_c.POINTER(_vp), _i64p, _vp]),
     "ellipsa_text_free": (None, [_vp]),
     "ellipsa_model_load": (_status, [_c.POINTER(_vp), _c.c_char_p, _c.c_int64]),
+    "ellipsa_batch_compare": (_status, [_c.POINTER(_vp), _mp, _mp, _c.POINTER(CompareOptions)]),
+    "ellipsa_comparison_destroy": (None, [_vp]),
+    "ellipsa_comparison_test": (_status, [_c.POINTER(TestResult), _vp, _c.c_int32]),
+    "ellipsa_comparison_variables": (_status, [_c.POINTER(VariableShift), _c.c_int64, _i64p, _vp]),
+    "ellipsa_comparison_rows": (_status, [_i64p, _i64p, _i64p, _i64p, _vp]),
+    "ellipsa_data_shape": (_status, [_c.POINTER(ShapeTest), _mp]),
+    "ellipsa_model_shape": (_status, [_c.POINTER(ShapeTest), _vp, _mp]),
 }
 
 for _name, (_res, _args) in _SIGNATURES.items():
