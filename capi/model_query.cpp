@@ -4,6 +4,7 @@
 #include <string>
 
 #include "boundary.hpp"
+#include "result_struct.hpp"
 #include "model.hpp"
 
 using ellipsa::capi::guard;
@@ -173,12 +174,19 @@ ELLIPSA_API ellipsa_status ellipsa_model_selection(ellipsa_candidate* out, int64
     if (out == nullptr) return ELLIPSA_OK;
     if (capacity < *count)
       throw Misuse{ELLIPSA_ERR_SHAPE, "selection needs capacity " + std::to_string(*count)};
+    // The first published ellipsa_candidate ends with `chosen`; later versions
+    // grow at the end, so the caller's element size is the stride.
+    constexpr int64_t kFirstSize = static_cast<int64_t>(sizeof(ellipsa_candidate));
+    const int64_t stride = table.empty() ? kFirstSize : out[0].struct_size;
+    if (!table.empty() && stride < kFirstSize)
+      throw Misuse{ELLIPSA_ERR_SHAPE, "ellipsa_candidate.struct_size too small: use ELLIPSA_CANDIDATE_INIT"};
+    auto* base = reinterpret_cast<unsigned char*>(out);
     for (size_t i = 0; i < table.size(); ++i)
-      if (out[i].struct_size < static_cast<int64_t>(sizeof(ellipsa_candidate)))
-        throw Misuse{ELLIPSA_ERR_SHAPE, "ellipsa_candidate.struct_size too small (set it to sizeof)"};
+      if (reinterpret_cast<ellipsa_candidate*>(base + static_cast<int64_t>(i) * stride)->struct_size != stride)
+        throw Misuse{ELLIPSA_ERR_SHAPE, "ellipsa_candidate.struct_size differs between elements"};
     for (size_t i = 0; i < table.size(); ++i) {
       const auto& c = table[i];
-      ellipsa_candidate& e = out[i];
+      ellipsa_candidate e{};
       e.components = c.components;
       e.structure = c.structure;
       e.log_likelihood = c.log_likelihood;
@@ -187,6 +195,8 @@ ELLIPSA_API ellipsa_status ellipsa_model_selection(ellipsa_candidate* out, int64
       e.icl = c.icl;
       e.converged = c.converged ? 1 : 0;
       e.chosen = c.chosen ? 1 : 0;
+      auto* element = reinterpret_cast<ellipsa_candidate*>(base + static_cast<int64_t>(i) * stride);
+      ellipsa::capi::write_sized(element, e, kFirstSize, "ellipsa_candidate");
     }
     return ELLIPSA_OK;
   });

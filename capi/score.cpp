@@ -23,9 +23,10 @@ namespace core = ellipsa::core;
 namespace {
 
 // The fields a caller compiled against an older, shorter struct does not have
-// are treated as NULL.
+// are treated as NULL. The first published version (0.1.0, abi/) already ends
+// with low_density: nothing shorter ever shipped.
 ellipsa_scores effective_buffers(const ellipsa_scores& in) {
-  constexpr int64_t kFirstVersion = static_cast<int64_t>(offsetof(ellipsa_scores, low_density));
+  constexpr int64_t kFirstVersion = static_cast<int64_t>(sizeof(ellipsa_scores));
   if (in.struct_size < kFirstVersion)
     throw Misuse{ELLIPSA_ERR_SHAPE, "ellipsa_scores.struct_size too small: initialise with ELLIPSA_SCORES_INIT"};
   ellipsa_scores out;

@@ -3,11 +3,10 @@
 
 #include <algorithm>
 #include <cctype>
-#include <cstddef>
-#include <cstring>
 #include <string>
 
 #include "boundary.hpp"
+#include "result_struct.hpp"
 
 namespace ellipsa::capi::sheet {
 namespace {
@@ -125,18 +124,6 @@ std::vector<FunctionSpec> build() {
   return c;
 }
 
-// Copies the fields of `full` that fit in the caller's struct_size (which must
-// cover at least the first version, `first_size` bytes).
-template <class T>
-void copy_fitting(T* out, const T& full, size_t first_size, const char* type) {
-  if (out->struct_size < static_cast<int64_t>(first_size))
-    throw Misuse{ELLIPSA_ERR_SHAPE, std::string(type) + ".struct_size too small (set it to sizeof)"};
-  const size_t n = std::min(static_cast<size_t>(out->struct_size), sizeof(T));
-  const int64_t keep = out->struct_size;
-  std::memcpy(static_cast<void*>(out), &full, n);
-  out->struct_size = keep;
-}
-
 }  // namespace
 
 const std::vector<FunctionSpec>& catalog() {
@@ -182,7 +169,7 @@ ELLIPSA_API ellipsa_status ellipsa_sheet_function_describe(ellipsa_sheet_functio
     full.required_count = static_cast<int32_t>(
         std::count_if(f.arguments.begin(), f.arguments.end(), [](const auto& a) { return !a.optional; }));
     full.result_shape = f.shape;
-    sheet::copy_fitting(out, full, sizeof(ellipsa_sheet_function_info), "ellipsa_sheet_function_info");
+    ellipsa::capi::write_sized(out, full, sizeof(ellipsa_sheet_function_info), "ellipsa_sheet_function_info");
     return ELLIPSA_OK;
   });
 }
@@ -202,7 +189,7 @@ ELLIPSA_API ellipsa_status ellipsa_sheet_argument_describe(ellipsa_sheet_argumen
     full.kind = a.kind;
     full.optional = a.optional ? 1 : 0;
     full.default_text = a.default_text;
-    sheet::copy_fitting(out, full, sizeof(ellipsa_sheet_argument_info), "ellipsa_sheet_argument_info");
+    ellipsa::capi::write_sized(out, full, sizeof(ellipsa_sheet_argument_info), "ellipsa_sheet_argument_info");
     return ELLIPSA_OK;
   });
 }

@@ -737,7 +737,7 @@ ELLIPSA_API ellipsa_status ellipsa_model_row_set(int64_t *out, int64_t capacity,
 
 /** One candidate of a mixture model choice. Grows only at the end. */
 typedef struct ellipsa_candidate {
-  int64_t struct_size;    /**< Set to sizeof(ellipsa_candidate) by the caller. */
+  int64_t struct_size;    /**< Set by the caller (::ELLIPSA_CANDIDATE_INIT), the same in every element. */
   int32_t components;     /**< K. */
   int32_t structure;      /**< ELLIPSA_STRUCTURE_ value. */
   double log_likelihood;  /**< Maximised log-likelihood (NaN if the fit failed). */
@@ -748,14 +748,25 @@ typedef struct ellipsa_candidate {
   int32_t chosen;         /**< 1 for the candidate the model holds. */
 } ellipsa_candidate;
 
+/** Initialiser for ::ellipsa_candidate (sets struct_size). */
+#define ELLIPSA_CANDIDATE_INIT \
+  { (int64_t)sizeof(ellipsa_candidate), 0, 0, 0.0, 0, 0.0, 0.0, 0, 0 }
+
 /**
  * @brief Mixtures: the model-choice table, one entry per candidate tried.
- * @param[out] out      Array of capacity entries (each with struct_size set), or NULL.
+ *
+ * The array is walked with the caller's element size (out[0].struct_size), so
+ * a caller compiled against an older, shorter ::ellipsa_candidate, or a newer,
+ * longer one, gets every field both know; each element's struct_size is set to
+ * the bytes written.
+ * @param[out] out      Array of capacity entries (each with the same struct_size,
+ *                      at least the first version's), or NULL.
  * @param capacity      Entries available.
  * @param[out] count    Number of candidates (always written on success).
  * @param model         The model.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_STATE (not a mixture);
- *         ::ELLIPSA_ERR_SHAPE (capacity too small, or struct_size too small).
+ *         ::ELLIPSA_ERR_SHAPE (capacity too small, a struct_size below the first
+ *         version, or elements whose struct_size differs).
  */
 ELLIPSA_API ellipsa_status ellipsa_model_selection(ellipsa_candidate *out, int64_t capacity,
                                                    int64_t *count, const ellipsa_model *model);
@@ -1171,7 +1182,8 @@ ELLIPSA_API ellipsa_status ellipsa_sheet_function_count(int32_t *count);
  * @brief Describes catalog function `index`.
  *
  * Only the fields that fit in the caller's struct_size are written, so a
- * caller compiled against an older, shorter struct keeps working.
+ * caller compiled against an older, shorter struct keeps working; struct_size
+ * is then set to the bytes written.
  * @param[out] out    The description; out->struct_size must be set and at least
  *                    the size of the first version (up to result_shape).
  * @param index       0 <= index < count.
@@ -1184,7 +1196,8 @@ ELLIPSA_API ellipsa_status ellipsa_sheet_function_describe(ellipsa_sheet_functio
 /**
  * @brief Describes argument `argument` of catalog function `index`.
  * @param[out] out  The description; out->struct_size must be set (at least the
- *                  first version's size); only fields that fit are written.
+ *                  first version's size); only fields that fit are written and
+ *                  struct_size is set to the bytes written.
  * @param index     Function, 0 <= index < count.
  * @param argument  0 <= argument < argument_count of that function.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (an index);

@@ -137,7 +137,7 @@ TEST(SheetCatalog, InfoStructsAreWalkedWithTheCallersSize) {
   longer.future = 12345;
   ASSERT_EQ(ellipsa_sheet_function_describe(&longer.info, 0), ELLIPSA_OK);
   EXPECT_EQ(longer.future, 12345);
-  EXPECT_EQ(longer.info.struct_size, static_cast<int64_t>(sizeof longer));
+  EXPECT_EQ(longer.info.struct_size, static_cast<int64_t>(sizeof(ellipsa_sheet_function_info)));  // what was written
   EXPECT_STREQ(longer.info.name, info(0).name);
   // A struct_size below the first version is refused.
   ellipsa_sheet_function_info small{};
