@@ -15,6 +15,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <cstdio>
 #include <fstream>
 #include <sstream>
 #include <string>
@@ -128,6 +129,7 @@ TEST(Calibration, MaskingResistanceIsKept) {
   const auto flag = default_flags(x, n, x, n, p, ELLIPSA_REFERENCE_FITTING_ROWS, 1);
   int hit = 0, false_flags = 0;
   for (int64_t i = 0; i < n; ++i) (i < shifted ? hit : false_flags) += flag[static_cast<size_t>(i)] == 1;
+  std::printf("masking: %d of 100 shifted rows flagged, %d of 300 others\n", hit, false_flags);
   EXPECT_GE(hit, 98);
   EXPECT_LE(false_flags, 20);
 }
@@ -157,6 +159,8 @@ TEST(Calibration, DemoNewBatchFlagsThePlantedFaultsAndFewCleanShots) {
     if (fault) faults_flagged += flag[static_cast<size_t>(i)] == 1;
     else clean_flags += flag[static_cast<size_t>(i)] == 1;
   }
+  std::printf("demo new batch, mould A: %d of 3 faults flagged, %d of 117 clean shots\n", faults_flagged,
+              clean_flags);
   EXPECT_EQ(faults_flagged, 3);
   EXPECT_LE(clean_flags, 8);
 }
