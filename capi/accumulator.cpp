@@ -162,6 +162,7 @@ ELLIPSA_API ellipsa_status ellipsa_model_from_accumulator(ellipsa_model** out, c
     m->rows_used = n;
     m->rows_dropped = accumulator->skipped;  // which rows is not known here
     ellipsa::capi::finalise_or_explain(*m);
+    ellipsa::capi::record_reference(*m, *options);
     *out = m.release();
     return ELLIPSA_OK;
   });

@@ -171,6 +171,7 @@ extern "C" ELLIPSA_API ellipsa_status ellipsa_model_fit(ellipsa_model** out, con
       default: throw Misuse{ELLIPSA_ERR_ARGUMENT, "unknown method"};
     }
     finalise_or_explain(*m);
+    record_reference(*m, o);
     *out = m.release();
     return ELLIPSA_OK;
   });

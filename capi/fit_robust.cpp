@@ -49,12 +49,14 @@ core::RobustFit run(const PreparedData& d, const ellipsa_fit_options& o) {
     core::FastMcdOptions f;
     f.alpha = o.alpha;
     f.seed = o.seed;
+    f.small_sample = o.small_sample ? core::SmallSample::Both : core::SmallSample::Off;
     f.progress = progress_of(o);
     return core::fast_mcd(x, f);
   }
   if (o.method == ELLIPSA_METHOD_DETMCD) {
     core::DetMcdOptions f;
     f.alpha = o.alpha;
+    f.small_sample = o.small_sample ? core::SmallSample::Both : core::SmallSample::Off;
     f.progress = progress_of(o);
     return core::det_mcd(x, f);
   }
@@ -81,6 +83,8 @@ void fit_robust(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_optio
   part.outlier_rows = original_rows(flagged, d);
   part.consistency_factor = r.consistency_factor;
   part.reweight_factor = r.reweight_factor;
+  part.small_sample_raw = r.small_sample.raw;
+  part.small_sample_reweighted = r.small_sample.reweighted;
   part.raw_log_det = r.raw_log_det;
   Eigen::MatrixXd scatter = r.scatter;
   if (o.method == ELLIPSA_METHOD_MRCD) {

@@ -22,6 +22,8 @@ struct RobustPart {
   std::vector<int64_t> outlier_rows;   // 0-based rows of the fitting data
   double consistency_factor = 1.0;
   double reweight_factor = 1.0;
+  double small_sample_raw = 1.0;         // small-sample factors applied (1: none or off)
+  double small_sample_reweighted = 1.0;
   double raw_log_det = 0.0;
   std::optional<double> regularisation;  // MRCD rho
   std::string regularisation_target;     // MRCD: description of the target
@@ -73,6 +75,12 @@ struct ellipsa_model {
   std::optional<double> shrinkage_intensity;
   std::optional<ellipsa::capi::RobustPart> robust;
   std::optional<ellipsa::capi::MixturePart> mixture;
+  // Scoring reference recorded at fit time (ELLIPSA_REFERENCE_CHI2, _NEW_ROWS,
+  // _FITTING_ROWS; files of format 1 read as CHI2) and the reference rows m
+  // of the new-rows and the fitting-rows distributions (score_reference.cpp).
+  int32_t reference = ELLIPSA_REFERENCE_CHI2;
+  double reference_rows = 0.0;
+  double fitting_reference_rows = 0.0;
 
   int64_t dimension() const { return static_cast<int64_t>(columns.size()); }
 };
@@ -81,6 +89,10 @@ namespace ellipsa::capi {
 // Factors every component's scatter; throws core::Error(Singular) naming the
 // component when one is not positive definite.
 void finalise(ellipsa_model& m);
+// The scoring reference of a new model: the options' choice, or the default
+// (score_reference.cpp). Call after the estimate is in place. Throws
+// core::Error(Data) when a chosen reference needs more rows than the fit had.
+void record_reference(ellipsa_model& m, const ellipsa_fit_options& o);
 // Column names from the options, or x1..xp.
 std::vector<std::string> column_names_or_default(const std::vector<std::string>& given, int64_t p);
 }  // namespace ellipsa::capi

@@ -10,6 +10,7 @@
 #include "core/error.hpp"
 #include "model.hpp"
 #include "options.hpp"
+#include "score_reference.hpp"
 
 using ellipsa::capi::guard;
 using ellipsa::capi::Misuse;
@@ -22,7 +23,9 @@ bool method_from_name(const char* name, ellipsa_method* out);
 
 namespace {
 
-constexpr int kFormatVersion = 1;
+// Format 2 adds the scoring reference and the small-sample factors; format 1
+// files still load (scored against the chi-square, as they were written for).
+constexpr int kFormatVersion = 2;
 constexpr int64_t kMaxBytes = int64_t{1} << 30;
 constexpr int kMaxDepth = 16;
 constexpr int64_t kMaxDimension = 100000;
@@ -119,6 +122,31 @@ std::vector<int64_t> read_rows(const json& v, int64_t limit, const std::string& 
   return rows;
 }
 
+// Format 2, Gaussian models: {"kind": "chi2" | "new-rows" | "fitting-rows",
+// "rows": m of the new-rows distribution, "fitting_rows": m of the
+// fitting-rows one}; both positive and at most 1000 n_rows_used (effective
+// counts may exceed the rows), and the recorded kind must be usable.
+void read_reference(const json& j, ellipsa_model& m) {
+  const auto& r = field(j, "scoring_reference");
+  if (!r.is_object()) format_error("\"scoring_reference\" must be an object");
+  const auto& kind = field(r, "kind");
+  int32_t ref = 0;
+  if (!kind.is_string() || !reference_from_name(kind.get<std::string>().c_str(), &ref) ||
+      ref == ELLIPSA_REFERENCE_MODEL)
+    format_error("scoring_reference.kind must be \"chi2\", \"new-rows\" or \"fitting-rows\"");
+  m.reference = ref;
+  m.reference_rows = number(field(r, "rows"), "scoring_reference.rows");
+  m.fitting_reference_rows = number(field(r, "fitting_rows"), "scoring_reference.fitting_rows");
+  const double limit = 1000.0 * static_cast<double>(m.rows_used);
+  for (double v : {m.reference_rows, m.fitting_reference_rows})
+    if (!(v > 0.0) || v > limit) format_error("scoring_reference rows must lie in (0, 1000 n_rows_used]");
+  try {
+    score_reference(m, ref);
+  } catch (const Misuse&) {
+    format_error("scoring_reference.rows is too small for the reference and the number of columns");
+  }
+}
+
 }  // namespace
 
 std::string model_to_json(const ellipsa_model& m) {
@@ -138,6 +166,9 @@ std::string model_to_json(const ellipsa_model& m) {
     if (m.method == ELLIPSA_METHOD_CLASSICAL)
       j["normalisation"] = m.divisor == ELLIPSA_DIVISOR_N ? "n" : "n-1";
     if (m.shrinkage_intensity) j["shrinkage_intensity"] = *m.shrinkage_intensity;
+    j["scoring_reference"] = {{"kind", reference_name(m.reference)},
+                              {"rows", m.reference_rows},
+                              {"fitting_rows", m.fitting_reference_rows}};
     if (m.robust) {
       const auto& r = *m.robust;
       j["h"] = r.h;
@@ -147,6 +178,8 @@ std::string model_to_json(const ellipsa_model& m) {
       j["outlier_rows"] = rows_json(r.outlier_rows);
       j["consistency_factor"] = r.consistency_factor;
       j["reweight_factor"] = r.reweight_factor;
+      if (m.method == ELLIPSA_METHOD_MCD || m.method == ELLIPSA_METHOD_DETMCD)
+        j["small_sample_factors"] = {{"raw", r.small_sample_raw}, {"reweighted", r.small_sample_reweighted}};
       j["raw_log_det"] = r.raw_log_det;
       if (r.regularisation)
         j["regularisation"] = {{"rho", *r.regularisation}, {"target", r.regularisation_target}};
@@ -200,8 +233,8 @@ ellipsa_model model_from_json(const char* text, int64_t length) {
   if (!field(j, "format").is_string() || field(j, "format").get<std::string>() != "ellipsa-model")
     format_error("\"format\" must be \"ellipsa-model\"");
   const int64_t version = integer(field(j, "format_version"), "format_version", 1, 1000000);
-  if (version != kFormatVersion)
-    format_error("format_version " + std::to_string(version) + " is not supported (this library reads " +
+  if (version < 1 || version > kFormatVersion)
+    format_error("format_version " + std::to_string(version) + " is not supported (this library reads 1 to " +
                  std::to_string(kFormatVersion) + ")");
 
   ellipsa_model m;
@@ -261,6 +294,14 @@ ellipsa_model model_from_json(const char* text, int64_t length) {
       r.consistency_factor = number(field(j, "consistency_factor"), "consistency_factor");
       r.reweight_factor = number(field(j, "reweight_factor"), "reweight_factor");
       r.raw_log_det = number(field(j, "raw_log_det"), "raw_log_det");
+      if (version >= 2 && (m.method == ELLIPSA_METHOD_MCD || m.method == ELLIPSA_METHOD_DETMCD)) {
+        const auto& f = field(j, "small_sample_factors");
+        if (!f.is_object()) format_error("\"small_sample_factors\" must be an object");
+        r.small_sample_raw = number(field(f, "raw"), "small_sample_factors.raw");
+        r.small_sample_reweighted = number(field(f, "reweighted"), "small_sample_factors.reweighted");
+        if (!(r.small_sample_raw > 0.0) || !(r.small_sample_reweighted > 0.0))
+          format_error("small_sample_factors must be positive");
+      }
       if (j.contains("regularisation")) {
         const auto& reg = j["regularisation"];
         if (!reg.is_object()) format_error("\"regularisation\" must be an object");
@@ -270,6 +311,12 @@ ellipsa_model model_from_json(const char* text, int64_t length) {
         m.shrinkage_intensity = r.regularisation;
       }
       m.robust = std::move(r);
+    }
+    if (version >= 2) read_reference(j, m);
+    else {  // format 1: chi-square, other references on request
+      const ReferenceRows rows = reference_rows_of(m);
+      m.reference_rows = rows.new_rows;
+      m.fitting_reference_rows = rows.fitting_rows;
     }
   } else {
     ellipsa::capi::MixturePart x;

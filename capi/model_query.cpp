@@ -49,6 +49,15 @@ double diagnostic(const ellipsa_model& m, const std::string& name) {
   if (name == "consistency_factor") return robust().consistency_factor;
   if (name == "reweight_factor") return robust().reweight_factor;
   if (name == "raw_log_det") return robust().raw_log_det;
+  if (name == "small_sample_raw" || name == "small_sample_reweighted") {
+    if (m.method != ELLIPSA_METHOD_MCD && m.method != ELLIPSA_METHOD_DETMCD) not_for_this_model(name);
+    return name == "small_sample_raw" ? robust().small_sample_raw : robust().small_sample_reweighted;
+  }
+  if (name == "reference") return static_cast<double>(m.reference);
+  if (name == "reference_rows" || name == "fitting_reference_rows") {
+    if (m.kind != ELLIPSA_KIND_GAUSSIAN) not_for_this_model(name);
+    return name == "reference_rows" ? m.reference_rows : m.fitting_reference_rows;
+  }
   if (name == "log_likelihood") return mixture().log_likelihood;
   if (name == "bic") return mixture().bic;
   if (name == "icl") return mixture().icl;

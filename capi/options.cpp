@@ -171,6 +171,26 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_alpha(ellipsa_fit_options* o,
   });
 }
 
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_small_sample(ellipsa_fit_options* o, int32_t on) {
+  return set("ellipsa_fit_options_set_small_sample", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_DETMCD}, "the small-sample factors");
+    if (on != 0 && on != 1) bad("on must be 0 or 1");
+    x.small_sample = on;
+  });
+}
+
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_reference(ellipsa_fit_options* o, int32_t reference) {
+  return set("ellipsa_fit_options_set_reference", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS,
+                       ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_DETMCD, ELLIPSA_METHOD_MRCD},
+                   "a scoring reference");
+    if (reference != ELLIPSA_REFERENCE_CHI2 && reference != ELLIPSA_REFERENCE_NEW_ROWS &&
+        reference != ELLIPSA_REFERENCE_FITTING_ROWS)
+      bad("reference must be ELLIPSA_REFERENCE_CHI2, _NEW_ROWS or _FITTING_ROWS");
+    x.reference = reference;
+  });
+}
+
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_seed(ellipsa_fit_options* o, uint64_t seed) {
   return set("ellipsa_fit_options_set_seed", o, [&](ellipsa_fit_options& x) {
     require_method(x, {ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_MIXTURE}, "a seed"); x.seed = seed; });

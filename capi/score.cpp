@@ -14,6 +14,7 @@
 #include "matrix_view.hpp"
 #include "mixture_convert.hpp"
 #include "model.hpp"
+#include "score_reference.hpp"
 
 using ellipsa::capi::guard;
 using ellipsa::capi::Misuse;
@@ -35,9 +36,10 @@ ellipsa_scores effective_buffers(const ellipsa_scores& in) {
   return out;
 }
 
-core::ScoringOptions scoring_options(const ellipsa_scores& b, double level) {
+core::ScoringOptions scoring_options(const ellipsa_scores& b, double level, const core::ScoreReference& ref) {
   core::ScoringOptions o;
   o.level = level;
+  o.reference = ref;
   o.p_values = b.p_value != nullptr;
   o.contributions = b.contribution != nullptr;
   o.conditional_drops = b.conditional_drop != nullptr;
@@ -62,10 +64,11 @@ void write_gaussian(const ellipsa_scores& b, const core::RowScores& s, const std
   }
 }
 
-void score_gaussian(const ellipsa_scores& b, const ellipsa_model& m, core::DataView x, double level) {
+void score_gaussian(const ellipsa_scores& b, const ellipsa_model& m, core::DataView x, double level,
+                    const core::ScoreReference& ref) {
   const auto& c = m.components.front();
   const core::MahalanobisScorer scorer(c.location, c.factor);
-  const auto s = scorer.score(x, scoring_options(b, level));
+  const auto s = scorer.score(x, scoring_options(b, level, ref));
   std::vector<int64_t> rows(static_cast<size_t>(x.rows()));
   for (int64_t i = 0; i < x.rows(); ++i) rows[static_cast<size_t>(i)] = i;
   write_gaussian(b, s, rows, x.cols());
@@ -130,15 +133,17 @@ void score_mixture_model(const ellipsa_scores& b, const ellipsa_model& m, core::
     const Eigen::MatrixXd block = core::gather(x, rows);
     const auto& c = m.components[static_cast<size_t>(k < 0 ? 0 : k)];
     const core::MahalanobisScorer scorer(c.location, c.factor);
-    write_gaussian(b, scorer.score(core::make_view(block), scoring_options(b, level)), out_rows, p);
+    write_gaussian(b, scorer.score(core::make_view(block), scoring_options(b, level, {})), out_rows, p);
   }
 }
 
 }  // namespace
 
-extern "C" ELLIPSA_API ellipsa_status ellipsa_model_score(ellipsa_scores* out, const ellipsa_model* model,
-                                                          const ellipsa_matrix* data, double level) {
-  return guard("ellipsa_model_score", [&] {
+namespace {
+
+ellipsa_status score_with(const char* fn, ellipsa_scores* out, const ellipsa_model* model,
+                          const ellipsa_matrix* data, double level, int32_t reference) {
+  return guard(fn, [&] {
     require_not_null(out, "out");
     require_not_null(model, "model");
     const ellipsa_scores b = effective_buffers(*out);
@@ -147,9 +152,23 @@ extern "C" ELLIPSA_API ellipsa_status ellipsa_model_score(ellipsa_scores* out, c
       throw Misuse{ELLIPSA_ERR_SHAPE, "data has " + std::to_string(x.cols()) + " columns, the model " +
                                           std::to_string(model->dimension())};
     if (!(level > 0.0 && level < 1.0)) throw Misuse{ELLIPSA_ERR_ARGUMENT, "level must lie in (0, 1)"};
+    const core::ScoreReference ref = ellipsa::capi::score_reference(*model, reference);
     if (x.rows() == 0) return ELLIPSA_OK;
     if (model->kind == ELLIPSA_KIND_MIXTURE) score_mixture_model(b, *model, x, level);
-    else score_gaussian(b, *model, x, level);
+    else score_gaussian(b, *model, x, level, ref);
     return ELLIPSA_OK;
   });
+}
+
+}  // namespace
+
+extern "C" ELLIPSA_API ellipsa_status ellipsa_model_score(ellipsa_scores* out, const ellipsa_model* model,
+                                                          const ellipsa_matrix* data, double level) {
+  return score_with("ellipsa_model_score", out, model, data, level, ELLIPSA_REFERENCE_MODEL);
+}
+
+extern "C" ELLIPSA_API ellipsa_status ellipsa_model_score_v2(ellipsa_scores* out, const ellipsa_model* model,
+                                                             const ellipsa_matrix* data, double level,
+                                                             int32_t reference) {
+  return score_with("ellipsa_model_score_v2", out, model, data, level, reference);
 }

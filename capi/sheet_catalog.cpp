@@ -35,6 +35,10 @@ const ArgumentSpec kComponents{"components", "number of regimes K, or a range su
 const ArgumentSpec kStructure{"structure", "covariance of each regime: full, diagonal, tied, spherical or all",
                               kText, true, "full"};
 
+const ArgumentSpec kLimit{"limit",
+                          "distribution of the p-value and flag: new-rows, fitting-rows or chi2", kText, true,
+                          "fitting-rows without a reference, new-rows with one"};
+
 const char* const kScreening = "ellipsa: screening";
 const char* const kProfile = "ellipsa: profile";
 const char* const kRegimes = "ellipsa: regimes";
@@ -47,11 +51,11 @@ std::vector<FunctionSpec> build() {
                {kRows, kReference, kRobustMethod, kAlpha, kSeed}, ELLIPSA_SHEET_SHAPE_PER_ROW, shape_per_row,
                eval_distance});
   c.push_back({"ELL.PVALUE", kScreening,
-               "Chance of a distance at least this large for a row that fits the profile (chi-square tail)",
-               {kRows, kReference, kRobustMethod, kAlpha, kSeed}, ELLIPSA_SHEET_SHAPE_PER_ROW, shape_per_row,
+               "Chance of a distance at least this large for a row that fits the profile",
+               {kRows, kReference, kRobustMethod, kAlpha, kSeed, kLimit}, ELLIPSA_SHEET_SHAPE_PER_ROW, shape_per_row,
                eval_p_value});
   c.push_back({"ELL.FLAG", kScreening, "1 when a row lies beyond the flagging level of the profile, else 0",
-               {kRows, kReference, kLevel, kRobustMethod, kAlpha, kSeed}, ELLIPSA_SHEET_SHAPE_PER_ROW,
+               {kRows, kReference, kLevel, kRobustMethod, kAlpha, kSeed, kLimit}, ELLIPSA_SHEET_SHAPE_PER_ROW,
                shape_per_row, eval_flag});
   c.push_back({"ELL.DRIVER", kScreening,
                "Column number (1 = first column of rows) that adds most to each row's distance",

@@ -3,6 +3,7 @@
 // ellipsa_model_score(), and lay the numbers out as cells. No arithmetic of
 // its own beyond choosing the largest contribution.
 #include <cmath>
+#include <string>
 #include <vector>
 
 #include "boundary.hpp"
@@ -27,6 +28,26 @@ struct Scored {
   std::vector<int32_t> flag;
 };
 
+// The distribution p-values and flags come from: the `limit` argument, else
+// the rows' role, as the batch tool does: rows screened against their own fit
+// are fitting rows (`ellipsa screen`), rows scored against a reference range
+// are new rows (`ellipsa score`).
+// Functions without p-values or flags (distances, drivers, contributions) do
+// not depend on it and use the chi-square, which every model accepts.
+int32_t reference_of(const Arguments& a) {
+  bool has_limit = false;
+  for (const auto& spec : a.function().arguments) has_limit = has_limit || std::string(spec.name) == "limit";
+  if (!has_limit) return ELLIPSA_REFERENCE_CHI2;
+  int32_t reference = a.given("reference") ? ELLIPSA_REFERENCE_NEW_ROWS : ELLIPSA_REFERENCE_FITTING_ROWS;
+  {
+    if (const auto name = a.text("limit")) {
+      if (ellipsa_reference_from_name(&reference, name->c_str()) != ELLIPSA_OK || reference == ELLIPSA_REFERENCE_MODEL)
+        throw Misuse{ELLIPSA_ERR_ARGUMENT, "limit: unknown limit '" + *name + "' (new-rows, fitting-rows or chi2)"};
+    }
+  }
+  return reference;
+}
+
 enum Want : unsigned { kDistance = 1, kPValue = 2, kFlag = 4, kContribution = 8, kConditional = 16 };
 
 Scored score(const Arguments& a, ellipsa_sheet_cache* cache, unsigned want, double level) {
@@ -46,7 +67,7 @@ Scored score(const Arguments& a, ellipsa_sheet_cache* cache, unsigned want, doub
   if (want & kContribution) buffers.contribution = (s.contribution.resize(np), s.contribution.data());
   if (want & kConditional) buffers.conditional_drop = (s.conditional_drop.resize(np), s.conditional_drop.data());
   const ellipsa_matrix view = rows.view();
-  check(ellipsa_model_score(&buffers, model.get(), &view, level), "rows");
+  check(ellipsa_model_score_v2(&buffers, model.get(), &view, level, reference_of(a)), "rows");
   return s;
 }
 

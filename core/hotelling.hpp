@@ -16,6 +16,13 @@ namespace ellipsa::core {
 // needs m > p. Throws Error(Argument) otherwise.
 double t2_phase1_limit(Index m, Index p, double alpha);
 double t2_phase2_limit(Index m, Index p, double alpha);
+// The same limits and their upper-tail probabilities P(T^2 > t2) for a
+// possibly non-integer number of reference rows m (an effective count), with
+// the same conditions on m. Phase I: 0 at and beyond the bound (m-1)^2/m.
+double t2_phase1_limit_real(double m, Index p, double alpha);
+double t2_phase2_limit_real(double m, Index p, double alpha);
+double t2_phase1_sf(double t2, double m, Index p);
+double t2_phase2_sf(double t2, double m, Index p);
 
 struct OneSampleT2 {
   Eigen::VectorXd mean;        // sample mean

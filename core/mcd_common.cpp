@@ -355,7 +355,8 @@ Eigen::VectorXd centred_distances(const Eigen::MatrixXd& z, const Eigen::VectorX
 
 }  // namespace
 
-RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h, double level) {
+RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h, double level,
+                     const SmallSampleFactors& small_sample) {
   const Index n = x.rows(), p = x.cols();
   RobustFit r;
   r.h = h;
@@ -363,8 +364,13 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
   r.reweight_level = level;
   r.consistency_factor = mcd_consistency_factor(h, n, p);
   r.reweight_factor = reweight_consistency_factor(level, p);
+  r.small_sample = small_sample;
+  // Pison, Van Aelst & Willems (2002): the consistency factor is exact only as
+  // n grows; the small-sample factor removes the remaining bias of the raw
+  // scatter before it chooses the rows to reweight.
+  const double raw_factor = r.consistency_factor * small_sample.raw;
   r.raw_location = s.centre + s.scale.cwiseProduct(best.mean);
-  r.raw_scatter = r.consistency_factor * scale_both_sides(best.cov, s.scale);
+  r.raw_scatter = raw_factor * scale_both_sides(best.cov, s.scale);
   r.raw_log_det = best.log_det + 2.0 * s.scale.array().log().sum();
   // Distances are affine invariant: compute them on the standardised data.
   // They set the reweighting flags and RobustFit::raw_d2/robust_d2; the
@@ -372,7 +378,7 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
   // on the returned location and scatter, not from here.
   const DataView zv = make_view(s.z);
   CholeskyFactor raw_chol;
-  if (!raw_chol.compute(r.consistency_factor * best.cov))
+  if (!raw_chol.compute(raw_factor * best.cov))
     throw Error(ErrorKind::Singular, "MCD: raw scatter is not positive definite (internal error)");
   r.raw_d2 = centred_distances(s.z, best.mean, raw_chol);
   const double cutoff = chi2_quantile(level, static_cast<double>(p));
@@ -387,7 +393,8 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
   acc.add(zv, w);
   CholeskyFactor chol;
   if (acc.rows() > p) {
-    const Eigen::MatrixXd cov_z = r.reweight_factor * acc.covariance(Normalisation::ByCount);
+    const Eigen::MatrixXd cov_z =
+        r.reweight_factor * small_sample.reweighted * acc.covariance(Normalisation::ByCount);
     if (chol.compute(cov_z)) {
       r.reweighted = true;
       r.location = s.centre + s.scale.cwiseProduct(acc.mean());

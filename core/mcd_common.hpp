@@ -16,6 +16,7 @@
 
 #include "cholesky.hpp"
 #include "data_view.hpp"
+#include "mcd_small_sample.hpp"
 
 namespace ellipsa::core {
 
@@ -38,11 +39,13 @@ struct Hyperplane {
 //
 // Regular fit (exact_fit == false):
 //   raw_location, raw_scatter: mean of the optimal h-subset and its covariance
-//     (divisor h) multiplied by consistency_factor (Croux & Haesbroeck 1999).
+//     (divisor h) multiplied by consistency_factor (Croux & Haesbroeck 1999)
+//     and by small_sample.raw (mcd_small_sample.hpp; 1 when switched off).
 //   raw_d2: squared Mahalanobis distance of every row under the raw estimate.
 //   outlier[i]: raw_d2[i] > chi2q(p, reweight_level) (the reweighting flags).
 //   location, scatter: mean and covariance (divisor = number of rows kept) of
-//     the rows not flagged, scatter multiplied by reweight_factor; when that
+//     the rows not flagged, scatter multiplied by reweight_factor and by
+//     small_sample.reweighted; when that
 //     covariance is singular, reweighted == false and they equal the raw ones.
 //   robust_d2: squared distance of every row under (location, scatter).
 //   raw_log_det: log det of the plain covariance (divisor h) of the h-subset,
@@ -66,6 +69,7 @@ struct RobustFit {
   Eigen::VectorXd raw_d2, robust_d2;
   double consistency_factor = 1.0;
   double reweight_factor = 1.0;
+  SmallSampleFactors small_sample;  // the small-sample factors applied (1 = none)
   double reweight_level = 0.975;
   bool reweighted = false;
   double raw_log_det = 0.0;
@@ -203,10 +207,11 @@ int c_steps_to_convergence(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, in
 std::optional<SubsetFit> exact_fit_subset(const Eigen::MatrixXd& z, const Eigen::MatrixXd& z_stage,
                                           const SubsetFit& singular_fit, Index h);
 
-// Final step of a regular fit: back to original units, consistency factor,
-// reweighting at chi2q(p, level).
+// Final step of a regular fit: back to original units, consistency and
+// small-sample factors, reweighting at chi2q(p, level) with the corrected raw
+// distances.
 RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h,
-                     double level);
+                     double level, const SmallSampleFactors& small_sample);
 
 // Result for an exact fit revealed by the (singular) subset fit `subset`.
 RobustFit exact_fit_result(DataView x, const Standardised& s, const SubsetFit& subset, Index h);

@@ -187,7 +187,9 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   if (opt.max_csteps < 1) throw Error(ErrorKind::Argument, "DetMCD: max_csteps must be positive");
   mcd_detail::check_input(x, opt.alpha, true, "DetMCD");
   const Index n = x.rows(), p = x.cols();
-  if (p == 1) return univariate_mcd(x, opt.alpha, opt.reweight_level);
+  const SmallSampleFactors small =
+      small_sample_factors(McdFamily::Deterministic, opt.small_sample, n, p, opt.alpha);
+  if (p == 1) return univariate_mcd(x, opt.alpha, opt.reweight_level, small);
   const Index h = mcd_subset_size(n, p, opt.alpha);
   mcd_detail::report_progress(opt.progress, "standardise", 0.0);
   const mcd_detail::Standardised st = mcd_detail::standardise(x, mcd_detail::ColumnScale::Qn);
@@ -203,7 +205,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
       const auto ex = mcd_detail::exact_fit_subset(z, z, whole, h);
       if (ex) return mcd_detail::exact_fit_result(x, st, *ex, h);
     }
-    if (h == n) return mcd_detail::finish_fit(x, st, whole, h, opt.reweight_level);
+    if (h == n) return mcd_detail::finish_fit(x, st, whole, h, opt.reweight_level, small);
   }
 
   mcd_detail::report_progress(opt.progress, "starting estimates", 0.05);
@@ -238,7 +240,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   }
   if (!best) throw Error(ErrorKind::Data, "DetMCD: no starting estimate gave a nonsingular subset");
   mcd_detail::report_progress(opt.progress, "reweighting", 0.95);
-  RobustFit r = mcd_detail::finish_fit(x, st, *best, h, opt.reweight_level);
+  RobustFit r = mcd_detail::finish_fit(x, st, *best, h, opt.reweight_level, small);
   r.iterations = iterations;
   r.starts = usable;
   mcd_detail::report_progress(opt.progress, "done", 1.0);

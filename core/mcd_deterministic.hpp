@@ -18,6 +18,8 @@ struct DetMcdOptions {
   double alpha = 0.5;             // h = mcd_subset_size(n, p, alpha)
   int max_csteps = 200;           // cap for "to convergence"
   double reweight_level = 0.975;  // reweighting cutoff chi2q(p, level)
+  // Small-sample factors of the raw and reweighted scatter (mcd_small_sample.hpp).
+  SmallSample small_sample = SmallSample::Both;
   ProgressCallback progress;      // optional; false cancels
 };
 

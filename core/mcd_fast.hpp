@@ -31,6 +31,8 @@ struct FastMcdOptions {
   // beyond, so that the full-data C-steps grow like n, not like n * best_kept.
   Index full_data_rows = 200000;
   double reweight_level = 0.975; // reweighting cutoff chi2q(p, level)
+  // Small-sample factors of the raw and reweighted scatter (mcd_small_sample.hpp).
+  SmallSample small_sample = SmallSample::Both;
   ProgressCallback progress;     // optional; false cancels
 };
 
@@ -44,6 +46,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& options = {});
 // The exact univariate MCD (p = 1): sort, then the h-window of consecutive
 // order statistics with the smallest variance, O(n log n). fast_mcd() and
 // det_mcd() call it for p = 1; exposed for tests.
-RobustFit univariate_mcd(DataView x, double alpha, double reweight_level = 0.975);
+RobustFit univariate_mcd(DataView x, double alpha, double reweight_level = 0.975,
+                         const SmallSampleFactors& small_sample = {});
 
 }  // namespace ellipsa::core

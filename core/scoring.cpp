@@ -179,13 +179,18 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
   // Cutoffs and p-values depend on the row's degrees of freedom only.
   Eigen::VectorXd cutoff(p + 1);
   cutoff(0) = kNaN;
-  for (Index df = 1; df <= p; ++df) cutoff(df) = chi2_quantile(opt.level, static_cast<double>(df));
+  for (Index df = 1; df <= p; ++df)
+    cutoff(df) = df <= reference_max_df(opt.reference) ? reference_limit(opt.reference, df, opt.level) : kNaN;
+  for (Index i = 0; i < n; ++i)
+    if (out.df(i) > 0 && std::isnan(cutoff(out.df(i))))
+      throw Error(ErrorKind::Argument, "scoring: row " + std::to_string(i) + " has " + std::to_string(out.df(i)) +
+                                           " observed coordinates, more than the reference rows of the profile support");
   out.flagged.resize(n);
   for (Index i = 0; i < n; ++i) out.flagged(i) = out.df(i) > 0 && out.d2(i) > cutoff(out.df(i));
   if (opt.p_values) {
     out.p_value.resize(n);
     for (Index i = 0; i < n; ++i)
-      out.p_value(i) = out.df(i) > 0 ? chi2_sf(out.d2(i), static_cast<double>(out.df(i))) : kNaN;
+      out.p_value(i) = out.df(i) > 0 ? reference_sf(opt.reference, out.df(i), out.d2(i)) : kNaN;
   }
   return out;
 }

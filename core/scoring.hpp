@@ -7,6 +7,7 @@
 
 #include "cholesky.hpp"
 #include "data_view.hpp"
+#include "score_reference.hpp"
 
 namespace ellipsa::core {
 
@@ -14,9 +15,11 @@ using IndexVector = Eigen::Matrix<Index, Eigen::Dynamic, 1>;
 using FlagVector = Eigen::Array<bool, Eigen::Dynamic, 1>;
 
 struct ScoringOptions {
-  // A row is flagged when d2 > chi2q(df, level); level in (0, 1). 0.975 is the
-  // usual screening convention, not a law.
+  // A row is flagged when d2 > the reference's limit for df observed
+  // coordinates at level (chi2q(df, level) by default); level in (0, 1). 0.975
+  // is the usual screening convention, not a law.
   double level = 0.975;
+  ScoreReference reference;
   bool p_values = true;           // fill RowScores::p_value
   bool contributions = false;     // fill RowScores::contributions
   bool conditional_drops = false; // fill RowScores::conditional_drops
@@ -24,9 +27,9 @@ struct ScoringOptions {
 
 struct RowScores {
   Eigen::VectorXd d2;       // squared distance; NaN for an all-missing row
-  Eigen::VectorXd p_value;  // P(chi2(df) > d2), NaN when df = 0; empty unless asked
+  Eigen::VectorXd p_value;  // upper tail of the reference (P(chi2(df) > d2) by default), NaN when df = 0; empty unless asked
   IndexVector df;           // observed coordinates used (p for a complete row)
-  FlagVector flagged;       // d2 > chi2q(df, level); never for an all-missing row
+  FlagVector flagged;       // d2 > the reference's limit (chi2q(df, level)); never for an all-missing row
   // n x p, c_ij = (x_i - T)_j (S_oo^-1 (x_i - T)_o)_j; each row sums to d2_i.
   // NaN at missing coordinates. Empty unless asked.
   Eigen::MatrixXd contributions;

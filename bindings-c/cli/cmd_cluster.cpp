@@ -66,7 +66,7 @@ Command add_cluster(CLI::App& parent) {
 
             const ScoreColumns cols = score_columns(m.get());
             ScoreBlock block;
-            block.score(m.get(), cols, view, a->level);
+            block.score(m.get(), cols, view, a->level, ELLIPSA_REFERENCE_MODEL);
             std::vector<int64_t> sizes(static_cast<std::size_t>(cols.components), 0);
             int64_t low = 0;
             for (std::size_t r = 0; r < static_cast<std::size_t>(t.rows()); ++r) {

@@ -87,6 +87,9 @@ Command add_fit(CLI::App& parent) {
   app->add_option("data", args->data, "CSV file with a header row ('-' reads standard input)")->required();
   app->add_option("-o,--output", args->output, "Model file to write (default: standard output)");
   add_fit_flags(*app, args->fit, true);
+  app->add_option("--reference", args->fit.reference,
+                  "Scoring reference recorded in the model: chi2, new-rows or fitting-rows "
+                  "(default: new-rows when the fit has rows enough; docs/calibration.md)");
   add_dialect_flags(*app, args->dialect);
   add_output_flags(*app, args->out);
   return {app, [args]() {

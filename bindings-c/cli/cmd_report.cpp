@@ -100,7 +100,7 @@ bool classical_distances(const Table& t, ReportInput& in, double level) {
     const ModelPtr m(raw);
     const ScoreColumns cols = score_columns(m.get());
     ScoreBlock block;
-    block.score(m.get(), cols, x, level);
+    block.score(m.get(), cols, x, level, ELLIPSA_REFERENCE_MODEL);
     for (std::size_t r = 0; r < in.rows.size(); ++r) in.rows[r].classical_d2 = block.d2[r];
     return true;
   } catch (const CliError& e) {
@@ -154,7 +154,7 @@ Command add_report(CLI::App& parent) {
             options.columns = in.columns;
             const Table t = read_table(a->data, options, true);
             ScoreBlock block;
-            block.score(model.get(), cols, t.view(), a->level);
+            block.score(model.get(), cols, t.view(), a->level, ELLIPSA_REFERENCE_MODEL);
 
             const auto p = static_cast<std::size_t>(cols.p);
             const auto n = static_cast<std::size_t>(t.rows());

@@ -14,6 +14,7 @@ struct ScoreArgs {
   std::string data;
   std::string output = "-";
   double level = 0.975;
+  std::string reference = "model";
   bool fail_on_flag = false;
   std::string digits = "10";
   DialectFlags dialect;
@@ -30,7 +31,11 @@ Command add_score(CLI::App& parent) {
   app->add_option("model", a->model, "Model file written by 'ellipsa fit'")->required();
   app->add_option("data", a->data, "CSV file to score ('-' reads standard input)")->required();
   app->add_option("-o,--output", a->output, "Scored CSV to write (default: standard output)");
-  app->add_option("--level", a->level, "Flag rows whose distance exceeds this chi-square quantile")
+  app->add_option("--level", a->level, "Flag rows whose distance exceeds the reference's limit at this level")
+      ->capture_default_str();
+  app->add_option("--reference", a->reference,
+                  "Limit the flags come from: model (the one the model file records), chi2, new-rows "
+                  "(rows not in the fit) or fitting-rows (the rows that made the fit)")
       ->capture_default_str();
   app->add_flag("--fail-on-flag", a->fail_on_flag, "Exit with code 5 when any row is flagged");
   add_digits_flag(*app, a->digits);
@@ -38,6 +43,7 @@ Command add_score(CLI::App& parent) {
   add_output_flags(*app, a->out);
   return {app, [a]() {
             const int digits = parse_digits(a->digits);
+            const int32_t reference = parse_reference(a->reference);
             if (a->out.json && a->output == "-")
               throw CliError(kExitUsage, "--json prints the summary on standard output: give the scores a file with -o");
             if (!(a->level > 0.0 && a->level < 1.0)) throw CliError(kExitUsage, "--level must lie in (0, 1)");
@@ -67,7 +73,7 @@ Command add_score(CLI::App& parent) {
             while (reader.next_chunk(chunk, kChunkRows)) {
               const auto x = ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()),
                                                       static_cast<int64_t>(chunk.cols()));
-              block.score(model.get(), cols, x, a->level);
+              block.score(model.get(), cols, x, a->level, reference);
               const auto p = static_cast<std::size_t>(cols.p);
               for (std::size_t r = 0; r < chunk.rows(); ++r) {
                 writer.raw(chunk.row_text(r));
@@ -98,14 +104,16 @@ Command add_score(CLI::App& parent) {
             writer.flush();
             out.commit();
             std::ostringstream human;
-            human << "scored " << rows << " rows; " << flagged << " flagged at level " << a->level;
+            const std::string limit = reference_description(model.get(), reference);
+            human << "scored " << rows << " rows; " << flagged << " flagged at level " << a->level << " by the "
+                  << limit;
             if (unscorable > 0) human << "; " << unscorable << " rows with no observed value";
             human << "\n" << first_flags.str();
             if (flagged > 20) human << "  ... and " << flagged - 20 << " more\n";
             if (a->output != "-") human << "scores written to " << a->output << "\n";
             emit_summary(a->out, human.str(),
                          {{"rows", rows}, {"flagged", flagged}, {"unscorable", unscorable},
-                          {"level", a->level}, {"output", a->output}});
+                          {"level", a->level}, {"limit", limit}, {"output", a->output}});
             return a->fail_on_flag && flagged > 0 ? static_cast<int>(kExitFlagged) : static_cast<int>(kExitOk);
           }};
 }

@@ -16,6 +16,7 @@ struct ScreenArgs {
   std::string output;
   std::string by;
   double level = 0.975;
+  std::string reference = "fitting-rows";
   bool fail_on_flag = false;
   std::string digits = "10";
   FitFlags fit;
@@ -57,7 +58,10 @@ Command add_screen(CLI::App& parent) {
   app->add_option("data", a->data, "CSV file with a header row ('-' reads standard input)")->required();
   app->add_option("-o,--output", a->output, "Scored CSV to write (default: none, summary only)");
   app->add_option("--by", a->by, "Screen each group of this column separately (e.g. one per mould or line)");
-  app->add_option("--level", a->level, "Flag rows whose robust distance exceeds this chi-square quantile")
+  app->add_option("--level", a->level, "Flag rows whose robust distance exceeds the reference's limit at this level")
+      ->capture_default_str();
+  app->add_option("--reference", a->reference,
+                  "Limit the flags come from: fitting-rows (the rows screened made the fit), chi2 or new-rows")
       ->capture_default_str();
   app->add_flag("--fail-on-flag", a->fail_on_flag, "Exit with code 5 when any row is flagged");
   add_digits_flag(*app, a->digits);
@@ -66,6 +70,7 @@ Command add_screen(CLI::App& parent) {
   add_output_flags(*app, a->out);
   return {app, [a]() {
             const int digits = parse_digits(a->digits);
+            const int32_t reference = parse_reference(a->reference);
             if (!(a->level > 0.0 && a->level < 1.0)) throw CliError(kExitUsage, "--level must lie in (0, 1)");
             // The group column is checked against the header here (a usage
             // error), and taken out of the variables if it happens to be numeric.
@@ -100,7 +105,7 @@ Command add_screen(CLI::App& parent) {
               g.model.reset(raw);
               progress.finish();
               g.cols = score_columns(g.model.get());
-              g.block.score(g.model.get(), g.cols, x, a->level);
+              g.block.score(g.model.get(), g.cols, x, a->level, reference);
               g.shape = model_shape(g.model.get(), x);
               groups.push_back(std::move(g));
             }
@@ -135,6 +140,7 @@ Command add_screen(CLI::App& parent) {
             nlohmann::json machine{{"method", a->fit.method}, {"level", a->level}, {"rows", t.rows()},
                                    {"columns", t.columns}, {"groups", nlohmann::json::array()}};
             int64_t total_flagged = 0;
+            machine["reference"] = a->reference;
             human << "screened " << t.rows() << " rows on " << p << " columns with " << a->fit.method
                   << " at level " << a->level << (a->by.empty() ? "" : ", per " + a->by) << "\n";
             for (const auto& g : groups) {
@@ -155,9 +161,10 @@ Command add_screen(CLI::App& parent) {
               total_flagged += static_cast<int64_t>(flagged.size());
               human << "  " << (a->by.empty() ? "" : a->by + " = ") << g.name << ": " << used << " rows used";
               if (dropped > 0) human << " (" << dropped << " with missing cells left out of the fit, scored on observed cells)";
-              human << ", " << flagged.size() << " flagged\n" << lines.str();
+              const std::string limit = reference_description(g.model.get(), reference);
+              human << ", " << flagged.size() << " flagged by the " << limit << "\n" << lines.str();
               machine["groups"].push_back({{"group", g.name}, {"rows_used", used}, {"rows_dropped", dropped},
-                                           {"flagged", flagged}});
+                                           {"limit", limit}, {"flagged", flagged}});
               if (g.shape) {
                 human << "    bulk shape (Mardia): " << shape_numbers(*g.shape) << "\n";
                 for (const auto& sentence : shape_sentences(*g.shape)) human << "    " << sentence << "\n";

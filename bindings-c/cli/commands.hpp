@@ -37,6 +37,8 @@ struct FitFlags {
   int restarts = 5;
   std::string divisor = "n-1";
   std::string missing = "drop";
+  std::string small_sample = "on";  // mcd, detmcd: small-sample factors on|off
+  std::string reference;            // fit: scoring reference recorded in the model ("" = library default)
   // The flags the user gave: only those are passed to the library, whose own
   // defaults (and its refusal of settings a method does not use) then apply.
   CLI::Option* alpha_flag = nullptr;
@@ -45,6 +47,7 @@ struct FitFlags {
   CLI::Option* structure_flag = nullptr;
   CLI::Option* restarts_flag = nullptr;
   CLI::Option* divisor_flag = nullptr;
+  CLI::Option* small_sample_flag = nullptr;
   bool components_default = false;  // cluster: pass the range even when not given
 };
 void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method);
@@ -72,8 +75,17 @@ ScoreColumns score_columns(const ellipsa_model* m);
 struct ScoreBlock {
   std::vector<double> d2, p_value, contribution, membership, log_density;
   std::vector<int32_t> flag, observed, component, low_density;
-  void score(const ellipsa_model* m, const ScoreColumns& c, const ellipsa_matrix& x, double level);
+  // reference: an ELLIPSA_REFERENCE_ value (ELLIPSA_REFERENCE_MODEL: the model's own).
+  void score(const ellipsa_model* m, const ScoreColumns& c, const ellipsa_matrix& x, double level,
+             int32_t reference);
 };
+
+// --reference NAME for scoring (model, chi2, new-rows, fitting-rows); the
+// value given, as an ELLIPSA_REFERENCE_ constant.
+int32_t parse_reference(const std::string& name);
+// What produced the flags of scores made with `reference` against model m:
+// e.g. "new-rows limit (Tracy-Young-Mason phase II, m = 176 reference rows)".
+std::string reference_description(const ellipsa_model* m, int32_t reference);
 
 // The variables that contribute most to row r's distance, as "name (share%)".
 std::string top_contributors(const ScoreBlock& b, const ScoreColumns& c, std::size_t r, int how_many);

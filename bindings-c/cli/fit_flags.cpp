@@ -52,6 +52,11 @@ void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method) {
                         ->capture_default_str();
   f.divisor_flag = app.add_option("--divisor", f.divisor, "Classical covariance divisor: n or n-1")
                        ->capture_default_str();
+  if (with_method)
+    f.small_sample_flag = app.add_option("--small-sample", f.small_sample,
+                                         "mcd, detmcd: small-sample factors of the scatter, on or off "
+                                         "(docs/calibration.md)")
+                              ->capture_default_str();
   app.add_option("--missing", f.missing, "Rows with missing cells: drop, refuse, or em (mixture only)")
       ->capture_default_str();
 }
@@ -108,6 +113,16 @@ OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& c
     check(ellipsa_fit_options_set_structure(o.get(), structure), "--structure");
   }
   if (given(f.restarts_flag)) check(ellipsa_fit_options_set_restarts(o.get(), f.restarts), "--restarts");
+  if (given(f.small_sample_flag)) {
+    if (f.small_sample != "on" && f.small_sample != "off") throw CliError(kExitUsage, "--small-sample must be on or off");
+    check(ellipsa_fit_options_set_small_sample(o.get(), f.small_sample == "on" ? 1 : 0), "--small-sample");
+  }
+  if (!f.reference.empty()) {
+    int32_t r = 0;
+    if (ellipsa_reference_from_name(&r, f.reference.c_str()) != ELLIPSA_OK || r == ELLIPSA_REFERENCE_MODEL)
+      throw CliError(kExitUsage, "--reference must be chi2, new-rows or fitting-rows (got '" + f.reference + "')");
+    check(ellipsa_fit_options_set_reference(o.get(), r), "--reference");
+  }
   if (progress != nullptr && progress->enabled())
     check(ellipsa_fit_options_set_progress(o.get(), &Progress::callback, progress), "progress");
   return o;

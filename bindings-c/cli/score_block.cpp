@@ -24,7 +24,8 @@ ScoreColumns score_columns(const ellipsa_model* m) {
   return c;
 }
 
-void ScoreBlock::score(const ellipsa_model* m, const ScoreColumns& c, const ellipsa_matrix& x, double level) {
+void ScoreBlock::score(const ellipsa_model* m, const ScoreColumns& c, const ellipsa_matrix& x, double level,
+                       int32_t reference) {
   const auto n = static_cast<std::size_t>(x.rows);
   const auto p = static_cast<std::size_t>(c.p);
   d2.resize(n);
@@ -48,7 +49,36 @@ void ScoreBlock::score(const ellipsa_model* m, const ScoreColumns& c, const elli
     s.log_density = log_density.data();
     s.low_density = low_density.data();
   }
-  check(ellipsa_model_score(&s, m, &x, level), "scoring");
+  check(ellipsa_model_score_v2(&s, m, &x, level, reference), "scoring");
+}
+
+int32_t parse_reference(const std::string& name) {
+  int32_t r = 0;
+  if (ellipsa_reference_from_name(&r, name.c_str()) != ELLIPSA_OK)
+    throw CliError(kExitUsage, "--reference must be model, chi2, new-rows or fitting-rows (got '" + name + "')");
+  return r;
+}
+
+std::string reference_description(const ellipsa_model* m, int32_t reference) {
+  int32_t r = reference;
+  if (r == ELLIPSA_REFERENCE_MODEL) {
+    double v = 0.0;
+    check(ellipsa_model_diagnostic(&v, m, "reference"), "reading the model");
+    r = static_cast<int32_t>(v);
+  }
+  double rows = 0.0;
+  const bool gaussian = ellipsa_model_diagnostic(&rows, m, "reference_rows") == ELLIPSA_OK;
+  ellipsa_method method = 0;
+  check(ellipsa_model_describe(nullptr, &method, nullptr, nullptr, m), "reading the model");
+  const bool robust = method == ELLIPSA_METHOD_MCD || method == ELLIPSA_METHOD_DETMCD || method == ELLIPSA_METHOD_MRCD;
+  char m_text[64];
+  std::snprintf(m_text, sizeof m_text, "m = %.0f reference rows", rows);
+  if (r == ELLIPSA_REFERENCE_NEW_ROWS && gaussian)
+    return std::string("new-rows limit (Tracy-Young-Mason phase II F, ") + m_text + ")";
+  if (r == ELLIPSA_REFERENCE_FITTING_ROWS && gaussian && !robust)
+    return std::string("fitting-rows limit (Tracy-Young-Mason phase I Beta, ") + m_text + ")";
+  if (r == ELLIPSA_REFERENCE_FITTING_ROWS) return "fitting-rows limit (chi-square quantile, robust fit)";
+  return "chi-square quantile";
 }
 
 std::string top_contributors(const ScoreBlock& b, const ScoreColumns& c, std::size_t r, int how_many) {

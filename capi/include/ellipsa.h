@@ -480,6 +480,44 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_regularisation(ellipsa_fit_op
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_progress(ellipsa_fit_options *options,
                                                             ellipsa_progress_fn callback,
                                                             void *user);
+
+/**
+ * @brief MCD and DetMCD: switch the small-sample factors of the scatter on (1, the default) or off (0).
+ *
+ * The Croux-Haesbroeck factor makes the MCD scatter consistent as n grows; on
+ * small samples the raw and reweighted scatter still come out too small, and
+ * too many clean rows are flagged. The small-sample factors (fitted in this
+ * project by simulation, by the method of Pison, Van Aelst & Willems 2002;
+ * docs/calibration.md) remove that bias. Off reproduces the scatter of
+ * ellipsa 0.1.0. The factors used are reported by ellipsa_model_diagnostic()
+ * ("small_sample_raw", "small_sample_reweighted").
+ * @param options The options.
+ * @param on      1 (apply, default) or 0 (leave out).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (on not 0 or 1, or a
+ *         method other than mcd and detmcd).
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_small_sample(ellipsa_fit_options *options,
+                                                                int32_t on);
+
+/**
+ * @brief Gaussian methods: the scoring reference the model records (see ::ELLIPSA_REFERENCE_NEW_ROWS).
+ *
+ * ellipsa_model_score() and ellipsa_model_score_v2() with
+ * ::ELLIPSA_REFERENCE_MODEL use the recorded reference. Default: the
+ * new-rows reference when the fit has enough rows for it (more rows than
+ * p + 1; mcd and detmcd count the rows kept by the reweighting), otherwise the
+ * chi-square; mrcd records the chi-square. The choice and its evidence are in
+ * docs/calibration.md.
+ * @param options   The options.
+ * @param reference ::ELLIPSA_REFERENCE_CHI2, ::ELLIPSA_REFERENCE_NEW_ROWS or
+ *                  ::ELLIPSA_REFERENCE_FITTING_ROWS.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (unknown
+ *         reference, or a mixture, whose flags use the chi-square only).
+ *         ellipsa_model_fit() then returns ::ELLIPSA_ERR_DATA when the fit has
+ *         too few rows for the reference chosen.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_reference(ellipsa_fit_options *options,
+                                                             int32_t reference);
 /** @} */
 
 /* ======================================================================== */
@@ -704,7 +742,11 @@ ELLIPSA_API ellipsa_status ellipsa_model_raw_estimate(double *location, int64_t 
  * "h", "consistency_factor", "reweight_factor", "raw_log_det" (mcd, detmcd,
  * mrcd), "log_likelihood", "bic", "icl", "iterations", "converged",
  * "parameters", "log_density_cutoff" (mixture), "log_det" (gaussian models),
- * "divisor" (1 for n, 2 for n-1; classical).
+ * "divisor" (1 for n, 2 for n-1; classical), "small_sample_raw",
+ * "small_sample_reweighted" (mcd, detmcd: the small-sample factors applied, 1
+ * when switched off), "reference" (the recorded ELLIPSA_REFERENCE_ value),
+ * "reference_rows", "fitting_reference_rows" (m of the new-rows and of the
+ * fitting-rows distribution; gaussian models; see ::ELLIPSA_REFERENCE_NEW_ROWS).
  * @param[out] out The value.
  * @param model    The model.
  * @param name     One of the names above (NUL-terminated).
@@ -785,7 +827,7 @@ ELLIPSA_API ellipsa_status ellipsa_model_selection(ellipsa_candidate *out, int64
 typedef struct ellipsa_scores {
   int64_t struct_size;        /**< sizeof(ellipsa_scores) as the caller compiled it. */
   double *squared_distance;   /**< [n] squared Mahalanobis distance (mixture: to the most probable component). NaN when nothing is observed. */
-  double *p_value;            /**< [n] upper-tail chi-square probability of the distance with `observed` degrees of freedom. */
+  double *p_value;            /**< [n] upper-tail probability of the distance under the scoring reference (chi-square with `observed` degrees of freedom, or see ::ELLIPSA_REFERENCE_NEW_ROWS). */
   int32_t *flag;              /**< [n] 1 flagged, 0 not, -1 not scorable (no observed coordinate). */
   int32_t *observed;          /**< [n] coordinates observed (the degrees of freedom used). */
   double *contribution;       /**< [n*p] row-major: (x-T)_j (S^-1 (x-T))_j, summing to the distance; NaN for missing j. */
@@ -804,9 +846,12 @@ typedef struct ellipsa_scores {
  * @brief Scores rows against a model.
  *
  * Gaussian models: the squared Mahalanobis distance d2 of each row from the
- * location under the scatter (Cholesky solves, no inverse), its chi-square
- * p-value with p degrees of freedom, a flag when d2 > chi2q(p, level), and the
- * per-variable contributions. Rows with NaN coordinates are scored on the
+ * location under the scatter (Cholesky solves, no inverse), its p-value under
+ * the model's scoring reference (diagnostic "reference": the chi-square with
+ * p degrees of freedom for files from ellipsa 0.1.0 and for
+ * ::ELLIPSA_REFERENCE_CHI2, else see ::ELLIPSA_REFERENCE_NEW_ROWS), a flag
+ * when d2 exceeds that reference's limit at level (chi2q(p, level) for the
+ * chi-square), and the per-variable contributions. Rows with NaN coordinates are scored on the
  * observed coordinates (the marginal Gaussian) with as many degrees of
  * freedom as observed coordinates: nothing is imputed.
  * Mixture models: memberships, most probable component, the log-density under
@@ -828,6 +873,69 @@ typedef struct ellipsa_scores {
  */
 ELLIPSA_API ellipsa_status ellipsa_model_score(ellipsa_scores *out, const ellipsa_model *model,
                                                const ellipsa_matrix *data, double level);
+
+/** Scoring reference: the one the model records (ellipsa_fit_options_set_reference()). */
+#define ELLIPSA_REFERENCE_MODEL 0
+/** Scoring reference: d2 ~ chi-square with q degrees of freedom (q observed coordinates): parameters known. */
+#define ELLIPSA_REFERENCE_CHI2 1
+/**
+ * Scoring reference for rows that were not in the fit (Tracy, Young & Mason
+ * 1992, phase II): with m reference rows, T^2 = d2 (times (n-1)/n for a
+ * scatter with divisor n) and m(m-q) T^2 / (q(m+1)(m-1)) ~ F(q, m-q), q the
+ * observed coordinates. Exact for the classical fit of normal rows (m = n).
+ * Shrinkage fits use m = n / (1 - intensity)^(1/3); mcd and detmcd at alpha 0.5 an
+ * effective m calibrated by simulation on their own distances (an F
+ * reference as in Hardin & Rocke 2005, with our simulated degrees of freedom),
+ * other alpha the rows kept by the reweighting; mrcd m = h. Measured accuracy
+ * in docs/calibration.md; diagnostic "reference_rows" gives m.
+ */
+#define ELLIPSA_REFERENCE_NEW_ROWS 2
+/**
+ * Scoring reference for the rows that made the fit. Classical fits: Tracy,
+ * Young & Mason (1992) phase I, m T^2 / (m-1)^2 ~ Beta(q/2, (m-q-1)/2), T^2 as
+ * above, m = n. Shrinkage fits: the chi-square (measured closest). mcd,
+ * detmcd, mrcd: the phase II form above with their own effective m for
+ * fitting rows (diagnostic "fitting_reference_rows"); docs/calibration.md.
+ */
+#define ELLIPSA_REFERENCE_FITTING_ROWS 3
+
+/**
+ * @brief Names a scoring reference: "model", "chi2", "new-rows", "fitting-rows".
+ * @param reference An ELLIPSA_REFERENCE_ value.
+ * @return A static string; "unknown" for other values. Thread-safe.
+ */
+ELLIPSA_API const char *ellipsa_reference_name(int32_t reference);
+
+/**
+ * @brief The scoring reference with the given name (as ellipsa_reference_name() writes it).
+ * @param[out] out The ELLIPSA_REFERENCE_ value.
+ * @param name     NUL-terminated name.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (unknown name;
+ *         the message lists the names). Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_reference_from_name(int32_t *out, const char *name);
+
+/**
+ * @brief Scores rows against a model with a chosen scoring reference.
+ *
+ * As ellipsa_model_score() (which is this call with ::ELLIPSA_REFERENCE_MODEL),
+ * except that `p_value` and `flag` come from the reference: the flag is set
+ * when the row's upper-tail probability under it is below 1 - level.
+ * Mixtures accept ::ELLIPSA_REFERENCE_MODEL and ::ELLIPSA_REFERENCE_CHI2 only.
+ * @param[out] out  Buffers to fill (see ::ellipsa_scores).
+ * @param model     The model (read-only; may be shared by threads).
+ * @param data      n x p view with the model's p columns in the model's order.
+ * @param level     Flagging level in (0, 1), e.g. 0.975.
+ * @param reference An ELLIPSA_REFERENCE_ value.
+ * @return As ellipsa_model_score(), and ::ELLIPSA_ERR_ARGUMENT (unknown reference);
+ *         ::ELLIPSA_ERR_STATE (a reference the model cannot use: a mixture, or
+ *         a model with too few reference rows m for it: m > p for new rows,
+ *         m > p + 1 for fitting rows).
+ * Thread-safe for a shared model.
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_score_v2(ellipsa_scores *out, const ellipsa_model *model,
+                                                  const ellipsa_matrix *data, double level,
+                                                  int32_t reference);
 /** @} */
 
 /* ======================================================================== */

@@ -172,14 +172,16 @@ static class SmokeTest
             }
 
             // Scores: distances against a Cholesky written here, contributions summing to them,
-            // flags at the chi-square quantile, and a row with one NaN scored on 2 coordinates,
-            // whose p-value has the closed form exp(-d2/2).
+            // flags at the model's default reference (new rows: the phase II limit of Tracy,
+            // Young & Mason 1992 for m = 500 rows), and a row with one NaN scored on 2
+            // coordinates, whose phase II p-value has the closed form of an F(2, v) tail,
+            // (1 + 2f/v)^(-v/2), v = m - 2, f = d2 m (m-2) / (2 (m+1) (m-1)).
             var y = new double[6, 3];
             for (int i = 0; i < 5; ++i) for (int j = 0; j < 3; ++j) y[i, j] = x[i * 37, j];
             y[4, 0] += 12; // far out along the first variable
             y[5, 0] = x[3, 0]; y[5, 1] = double.NaN; y[5, 2] = x[3, 2];
             Scores s = m.Score(y, 0.975);
-            double cut3 = Library.Chi2Quantile(0.975, 3), worstD2 = 0;
+            double cut3 = Library.HotellingLimit(Phase.Two, 500, 3, 0.025), worstD2 = 0;
             for (int i = 0; i < 5; ++i)
             {
                 double d2 = Mahalanobis(Row(y, i), mean, cov, new[] { 0, 1, 2 });
@@ -194,7 +196,8 @@ static class SmokeTest
             Check(s.Flag[4] == 1, "row shifted by 12 in the first variable is flagged");
             double d2m = Mahalanobis(Row(y, 5), mean, cov, new[] { 0, 2 });
             Check(s.Observed[5] == 2 && Math.Abs(s.SquaredDistance[5] - d2m) <= 1e-10 * d2m, "NaN row scored on its 2 observed coordinates");
-            Check(Math.Abs(s.PValue[5] - Math.Exp(-s.SquaredDistance[5] / 2)) <= 1e-12 * s.PValue[5], "p-value with 2 df is exp(-d2/2)");
+            double f2 = s.SquaredDistance[5] * 500.0 * 498.0 / (2.0 * 501.0 * 499.0);
+            Check(Math.Abs(s.PValue[5] - Math.Pow(1 + 2 * f2 / 498.0, -498.0 / 2)) <= 1e-10 * s.PValue[5], "p-value on 2 coordinates is the F(2, 498) tail");
             Check(double.IsNaN(s.Contribution[5, 1]), "contribution of the missing coordinate is NaN");
 
             Scores only = m.Score(y, 0.975, ScoreOutputs.SquaredDistance);

@@ -166,11 +166,18 @@ def numpy_classical(rng):
     d2 = np.sum(d * solved, axis=1)
     check(np.allclose(s.squared_distance, d2, rtol=1e-10, atol=0), "d2 vs numpy.linalg.solve")
     check(np.allclose(s.contribution, d * solved, rtol=1e-8, atol=1e-10 * np.max(d2)), "contributions")
-    # 4 degrees of freedom: P(X > x) = exp(-x/2) (1 + x/2).
-    check(np.allclose(s.p_value, np.exp(-d2 / 2) * (1 + d2 / 2), rtol=1e-9, atol=0), "p-values")
+    # The new-rows reference (Tracy, Young & Mason 1992): with m fitting rows
+    # and p = 4, F = m(m-p) d2 / (p(m+1)(m-1)) ~ F(4, m-4), whose upper tail
+    # is I_u(a, 2) = u^a (1 + a(1-u)), u = (m-p)/(m-p + p F), a = (m-p)/2
+    # (the regularized incomplete beta with an integer second shape).
+    m_rows, pp = x.shape
+    f = m_rows * (m_rows - pp) * d2 / (pp * (m_rows + 1) * (m_rows - 1))
+    u = (m_rows - pp) / (m_rows - pp + pp * f)
+    a = (m_rows - pp) / 2
+    check(np.allclose(s.p_value, u ** a * (1 + a * (1 - u)), rtol=1e-9, atol=0), "p-values (phase II F)")
     q = ellipsa.chi2_quantile(0.975, 4)
     check(close(math.exp(-q / 2) * (1 + q / 2), 0.025, 1e-12), "chi2 quantile df=4")
-    check(np.array_equal(s.flag, (s.squared_distance > q).astype(np.int32)), "flags at the level")
+    check(np.array_equal(s.flag, (s.p_value < 0.025).astype(np.int32)), "flags at the level")
     check(np.all(s.observed == p) and np.all(s.component == 0) and np.all(s.membership == 1.0), "gauss")
     for j in range(p):
         keep = [k for k in range(p) if k != j]

@@ -66,9 +66,13 @@ reference_d2 <- mahalanobis(x, colMeans(x), cov(x))
 err_d2 <- max(abs(scores$squared_distance - reference_d2) / reference_d2)
 cat(sprintf("classical: squared distance max rel. error vs mahalanobis() %.2e\n", err_d2))
 check(err_d2 <= 1e-10, "squared distances equal mahalanobis()")
-check(relative_error(scores$p_value, pchisq(reference_d2, p, lower.tail = FALSE)) <= 1e-10,
-      "p-values equal pchisq() upper tail")
-check(identical(scores$flag, scores$squared_distance > qchisq(0.975, p)), "flags follow the chi2 cutoff")
+# A classical model scores against the new-rows reference of Tracy, Young &
+# Mason (1992): m(m-p) T^2 / (p(m+1)(m-1)) ~ F(p, m-p), m = n rows (R's pf, qf).
+f_stat <- reference_d2 * n * (n - p) / (p * (n + 1) * (n - 1))
+check(relative_error(scores$p_value, pf(f_stat, p, n - p, lower.tail = FALSE)) <= 1e-10,
+      "p-values equal the phase II pf() upper tail")
+limit <- p * (n + 1) * (n - 1) / (n * (n - p)) * qf(0.975, p, n - p)
+check(identical(scores$flag, scores$squared_distance > limit), "flags follow the phase II limit")
 check(all(scores$observed == p), "all coordinates observed")
 check(identical(dim(scores$contribution), c(n, p)) &&
         identical(colnames(scores$contribution), colnames(x)), "contribution matrix shape and names")

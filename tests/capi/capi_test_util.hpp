@@ -24,6 +24,22 @@ struct OptionsFree {
 using Model = std::unique_ptr<ellipsa_model, ModelFree>;
 using Options = std::unique_ptr<ellipsa_fit_options, OptionsFree>;
 
+// Model text from ellipsa_model_save, and a model loaded from text.
+inline std::string save(const ellipsa_model* m) {
+  char* text = nullptr;
+  int64_t length = 0;
+  if (ellipsa_model_save(&text, &length, m) != ELLIPSA_OK) return {};
+  std::string s(text, static_cast<size_t>(length));
+  ellipsa_text_free(text);
+  return s;
+}
+inline ellipsa_status load(const std::string& s, Model* out) {
+  ellipsa_model* m = nullptr;
+  const ellipsa_status st = ellipsa_model_load(&m, s.data(), static_cast<int64_t>(s.size()));
+  out->reset(m);
+  return st;
+}
+
 inline Options options(ellipsa_method m) {
   ellipsa_fit_options* o = nullptr;
   if (ellipsa_fit_options_create(&o, m) != ELLIPSA_OK) return nullptr;

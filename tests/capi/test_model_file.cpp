@@ -10,20 +10,6 @@
 using namespace capi_test;
 
 namespace {
-std::string save(const ellipsa_model* m) {
-  char* text = nullptr;
-  int64_t length = 0;
-  EXPECT_EQ(ellipsa_model_save(&text, &length, m), ELLIPSA_OK);
-  std::string s(text, static_cast<size_t>(length));
-  ellipsa_text_free(text);
-  return s;
-}
-ellipsa_status load(const std::string& s, Model* out) {
-  ellipsa_model* m = nullptr;
-  const ellipsa_status st = ellipsa_model_load(&m, s.data(), static_cast<int64_t>(s.size()));
-  out->reset(m);
-  return st;
-}
 std::string replace(std::string s, const std::string& from, const std::string& to) {
   const auto at = s.find(from);
   EXPECT_NE(at, std::string::npos) << from;
@@ -96,7 +82,7 @@ TEST(ModelFile, HostileOrBrokenFilesAreRefusedWithAMessage) {
       {good.substr(0, good.size() / 2), "not valid JSON"},
       {std::string(100000, '['), "nesting"},
       {"[]", "top level"},
-      {replace(good, "\"format_version\": 1", "\"format_version\": 7"), "not supported"},
+      {replace(good, "\"format_version\": 2", "\"format_version\": 7"), "not supported"},
       {replace(good, "\"kind\": \"gaussian\"", "\"kind\": \"banana\""), "unknown kind"},
       {replace(good, "\"method\": \"classical\"", "\"method\": \"mixture\""), "disagree"},
       {replace(good, "\"normalisation\": \"n-1\"", "\"normalisation\": \"n+1\""), "normalisation"},

@@ -55,7 +55,9 @@ TEST(Score, FittingRowsOfTheUnbiasedClassicalFitSumToPTimesNMinusOne) {
   const auto &d2 = b.d2, &pv = b.p_value, &contrib = b.contribution, &drop = b.conditional_drop;
   const auto &flag = b.flag, &observed = b.observed;
   ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
-  ASSERT_EQ(ellipsa_model_score(&b.scores, m.get(), &v, 0.975), ELLIPSA_OK);
+  // The chi-square reference on request (the model's default, new rows, is
+  // checked in test_score_reference.cpp).
+  ASSERT_EQ(ellipsa_model_score_v2(&b.scores, m.get(), &v, 0.975, ELLIPSA_REFERENCE_CHI2), ELLIPSA_OK);
   EXPECT_NEAR(std::accumulate(d2.begin(), d2.end(), 0.0), double(p * (n - 1)), 1e-8 * p * n);
   double cutoff = 0.0;
   ASSERT_EQ(ellipsa_chi2_quantile(&cutoff, 0.975, double(p)), ELLIPSA_OK);

@@ -52,6 +52,7 @@ ellipsa_sheet_value valid(const ellipsa_sheet_argument_info& a) {
       if (name == "method") return text("classical");
       if (name == "components") return text("2");
       if (name == "structure") return text("full");
+      if (name == "limit") return text("chi2");
       return text("x");
     default:
       if (name == "probability" || name == "level" || name == "x") return number(0.9);
@@ -196,6 +197,7 @@ TEST(SheetCatalog, OptionsOutOfRangeOrMisspeltNameTheOption) {
       {"ELL.DIST2", {rows, absent(), text("mixture")}, "method"},
       {"ELL.FLAG", {rows, absent(), number(1.5)}, "level"},
       {"ELL.FLAG", {rows, absent(), number(0.0)}, "level"},
+      {"ELL.FLAG", {rows, absent(), absent(), absent(), absent(), absent(), text("chi3")}, "limit"},
       {"ELL.DIST2", {rows, absent(), text("mcd"), number(0.3)}, "alpha"},
       {"ELL.DIST2", {rows, absent(), text("classical"), number(0.75)}, "alpha"},
       {"ELL.DIST2", {rows, absent(), text("mcd"), absent(), number(-1)}, "seed"},

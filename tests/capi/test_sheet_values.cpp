@@ -92,7 +92,10 @@ TEST(SheetValues, ScreeningFunctionsEqualTheCInterfaceBitForBit) {
       const Model model = fit(with_reference ? ref_view : d.view(), m, 4);
       capi_test::ScoreBuffers s(kN, kP);
       const ellipsa_matrix view = d.view();
-      ASSERT_EQ(ellipsa_model_score(&s.scores, model.get(), &view, 0.99), ELLIPSA_OK);
+      // p-values and flags as the batch tool gives them: `ellipsa screen`
+      // scores its own rows as fitting rows, `ellipsa score` new rows.
+      const int32_t role = with_reference ? ELLIPSA_REFERENCE_NEW_ROWS : ELLIPSA_REFERENCE_FITTING_ROWS;
+      ASSERT_EQ(ellipsa_model_score_v2(&s.scores, model.get(), &view, 0.99, role), ELLIPSA_OK);
 
       const ellipsa_sheet_value ref = with_reference ? range(reference_rows().data(), 80, kP) : absent();
       const ellipsa_sheet_value seed = m == ELLIPSA_METHOD_MCD ? number(4) : absent();
@@ -101,6 +104,12 @@ TEST(SheetValues, ScreeningFunctionsEqualTheCInterfaceBitForBit) {
       expect_per_row(evaluate("ELL.PVALUE", common), 0, [&](int64_t i) { return s.p_value[i]; });
       expect_per_row(evaluate("ELL.FLAG", {d.value(), ref, number(0.99), text(method), absent(), seed}), 0,
                      [&](int64_t i) { return static_cast<double>(s.flag[i]); });
+      capi_test::ScoreBuffers chi2(kN, kP);
+      ASSERT_EQ(ellipsa_model_score_v2(&chi2.scores, model.get(), &view, 0.99, ELLIPSA_REFERENCE_CHI2), ELLIPSA_OK);
+      expect_per_row(evaluate("ELL.PVALUE", {d.value(), ref, text(method), absent(), seed, text("chi2")}), 0,
+                     [&](int64_t i) { return chi2.p_value[i]; });
+      expect_per_row(evaluate("ELL.FLAG", {d.value(), ref, number(0.99), text(method), absent(), seed, text("chi2")}),
+                     0, [&](int64_t i) { return static_cast<double>(chi2.flag[i]); });
       expect_per_row(evaluate("ELL.DRIVER", common), 0, [&](int64_t i) {
         int64_t best = -1;
         for (int64_t j = 0; j < kP; ++j) {
