@@ -1420,9 +1420,12 @@ ELLIPSA_API ellipsa_status ellipsa_sheet_result_shape(int64_t *rows, int64_t *co
  *
  * Every number equals, bit for bit, what the ordinary C interface gives for
  * the same computation (ellipsa_model_fit() with the same options on the
- * complete rows, then ellipsa_model_score(), a model query or a distribution
- * function). Cells beyond the result shape are set to
- * ::ELLIPSA_SHEET_CELL_EMPTY.
+ * complete rows, then ellipsa_model_score_v2(), a model query or a
+ * distribution function). p-values and flags use the scoring reference of the
+ * rows' role, as the batch tool does: ::ELLIPSA_REFERENCE_FITTING_ROWS for rows
+ * screened against their own fit, ::ELLIPSA_REFERENCE_NEW_ROWS for rows scored
+ * against a reference range, unless the function's `limit` argument names
+ * another. Cells beyond the result shape are set to ::ELLIPSA_SHEET_CELL_EMPTY.
  * @param[out] cells  rows x cols cells, row-major; contents unspecified on failure.
  * @param rows        Rows of cells, >= the result rows.
  * @param cols        Columns of cells, >= the result columns.
