@@ -58,11 +58,6 @@ bool same_data(const Eigen::MatrixXd& a, const Eigen::MatrixXd& b) {
          std::memcmp(a.data(), b.data(), static_cast<size_t>(a.size()) * sizeof(double)) == 0;
 }
 
-// Throws the status of a failed C call with its message, prefixed by `what`.
-void check(ellipsa_status s, const char* what) {
-  if (s != ELLIPSA_OK) throw Misuse{s, std::string(what) + ": " + ellipsa_last_error()};
-}
-
 ModelPtr fit_now(const SheetRange& data, const FitRequest& r, const char* what) {
   ellipsa_fit_options* raw = nullptr;
   check(ellipsa_fit_options_create(&raw, r.method), what);
@@ -80,6 +75,10 @@ ModelPtr fit_now(const SheetRange& data, const FitRequest& r, const char* what) 
 }
 
 }  // namespace
+
+void check(ellipsa_status s, const char* what) {
+  if (s != ELLIPSA_OK) throw Misuse{s, std::string(what) + ": " + ellipsa_last_error()};
+}
 
 FitRequest gaussian_request(const Arguments& a, ellipsa_method default_method,
                             std::initializer_list<ellipsa_method> allowed) {

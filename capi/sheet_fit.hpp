@@ -30,6 +30,10 @@ FitRequest mixture_request(const Arguments& a, int32_t default_structure);
 
 using ModelPtr = std::shared_ptr<const ellipsa_model>;
 
+// Throws the status of a failed C interface call with its message, prefixed
+// by `what` (the argument or stage it concerns).
+void check(ellipsa_status s, const char* what);
+
 // The model for `data` under `request`: from the cache when an equal fit is
 // held, else fitted (and kept). Throws Misuse with the fit's status and a
 // message that names the argument `what`.

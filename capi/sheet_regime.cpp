@@ -12,10 +12,6 @@
 namespace ellipsa::capi::sheet {
 namespace {
 
-void check(ellipsa_status s, const char* what) {
-  if (s != ELLIPSA_OK) throw Misuse{s, std::string(what) + ": " + ellipsa_last_error()};
-}
-
 struct Regimes {
   int32_t k = 0;  // components of the chosen mixture
   std::vector<int32_t> component, flag;

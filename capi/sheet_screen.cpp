@@ -18,10 +18,6 @@ const std::initializer_list<ellipsa_method> kGaussianMethods = {
     ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS,
     ELLIPSA_METHOD_MCD,       ELLIPSA_METHOD_DETMCD,      ELLIPSA_METHOD_MRCD};
 
-void check(ellipsa_status s, const char* what) {
-  if (s != ELLIPSA_OK) throw Misuse{s, std::string(what) + ": " + ellipsa_last_error()};
-}
-
 // Everything ellipsa_model_score() gives for the rows, in plain vectors.
 struct Scored {
   std::vector<double> d2, p_value, contribution, conditional_drop;
