@@ -5,6 +5,15 @@ comparison rule."""
 import random
 import struct
 
+FAILURES = []
+
+
+def check(ok, what):
+    """Records a failed check (the test goes on, and fails at the end)."""
+    if not ok:
+        FAILURES.append(what)
+        print("FAIL:", what)
+
 
 def readings(bridge, error_cell=True):
     """40 rows to score (a blank cell, a blank row, a text cell, optionally an

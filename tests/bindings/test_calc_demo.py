@@ -20,13 +20,8 @@ BOOK = os.path.join(EXAMPLES, "moulding_line_screen.ods")
 sys.path[:0] = [os.path.join(SRC, "bindings-c", "calc"), os.path.dirname(os.path.abspath(__file__))]
 import demo_expectations as expectations  # noqa: E402
 
-FAILURES = []
+from sheet_host_cases import FAILURES, check  # noqa: E402
 
-
-def check(ok, what):
-    if not ok:
-        FAILURES.append(what)
-        print("FAIL:", what)
 
 
 def table(sheet):

@@ -28,16 +28,11 @@ sys.path[:0] = [os.path.join(SRC, "bindings-c", "sheet"), os.path.join(SRC, "bin
 import ellipsa_sheet as bridge  # noqa: E402
 import sheet_host_cases as cases  # noqa: E402
 
-FAILURES = []
+from sheet_host_cases import FAILURES, check  # noqa: E402
 COMPARE = cases.Comparison()
 CALC_CODES = {bridge.ERROR_VALUE: 519, bridge.ERROR_NUM: 503, bridge.ERROR_NA: 32767}
 STORED_PREFIX = "ORG.ELLIPSA.SHEETFUNCTIONS."
 
-
-def check(ok, what):
-    if not ok:
-        FAILURES.append(what)
-        print("FAIL:", what)
 
 
 def read_cell(cell):

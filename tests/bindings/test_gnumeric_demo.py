@@ -24,13 +24,8 @@ SRC = os.environ["ELLIPSA_SOURCE_DIR"]
 BIN = os.environ["ELLIPSA_BIN"]
 EXAMPLES = os.path.join(SRC, "examples")
 BOOK = os.path.join(EXAMPLES, "moulding_line_screen.gnumeric")
-FAILURES = []
+from sheet_host_cases import FAILURES, check  # noqa: E402
 
-
-def check(ok, what):
-    if not ok:
-        FAILURES.append(what)
-        print("FAIL:", what)
 
 
 def read(path):

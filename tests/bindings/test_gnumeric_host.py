@@ -35,13 +35,8 @@ import workbook_xml as wb  # noqa: E402
 import sheet_host_cases as cases  # noqa: E402
 
 SSCONVERT = shutil.which("ssconvert")
-FAILURES = []
+from sheet_host_cases import FAILURES, check  # noqa: E402
 
-
-def check(ok, what):
-    if not ok:
-        FAILURES.append(what)
-        print("FAIL:", what)
 
 
 def recalc(book, plugin_parent, out_csv):
