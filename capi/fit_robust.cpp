@@ -43,6 +43,11 @@ std::vector<int64_t> original_rows(const std::vector<core::Index>& rows, const P
   return out;
 }
 
+core::RawConsistency raw_consistency_of(const ellipsa_fit_options& o) {
+  return o.consistency == ELLIPSA_CONSISTENCY_MEDIAN ? core::RawConsistency::Median
+                                                     : core::RawConsistency::NormalFactor;
+}
+
 core::RobustFit run(const PreparedData& d, const ellipsa_fit_options& o) {
   const core::DataView x = d.used();
   if (o.method == ELLIPSA_METHOD_MCD) {
@@ -50,6 +55,7 @@ core::RobustFit run(const PreparedData& d, const ellipsa_fit_options& o) {
     f.alpha = o.alpha;
     f.seed = o.seed;
     f.small_sample = o.small_sample ? core::SmallSample::Both : core::SmallSample::Off;
+    f.raw_consistency = raw_consistency_of(o);
     f.progress = progress_of(o);
     return core::fast_mcd(x, f);
   }
@@ -57,6 +63,7 @@ core::RobustFit run(const PreparedData& d, const ellipsa_fit_options& o) {
     core::DetMcdOptions f;
     f.alpha = o.alpha;
     f.small_sample = o.small_sample ? core::SmallSample::Both : core::SmallSample::Off;
+    f.raw_consistency = raw_consistency_of(o);
     f.progress = progress_of(o);
     return core::det_mcd(x, f);
   }
@@ -82,6 +89,7 @@ void fit_robust(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_optio
     if (r.outlier[i]) flagged.push_back(static_cast<core::Index>(i));
   part.outlier_rows = original_rows(flagged, d);
   part.consistency_factor = r.consistency_factor;
+  part.consistency_rule = o.consistency;
   part.reweight_factor = r.reweight_factor;
   part.small_sample_raw = r.small_sample.raw;
   part.small_sample_reweighted = r.small_sample.reweighted;
@@ -91,22 +99,8 @@ void fit_robust(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_optio
     part.regularisation = r.rho;
     part.regularisation_target = r.target;
     m.shrinkage_intensity = r.rho;
-    // The regularised scatter has no chi-square consistency factor (p >= n
-    // leaves no room for one), so its distances are rescaled to make the
-    // median distance of the fitting rows equal chi2q(p, 0.5): the usual
-    // median calibration (common practice, no published factor for MRCD).
-    // Scoring can then use the same chi-square rule as every other method.
-    std::vector<double> d2(r.robust_d2.data(), r.robust_d2.data() + r.robust_d2.size());
-    if (!d2.empty()) {
-      const auto mid = d2.begin() + static_cast<std::ptrdiff_t>(d2.size() / 2);
-      std::nth_element(d2.begin(), mid, d2.end());
-      const double median = *mid;
-      const double target = core::chi2_quantile(0.5, static_cast<double>(r.location.size()));
-      if (median > 0.0 && std::isfinite(median)) {
-        part.reweight_factor = median / target;
-        scatter *= part.reweight_factor;
-      }
-    }
+    // The median calibration of the scatter is the core's
+    // (core/mcd_regularised.cpp), reported as the reweighting factor.
   }
   // The core's scatter matrices are symmetric to rounding; the model stores
   // them exactly symmetric so that files and every consumer see one matrix.

@@ -138,7 +138,6 @@ RobustFit mrcd(DataView x, const MrcdOptions& opt) {
   r.h_subset = best->rows;
   r.rho = rho;
   r.consistency_factor = c;
-  r.reweight_factor = 1.0;
   r.reweight_level = opt.flag_level;
   r.target = "identity on median/Qn-standardised columns (diag(Qn^2) in original units)";
   const Extremes kx = extreme_eigenvalues(best->k);
@@ -147,13 +146,21 @@ RobustFit mrcd(DataView x, const MrcdOptions& opt) {
   r.raw_scatter = st.scale.asDiagonal() * best->k * st.scale.asDiagonal();
   r.raw_log_det = best->log_det + 2.0 * st.scale.array().log().sum();
   r.location = r.raw_location;
-  r.scatter = r.raw_scatter;
   r.raw_d2 = best->chol.squared_distances(make_view(z), best->mean);
-  r.robust_d2 = r.raw_d2;
+  // The regularised scatter has no chi-square consistency factor (p >= n
+  // leaves no room for one): it is rescaled so that the median distance of the
+  // fitting rows is chi2_p(0.5), the usual median calibration (common
+  // practice; no published factor for MRCD). The factor is reported as the
+  // reweighting factor; the final scatter, the flags stored with the fit and
+  // later scoring against the chi-square all use this one number.
   const double pd = static_cast<double>(p);
-  const double cutoff = chi2_quantile(opt.flag_level, pd) * median(r.raw_d2) / chi2_quantile(0.5, pd);
+  const double med = median(r.raw_d2);
+  r.reweight_factor = med > 0.0 && std::isfinite(med) ? med / chi2_quantile(0.5, pd) : 1.0;
+  r.scatter = r.reweight_factor * r.raw_scatter;
+  r.robust_d2 = r.raw_d2 / r.reweight_factor;
+  const double cutoff = chi2_quantile(opt.flag_level, pd);
   r.outlier.resize(static_cast<std::size_t>(n));
-  for (Index i = 0; i < n; ++i) r.outlier[static_cast<std::size_t>(i)] = r.raw_d2(i) > cutoff;
+  for (Index i = 0; i < n; ++i) r.outlier[static_cast<std::size_t>(i)] = r.robust_d2(i) > cutoff;
   r.iterations = iterations;
   r.starts = static_cast<int>(subsets.size());
   mcd_detail::report_progress(opt.progress, "done", 1.0);

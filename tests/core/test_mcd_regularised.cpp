@@ -3,7 +3,9 @@
 
 #include <Eigen/Eigenvalues>
 #include <algorithm>
+#include <vector>
 
+#include "core/distributions.hpp"
 #include "core/error.hpp"
 #include "core/mcd_regularised.hpp"
 #include "test_mcd_common.hpp"
@@ -59,4 +61,28 @@ TEST(Mrcd, TallDataNeedsNoRegularisation) {
   const RobustFit f = mrcd(make_view(x));
   EXPECT_EQ(f.rho, 0.0);  // a clean N(0, I) sample is far from condition 50
   EXPECT_LT(f.condition_number, 50.0);
+}
+
+// The median calibration (common practice for MRCD, see mcd_common.hpp): with
+// an even number of rows the median is the mean of the two middle distances,
+// and the stored flags follow the same rule scoring applies to the final
+// scatter (robust_d2 against chi2q(p, level)), so the two cannot disagree.
+TEST(Mrcd, MedianCalibrationAndStoredFlagsFollowOneRule) {
+  for (Index n : {40, 41}) {
+    const Index p = 60;
+    const Eigen::MatrixXd x = mcd_test::normal_data(n, p, 23);
+    const RobustFit f = mrcd(make_view(x));
+    const double pd = static_cast<double>(p);
+    std::vector<double> d(f.robust_d2.data(), f.robust_d2.data() + n);
+    std::sort(d.begin(), d.end());
+    const double med = n % 2 ? d[static_cast<size_t>(n / 2)] : 0.5 * (d[static_cast<size_t>(n / 2 - 1)] + d[static_cast<size_t>(n / 2)]);
+    EXPECT_NEAR(med, chi2_quantile(0.5, pd), 1e-10 * pd) << n;
+    EXPECT_GT(f.reweight_factor, 0.0);
+    EXPECT_TRUE(f.scatter.isApprox(f.reweight_factor * f.raw_scatter, 1e-14)) << n;
+    const double cutoff = chi2_quantile(f.reweight_level, pd);
+    for (Index i = 0; i < n; ++i) {
+      EXPECT_NEAR(f.robust_d2(i), f.raw_d2(i) / f.reweight_factor, 1e-12 * f.robust_d2(i)) << i;
+      EXPECT_EQ(f.outlier[static_cast<size_t>(i)], f.robust_d2(i) > cutoff) << i;
+    }
+  }
 }
