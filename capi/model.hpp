@@ -21,6 +21,7 @@ struct RobustPart {
   std::vector<int64_t> h_subset_rows;  // 0-based rows of the fitting data
   std::vector<int64_t> outlier_rows;   // 0-based rows of the fitting data
   double consistency_factor = 1.0;
+  int32_t consistency_rule = ELLIPSA_CONSISTENCY_NORMAL;  // how consistency_factor was found
   double reweight_factor = 1.0;
   double small_sample_raw = 1.0;         // small-sample factors applied (1: none or off)
   double small_sample_reweighted = 1.0;

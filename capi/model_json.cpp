@@ -177,6 +177,8 @@ std::string model_to_json(const ellipsa_model& m) {
       j["h_subset_rows"] = rows_json(r.h_subset_rows);
       j["outlier_rows"] = rows_json(r.outlier_rows);
       j["consistency_factor"] = r.consistency_factor;
+      // Written only for the median rule, so files of the default rule stay as they were.
+      if (r.consistency_rule == ELLIPSA_CONSISTENCY_MEDIAN) j["consistency_rule"] = "median";
       j["reweight_factor"] = r.reweight_factor;
       if (m.method == ELLIPSA_METHOD_MCD || m.method == ELLIPSA_METHOD_DETMCD)
         j["small_sample_factors"] = {{"raw", r.small_sample_raw}, {"reweighted", r.small_sample_reweighted}};
@@ -292,6 +294,12 @@ ellipsa_model model_from_json(const char* text, int64_t length) {
       r.h_subset_rows = read_rows(field(j, "h_subset_rows"), row_limit, "h_subset_rows");
       r.outlier_rows = read_rows(field(j, "outlier_rows"), row_limit, "outlier_rows");
       r.consistency_factor = number(field(j, "consistency_factor"), "consistency_factor");
+      if (j.contains("consistency_rule")) {
+        const auto& rule = j["consistency_rule"];
+        if (!rule.is_string() || (rule.get<std::string>() != "median" && rule.get<std::string>() != "normal"))
+          format_error("\"consistency_rule\" must be \"normal\" or \"median\"");
+        r.consistency_rule = rule.get<std::string>() == "median" ? ELLIPSA_CONSISTENCY_MEDIAN : ELLIPSA_CONSISTENCY_NORMAL;
+      }
       r.reweight_factor = number(field(j, "reweight_factor"), "reweight_factor");
       r.raw_log_det = number(field(j, "raw_log_det"), "raw_log_det");
       if (version >= 2 && (m.method == ELLIPSA_METHOD_MCD || m.method == ELLIPSA_METHOD_DETMCD)) {

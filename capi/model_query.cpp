@@ -47,6 +47,7 @@ double diagnostic(const ellipsa_model& m, const std::string& name) {
   }
   if (name == "h") return static_cast<double>(robust().h);
   if (name == "consistency_factor") return robust().consistency_factor;
+  if (name == "consistency_rule") return static_cast<double>(robust().consistency_rule);
   if (name == "reweight_factor") return robust().reweight_factor;
   if (name == "raw_log_det") return robust().raw_log_det;
   if (name == "small_sample_raw" || name == "small_sample_reweighted") {

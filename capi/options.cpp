@@ -179,6 +179,15 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_small_sample(ellipsa_fit_opti
   });
 }
 
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_consistency(ellipsa_fit_options* o, int32_t rule) {
+  return set("ellipsa_fit_options_set_consistency", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_DETMCD}, "the consistency rule");
+    if (rule != ELLIPSA_CONSISTENCY_NORMAL && rule != ELLIPSA_CONSISTENCY_MEDIAN)
+      bad("rule must be ELLIPSA_CONSISTENCY_NORMAL or ELLIPSA_CONSISTENCY_MEDIAN");
+    x.consistency = rule;
+  });
+}
+
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_reference(ellipsa_fit_options* o, int32_t reference) {
   return set("ellipsa_fit_options_set_reference", o, [&](ellipsa_fit_options& x) {
     require_method(x, {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS,

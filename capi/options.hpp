@@ -22,6 +22,7 @@ struct ellipsa_fit_options {
   double tolerance = 1e-6;
   double regularisation = 1e-6;
   int32_t small_sample = 1;  // MCD, DetMCD: apply the small-sample factors
+  int32_t consistency = ELLIPSA_CONSISTENCY_NORMAL;  // MCD, DetMCD: raw scatter scaling rule
   int32_t reference = ELLIPSA_REFERENCE_MODEL;  // MODEL = the default choice (score_reference.cpp)
   ellipsa_progress_fn progress = nullptr;
   void* progress_user = nullptr;

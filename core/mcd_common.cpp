@@ -355,32 +355,50 @@ Eigen::VectorXd centred_distances(const Eigen::MatrixXd& z, const Eigen::VectorX
 
 }  // namespace
 
-RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h, double level,
-                     const SmallSampleFactors& small_sample) {
+RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h,
+                     const FinishRule& rule) {
   const Index n = x.rows(), p = x.cols();
+  const double level = rule.level;
   RobustFit r;
   r.h = h;
   r.h_subset = best.rows;
   r.reweight_level = level;
-  r.consistency_factor = mcd_consistency_factor(h, n, p);
+  r.raw_consistency = rule.raw;
   r.reweight_factor = reweight_consistency_factor(level, p);
-  r.small_sample = small_sample;
-  // Pison, Van Aelst & Willems (2002): the consistency factor is exact only as
-  // n grows; the small-sample factor removes the remaining bias of the raw
-  // scatter before it chooses the rows to reweight.
-  const double raw_factor = r.consistency_factor * small_sample.raw;
-  r.raw_location = s.centre + s.scale.cwiseProduct(best.mean);
-  r.raw_scatter = raw_factor * scale_both_sides(best.cov, s.scale);
-  r.raw_log_det = best.log_det + 2.0 * s.scale.array().log().sum();
+  r.small_sample = rule.small_sample;
   // Distances are affine invariant: compute them on the standardised data.
   // They set the reweighting flags and RobustFit::raw_d2/robust_d2; the
   // distances users score rows with come from MahalanobisScorer (scoring.hpp)
   // on the returned location and scatter, not from here.
   const DataView zv = make_view(s.z);
+  if (rule.raw == RawConsistency::Median) {
+    // Rousseeuw & Van Driessen (1999): scale so that the median distance of
+    // all rows is the chi-square median (distances scale as 1/factor).
+    CholeskyFactor unscaled;
+    if (!unscaled.compute(best.cov))
+      throw Error(ErrorKind::Singular, "MCD: raw scatter is not positive definite (internal error)");
+    const Eigen::VectorXd d2 = centred_distances(s.z, best.mean, unscaled);
+    std::vector<double> buf;
+    const double med = median_of(d2.data(), n, buf);
+    if (!(med > 0.0))
+      throw Error(ErrorKind::Singular,
+                  "MCD: half of the rows lie on the subset's centre; the median rescaling is undefined");
+    r.consistency_factor = med / chi2_quantile(0.5, static_cast<double>(p));
+    r.small_sample.raw = 1.0;
+  } else {
+    r.consistency_factor = mcd_consistency_factor(h, n, p);
+  }
+  // Pison, Van Aelst & Willems (2002): the consistency factor is exact only as
+  // n grows; the small-sample factor removes the remaining bias of the raw
+  // scatter before it chooses the rows to reweight.
+  const double raw_factor = r.consistency_factor * r.small_sample.raw;
   CholeskyFactor raw_chol;
   if (!raw_chol.compute(raw_factor * best.cov))
     throw Error(ErrorKind::Singular, "MCD: raw scatter is not positive definite (internal error)");
   r.raw_d2 = centred_distances(s.z, best.mean, raw_chol);
+  r.raw_location = s.centre + s.scale.cwiseProduct(best.mean);
+  r.raw_scatter = raw_factor * scale_both_sides(best.cov, s.scale);
+  r.raw_log_det = best.log_det + 2.0 * s.scale.array().log().sum();
   const double cutoff = chi2_quantile(level, static_cast<double>(p));
   r.outlier.assign(static_cast<std::size_t>(n), false);
   Eigen::VectorXd w(n);
@@ -394,7 +412,7 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
   CholeskyFactor chol;
   if (acc.rows() > p) {
     const Eigen::MatrixXd cov_z =
-        r.reweight_factor * small_sample.reweighted * acc.covariance(Normalisation::ByCount);
+        r.reweight_factor * rule.small_sample.reweighted * acc.covariance(Normalisation::ByCount);
     if (chol.compute(cov_z)) {
       r.reweighted = true;
       r.location = s.centre + s.scale.cwiseProduct(acc.mean());

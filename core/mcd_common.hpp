@@ -59,7 +59,24 @@ struct Hyperplane {
 //   outlier[i]: row i is off the plane. raw_d2 and robust_d2 are empty,
 //   raw_log_det = -infinity, consistency_factor = reweight_factor = 1.
 // MRCD fills rho, target, condition_number (see mcd_regularised.hpp); for it
-// location/scatter equal raw_location/raw_scatter (no reweighting).
+// location = raw_location and scatter = reweight_factor * raw_scatter, with
+// reweight_factor = med(raw_d2) / chi2q(p, 0.5) (median calibration, no
+// reweighting); robust_d2 = raw_d2 / reweight_factor and outlier[i]:
+// robust_d2[i] > chi2q(p, reweight_level), the rule scoring applies.
+// How the raw MCD scatter (the covariance of the h-subset) is scaled to
+// estimate the covariance of the whole bulk.
+enum class RawConsistency {
+  // Croux & Haesbroeck (1999) factor, exact for a normal bulk as n grows, times
+  // the small-sample factor (mcd_small_sample.hpp). The default.
+  NormalFactor,
+  // Rousseeuw & Van Driessen (1999, FAST-MCD paper): multiply by
+  // med_i d2_i / chi2q(p, 0.5), with d2 the distances of all n rows under the
+  // unscaled subset covariance, so that half of the rows lie inside the
+  // chi-square median. It adapts to the bulk's own spread; no small-sample
+  // factor is applied to it (the median is taken on the sample itself).
+  Median,
+};
+
 struct RobustFit {
   Eigen::VectorXd location, raw_location;
   Eigen::MatrixXd scatter, raw_scatter;
@@ -67,7 +84,8 @@ struct RobustFit {
   std::vector<Index> h_subset;  // 0-based rows of the optimal h-subset, ascending
   std::vector<bool> outlier;
   Eigen::VectorXd raw_d2, robust_d2;
-  double consistency_factor = 1.0;
+  double consistency_factor = 1.0;  // the factor applied to the raw scatter (either rule)
+  RawConsistency raw_consistency = RawConsistency::NormalFactor;
   double reweight_factor = 1.0;
   SmallSampleFactors small_sample;  // the small-sample factors applied (1 = none)
   double reweight_level = 0.975;
@@ -207,11 +225,18 @@ int c_steps_to_convergence(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, in
 std::optional<SubsetFit> exact_fit_subset(const Eigen::MatrixXd& z, const Eigen::MatrixXd& z_stage,
                                           const SubsetFit& singular_fit, Index h);
 
+// How a regular fit is finished (the options of finish_fit()).
+struct FinishRule {
+  double level = 0.975;               // reweighting cutoff chi2q(p, level)
+  SmallSampleFactors small_sample;    // 1 and 1: none
+  RawConsistency raw = RawConsistency::NormalFactor;
+};
+
 // Final step of a regular fit: back to original units, consistency and
 // small-sample factors, reweighting at chi2q(p, level) with the corrected raw
 // distances.
 RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h,
-                     double level, const SmallSampleFactors& small_sample);
+                     const FinishRule& rule);
 
 // Result for an exact fit revealed by the (singular) subset fit `subset`.
 RobustFit exact_fit_result(DataView x, const Standardised& s, const SubsetFit& subset, Index h);

@@ -187,9 +187,10 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   if (opt.max_csteps < 1) throw Error(ErrorKind::Argument, "DetMCD: max_csteps must be positive");
   mcd_detail::check_input(x, opt.alpha, true, "DetMCD");
   const Index n = x.rows(), p = x.cols();
-  const SmallSampleFactors small =
-      small_sample_factors(McdFamily::Deterministic, opt.small_sample, n, p, opt.alpha);
-  if (p == 1) return univariate_mcd(x, opt.alpha, opt.reweight_level, small);
+  const mcd_detail::FinishRule rule{
+      opt.reweight_level, small_sample_factors(McdFamily::Deterministic, opt.small_sample, n, p, opt.alpha),
+      opt.raw_consistency};
+  if (p == 1) return univariate_mcd(x, opt.alpha, rule);
   const Index h = mcd_subset_size(n, p, opt.alpha);
   mcd_detail::report_progress(opt.progress, "standardise", 0.0);
   const mcd_detail::Standardised st = mcd_detail::standardise(x, mcd_detail::ColumnScale::Qn);
@@ -205,7 +206,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
       const auto ex = mcd_detail::exact_fit_subset(z, z, whole, h);
       if (ex) return mcd_detail::exact_fit_result(x, st, *ex, h);
     }
-    if (h == n) return mcd_detail::finish_fit(x, st, whole, h, opt.reweight_level, small);
+    if (h == n) return mcd_detail::finish_fit(x, st, whole, h, rule);
   }
 
   mcd_detail::report_progress(opt.progress, "starting estimates", 0.05);
@@ -240,7 +241,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   }
   if (!best) throw Error(ErrorKind::Data, "DetMCD: no starting estimate gave a nonsingular subset");
   mcd_detail::report_progress(opt.progress, "reweighting", 0.95);
-  RobustFit r = mcd_detail::finish_fit(x, st, *best, h, opt.reweight_level, small);
+  RobustFit r = mcd_detail::finish_fit(x, st, *best, h, rule);
   r.iterations = iterations;
   r.starts = usable;
   mcd_detail::report_progress(opt.progress, "done", 1.0);

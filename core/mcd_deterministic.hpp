@@ -20,6 +20,8 @@ struct DetMcdOptions {
   double reweight_level = 0.975;  // reweighting cutoff chi2q(p, level)
   // Small-sample factors of the raw and reweighted scatter (mcd_small_sample.hpp).
   SmallSample small_sample = SmallSample::Both;
+  // Scaling of the raw scatter (mcd_common.hpp): the normal-consistency factor or the median rule.
+  RawConsistency raw_consistency = RawConsistency::NormalFactor;
   ProgressCallback progress;      // optional; false cancels
 };
 

@@ -192,8 +192,7 @@ void check_options(const FastMcdOptions& o) {
 
 }  // namespace
 
-RobustFit univariate_mcd(DataView x, double alpha, double reweight_level,
-                         const SmallSampleFactors& small_sample) {
+RobustFit univariate_mcd(DataView x, double alpha, const mcd_detail::FinishRule& rule) {
   mcd_detail::check_input(x, alpha, true, "univariate MCD");
   if (x.cols() != 1) throw Error(ErrorKind::Shape, "univariate MCD: data must have one column");
   const Index n = x.rows();
@@ -251,7 +250,7 @@ RobustFit univariate_mcd(DataView x, double alpha, double reweight_level,
   std::sort(rows.begin(), rows.end());
   const SubsetFit f = mcd_detail::fit_subset(s.z, std::move(rows));
   RobustFit r = f.singular ? mcd_detail::exact_fit_result(x, s, f, h)
-                           : mcd_detail::finish_fit(x, s, f, h, reweight_level, small_sample);
+                           : mcd_detail::finish_fit(x, s, f, h, rule);
   r.starts = 1;
   return r;
 }
@@ -261,8 +260,10 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   check_options(opt);
   mcd_detail::check_input(x, opt.alpha, true, "FAST-MCD");
   const Index n = x.rows(), p = x.cols();
-  const SmallSampleFactors small = small_sample_factors(McdFamily::Fast, opt.small_sample, n, p, opt.alpha);
-  if (p == 1) return univariate_mcd(x, opt.alpha, opt.reweight_level, small);
+  const mcd_detail::FinishRule rule{
+      opt.reweight_level, small_sample_factors(McdFamily::Fast, opt.small_sample, n, p, opt.alpha),
+      opt.raw_consistency};
+  if (p == 1) return univariate_mcd(x, opt.alpha, rule);
   const Index h = mcd_subset_size(n, p, opt.alpha);
   mcd_detail::report_progress(opt.progress, "standardise", 0.0);
   const mcd_detail::Standardised st = mcd_detail::standardise(x, mcd_detail::ColumnScale::Mad);
@@ -273,7 +274,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   if (h == n) {
     const SubsetFit f = mcd_detail::fit_subset(st.z, all);
     return f.singular ? mcd_detail::exact_fit_result(x, st, f, h)
-                      : mcd_detail::finish_fit(x, st, f, h, opt.reweight_level, small);
+                      : mcd_detail::finish_fit(x, st, f, h, rule);
   }
 
   Search s{st.z, h, opt, Sampler(opt.seed), 0, 0, std::nullopt, {}};
@@ -335,7 +336,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   } else if (cands.empty()) {
     throw Error(ErrorKind::Data, "FAST-MCD: no start gave a nonsingular subset (internal error)");
   } else {
-    r = mcd_detail::finish_fit(x, st, cands.front().fit, h, opt.reweight_level, small);
+    r = mcd_detail::finish_fit(x, st, cands.front().fit, h, rule);
   }
   r.iterations = s.iterations;
   r.starts = s.starts;

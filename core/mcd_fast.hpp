@@ -33,6 +33,8 @@ struct FastMcdOptions {
   double reweight_level = 0.975; // reweighting cutoff chi2q(p, level)
   // Small-sample factors of the raw and reweighted scatter (mcd_small_sample.hpp).
   SmallSample small_sample = SmallSample::Both;
+  // Scaling of the raw scatter (mcd_common.hpp): the normal-consistency factor or the median rule.
+  RawConsistency raw_consistency = RawConsistency::NormalFactor;
   ProgressCallback progress;     // optional; false cancels
 };
 
@@ -46,7 +48,6 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& options = {});
 // The exact univariate MCD (p = 1): sort, then the h-window of consecutive
 // order statistics with the smallest variance, O(n log n). fast_mcd() and
 // det_mcd() call it for p = 1; exposed for tests.
-RobustFit univariate_mcd(DataView x, double alpha, double reweight_level = 0.975,
-                         const SmallSampleFactors& small_sample = {});
+RobustFit univariate_mcd(DataView x, double alpha, const mcd_detail::FinishRule& rule = {});
 
 }  // namespace ellipsa::core

@@ -38,6 +38,7 @@ struct FitFlags {
   std::string divisor = "n-1";
   std::string missing = "drop";
   std::string small_sample = "on";  // mcd, detmcd: small-sample factors on|off
+  std::string consistency = "normal";  // mcd, detmcd: raw scatter scaling, normal|median
   std::string reference;            // fit: scoring reference recorded in the model ("" = library default)
   // The flags the user gave: only those are passed to the library, whose own
   // defaults (and its refusal of settings a method does not use) then apply.
@@ -48,6 +49,7 @@ struct FitFlags {
   CLI::Option* restarts_flag = nullptr;
   CLI::Option* divisor_flag = nullptr;
   CLI::Option* small_sample_flag = nullptr;
+  CLI::Option* consistency_flag = nullptr;
   bool components_default = false;  // cluster: pass the range even when not given
 };
 void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method);

@@ -57,6 +57,11 @@ void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method) {
                                          "mcd, detmcd: small-sample factors of the scatter, on or off "
                                          "(docs/calibration.md)")
                               ->capture_default_str();
+  if (with_method)
+    f.consistency_flag = app.add_option("--consistency", f.consistency,
+                                        "mcd, detmcd: scaling of the raw scatter, normal (Croux-Haesbroeck "
+                                        "factor) or median (Rousseeuw-Van Driessen); docs/calibration.md")
+                             ->capture_default_str();
   app.add_option("--missing", f.missing, "Rows with missing cells: drop, refuse, or em (mixture only)")
       ->capture_default_str();
 }
@@ -116,6 +121,13 @@ OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& c
   if (given(f.small_sample_flag)) {
     if (f.small_sample != "on" && f.small_sample != "off") throw CliError(kExitUsage, "--small-sample must be on or off");
     check(ellipsa_fit_options_set_small_sample(o.get(), f.small_sample == "on" ? 1 : 0), "--small-sample");
+  }
+  if (given(f.consistency_flag)) {
+    if (f.consistency != "normal" && f.consistency != "median")
+      throw CliError(kExitUsage, "--consistency must be normal or median");
+    check(ellipsa_fit_options_set_consistency(o.get(), f.consistency == "median" ? ELLIPSA_CONSISTENCY_MEDIAN
+                                                                                : ELLIPSA_CONSISTENCY_NORMAL),
+          "--consistency");
   }
   if (!f.reference.empty()) {
     int32_t r = 0;

@@ -499,6 +499,36 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_progress(ellipsa_fit_options 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_small_sample(ellipsa_fit_options *options,
                                                                 int32_t on);
 
+/** ellipsa_fit_options_set_consistency(): the Croux-Haesbroeck factor, exact
+ *  for a normal bulk, times the small-sample factors. The default. */
+#define ELLIPSA_CONSISTENCY_NORMAL 0
+/** ellipsa_fit_options_set_consistency(): the median rule of Rousseeuw & Van
+ *  Driessen (1999), raw scatter times med(d^2) / chi2q(p, 0.5). */
+#define ELLIPSA_CONSISTENCY_MEDIAN 1
+
+/**
+ * @brief MCD and DetMCD: how the raw scatter (the covariance of the h-subset) is scaled to the whole bulk.
+ *
+ * ::ELLIPSA_CONSISTENCY_NORMAL (default) multiplies it by the Croux-Haesbroeck
+ * factor and the small-sample factor (ellipsa_fit_options_set_small_sample()):
+ * right for a normal bulk. ::ELLIPSA_CONSISTENCY_MEDIAN multiplies it by the
+ * median of all rows' squared distances over the chi-square median
+ * (Rousseeuw & Van Driessen 1999), so that half of the rows lie inside the
+ * median ellipsoid whatever the bulk's shape; the raw small-sample factor is
+ * then not applied (the reweighted one is). The reweighting and the scoring
+ * reference are the same under both rules. The measured flag rates of both
+ * rules on normal and non-normal bulks, and why the default is the default,
+ * are in docs/calibration.md. The factor used is the diagnostic
+ * "consistency_factor"; the rule is the diagnostic "consistency_rule" (0 or
+ * 1) and is stored in the model file.
+ * @param options The options.
+ * @param rule    ::ELLIPSA_CONSISTENCY_NORMAL or ::ELLIPSA_CONSISTENCY_MEDIAN.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (an unknown rule, or a
+ *         method other than mcd and detmcd).
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_consistency(ellipsa_fit_options *options,
+                                                               int32_t rule);
+
 /**
  * @brief Gaussian methods: the scoring reference the model records (see ::ELLIPSA_REFERENCE_NEW_ROWS).
  *
@@ -740,7 +770,11 @@ ELLIPSA_API ellipsa_status ellipsa_model_raw_estimate(double *location, int64_t 
  * Names (each exists only for the methods listed; others give
  * ::ELLIPSA_ERR_STATE): "shrinkage_intensity" (ledoit-wolf, oas, mrcd),
  * "h", "consistency_factor", "reweight_factor", "raw_log_det" (mcd, detmcd,
- * mrcd), "log_likelihood", "bic", "icl", "iterations", "converged",
+ * mrcd; for mrcd "reweight_factor" is its median calibration, the final
+ * scatter = that factor times the regularised subset scatter, chosen so that
+ * the median squared distance of the fitting rows is the chi-square median),
+ * "consistency_rule" (mcd, detmcd, mrcd: the ELLIPSA_CONSISTENCY_ value;
+ * mrcd always 0), "log_likelihood", "bic", "icl", "iterations", "converged",
  * "parameters", "log_density_cutoff" (mixture), "log_det" (gaussian models),
  * "divisor" (1 for n, 2 for n-1; classical), "small_sample_raw",
  * "small_sample_reweighted" (mcd, detmcd: the small-sample factors applied, 1

@@ -5,6 +5,7 @@
 //   calibration_flag_rates [--bulk gaussian|sine-cycle|log-normal|t5|all]
 //       [--n 30,50,...] [--p 2,5,...] [--methods classical,mcd,...] [--use self|fresh|both]
 //       [--level 0.975] [--seed S] [--rows R] [--correction on|off]
+//       [--consistency normal|median]
 //       [--reference model|chi2|new-rows|fitting-rows]
 //   calibration_flag_rates --effective-rows [--methods mcd,detmcd] [--n ...] [--p ...] [--seed S]
 //
@@ -124,7 +125,8 @@ int effective_rows_table(const std::vector<std::string>& methods, const std::vec
 [[noreturn]] void usage(const char* argv0) {
   std::fprintf(stderr,
                "usage: %s [--bulk NAME|all] [--n LIST] [--p LIST] [--methods LIST] [--use self|fresh|both]\n"
-               "          [--level L] [--seed S] [--rows R] [--correction on|off] [--reference NAME]\n",
+               "          [--level L] [--seed S] [--rows R] [--correction on|off] [--reference NAME]\n"
+               "          [--consistency normal|median]\n",
                argv0);
   std::exit(2);
 }
@@ -139,7 +141,7 @@ int main(int argc, char** argv) try {
   cal::CellSettings base;
   base.seed = 20261202;
   long target_rows = 20000;
-  std::string reference_text = "default", correction_text = "default";
+  std::string reference_text = "default", correction_text = "default", consistency_text = "default";
   bool effective = false;
   for (int i = 1; i < argc; ++i) {
     const std::string a = argv[i];
@@ -158,6 +160,10 @@ int main(int argc, char** argv) try {
     else if (a == "--correction") {
       base.correction = v == "on" ? 1 : 0;
       correction_text = v;
+    } else if (a == "--consistency") {
+      if (v != "normal" && v != "median") usage(argv[0]);
+      base.consistency = v == "median" ? ELLIPSA_CONSISTENCY_MEDIAN : ELLIPSA_CONSISTENCY_NORMAL;
+      consistency_text = v;
     } else if (a == "--reference") {
       base.reference = reference_from(v);
       reference_text = v;
@@ -182,9 +188,9 @@ int main(int argc, char** argv) try {
     return effective_rows_table(methods, ns, ps, uses, base, target_rows);
   }
   std::printf("Flag rates on clean data, level %.4g (nominal %.2f%%), seed %llu, small-sample correction %s, "
-              "reference %s\n\n",
+              "consistency %s, reference %s\n\n",
               base.level, 100.0 * (1.0 - base.level), static_cast<unsigned long long>(base.seed),
-              correction_text.c_str(), reference_text.c_str());
+              correction_text.c_str(), consistency_text.c_str(), reference_text.c_str());
   std::printf("| bulk | method | n | p | use | fits | refused | rows scored | rate %% | s.e. %% |\n");
   std::printf("|---|---|---|---|---|---|---|---|---|---|\n");
   for (cal::Bulk bulk : bulks)

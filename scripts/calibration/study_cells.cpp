@@ -34,6 +34,8 @@ Options make_options(const CellSettings& s, uint64_t replicate_seed) {
   if (uses_seed(s.method)) check(ellipsa_fit_options_set_seed(o.get(), replicate_seed), "seed");
   if (s.correction >= 0 && is_mcd_family(s.method))
     check(ellipsa_fit_options_set_small_sample(o.get(), s.correction), "small-sample correction");
+  if (s.consistency >= 0 && (s.method == ELLIPSA_METHOD_MCD || s.method == ELLIPSA_METHOD_DETMCD))
+    check(ellipsa_fit_options_set_consistency(o.get(), s.consistency), "consistency rule");
   return o;
 }
 

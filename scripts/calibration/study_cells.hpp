@@ -25,6 +25,7 @@ struct CellSettings {
   uint64_t seed = 1;          // base seed of the study; each replicate derives its own
   int64_t fresh_rows = 200;   // rows scored per replicate in the fresh use
   int32_t correction = -1;    // ellipsa_fit_options_set_small_sample: 0 off, 1 on
+  int32_t consistency = -1;   // ellipsa_fit_options_set_consistency: ELLIPSA_CONSISTENCY_*
   int32_t reference = -1;     // ELLIPSA_REFERENCE_* passed to ellipsa_model_score_v2
 };
 

@@ -11,6 +11,8 @@
 #include <string>
 #include <vector>
 
+#include <gtest/gtest.h>
+
 #include "ellipsa.h"
 
 namespace capi_test {
@@ -38,6 +40,13 @@ inline ellipsa_status load(const std::string& s, Model* out) {
   const ellipsa_status st = ellipsa_model_load(&m, s.data(), static_cast<int64_t>(s.size()));
   out->reset(m);
   return st;
+}
+
+// A named diagnostic of a model, asserting that the query succeeds.
+inline double diagnostic(const ellipsa_model* m, const char* name) {
+  double v = NAN;
+  EXPECT_EQ(ellipsa_model_diagnostic(&v, m, name), ELLIPSA_OK) << name << ": " << ellipsa_last_error();
+  return v;
 }
 
 inline Options options(ellipsa_method m) {

@@ -25,12 +25,6 @@ Model fit(ellipsa_method method, const std::vector<double>& x, int64_t n, int64_
   return Model(raw);
 }
 
-double diagnostic(const ellipsa_model* m, const char* name) {
-  double v = NAN;
-  EXPECT_EQ(ellipsa_model_diagnostic(&v, m, name), ELLIPSA_OK) << name << ": " << ellipsa_last_error();
-  return v;
-}
-
 // Removes the JSON member `"key": {...}` (an object on one or more lines) and its comma.
 std::string drop_object(std::string s, const std::string& key) {
   const auto at = s.find("\"" + key + "\"");

@@ -34,6 +34,13 @@ for sub in ("fit", "score", "screen", "inspect"):
 expect(["fit", "--no-such-option", good], 2)
 expect(["fit", "--method", "banana", good], 2, "banana")
 expect(["fit", "--method", "mcd", "--alpha", "0.3", good], 2, "alpha")
+expect(["fit", "--method", "mcd", "--consistency", "mean", good], 2, "--consistency")
+expect(["fit", "--method", "classical", "--consistency", "median", good], 2, "mcd")
+median_model = os.path.join(tmp, "median.json")
+expect(["fit", "--method", "mcd", "--consistency", "median", "--seed", "1", "--quiet", good, "-o", median_model], 0)
+with open(median_model) as f:
+    if '"consistency_rule": "median"' not in f.read():
+        failures.append("fit --consistency median records the rule in the model file")
 expect(["score", "m.json", good, "--level", "1.5"], 2, "level")
 expect(["score", "m.json", good, "--digits", "18"], 2, "--digits")
 expect(["score", "m.json", good, "--digits", "ten"], 2, "--digits")
