@@ -19,6 +19,9 @@ if(NOT IS_ABSOLUTE "${libdir_abs}")
 endif()
 set(PC_PREFIX "${prefix}")
 set(PC_VERSION "${ELLIPSA_PC_VERSION}")
-configure_file("${ELLIPSA_PC_TEMPLATE}" "${ELLIPSA_PC_WORK_DIR}/ellipsa.pc" @ONLY)
-file(INSTALL DESTINATION "${libdir_abs}/pkgconfig" TYPE FILE
-  FILES "${ELLIPSA_PC_WORK_DIR}/ellipsa.pc")
+# One work folder per destination, so that installs to two places at once
+# cannot hand each other their file.
+string(MD5 destination "$ENV{DESTDIR}${libdir_abs}")
+set(work "${ELLIPSA_PC_WORK_DIR}/${destination}")
+configure_file("${ELLIPSA_PC_TEMPLATE}" "${work}/ellipsa.pc" @ONLY)
+file(INSTALL DESTINATION "${libdir_abs}/pkgconfig" TYPE FILE FILES "${work}/ellipsa.pc")
