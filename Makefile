@@ -3,8 +3,10 @@
 BUILD ?= build
 JOBS ?= 2
 CMAKE_FLAGS ?=
+# `make install PREFIX=/opt/ellipsa` (DESTDIR=/staging is honoured for packaging).
+PREFIX ?= /usr/local
 
-.PHONY: all deps build test demo bench docs clean sanitize gnumeric-plugin calc-addin
+.PHONY: all deps build test demo bench docs clean sanitize gnumeric-plugin calc-addin install
 
 all: build
 
@@ -19,6 +21,11 @@ build: deps $(BUILD)/CMakeCache.txt
 
 test: build
 	cd $(BUILD) && ctest --output-on-failure -j$(JOBS)
+
+# Library (libellipsa.so.0), header, batch tool, CMake package and pkg-config
+# file under PREFIX (cmake/install.cmake; tested by tests/install/).
+install: build
+	DESTDIR="$(DESTDIR)" cmake --install $(BUILD) --prefix "$(PREFIX)"
 
 demo: build
 	@examples/run-demo.sh $(BUILD)
