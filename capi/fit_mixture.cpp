@@ -100,6 +100,7 @@ void fit_mixture(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_opti
     e.icl = c.fitted ? c.icl : std::nan("");
     e.converged = c.fitted && c.converged;
     e.chosen = static_cast<core::Index>(i) == sel.winner;
+    if (!c.fitted) e.reason = c.message;
     part.selection.push_back(e);
   }
   for (Eigen::Index k = 0; k < best.model.components(); ++k)

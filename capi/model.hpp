@@ -46,6 +46,7 @@ struct Candidate {
   double icl = 0.0;
   bool converged = false;
   bool chosen = false;
+  std::string reason;  // why the candidate could not be fitted; empty when it was
 };
 
 struct MixturePart {

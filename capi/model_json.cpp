@@ -210,6 +210,9 @@ std::string model_to_json(const ellipsa_model& m) {
                          {"parameters", c.parameters}, {"bic", number_or_null(c.bic)},
                          {"icl", number_or_null(c.icl)}, {"converged", c.converged},
                          {"chosen", c.chosen}});
+      // Optional: only a candidate that could not be fitted has a reason.
+      for (size_t i = 0; i < x.selection.size(); ++i)
+        if (!x.selection[i].reason.empty()) table[i]["reason"] = x.selection[i].reason;
       j["selection"] = std::move(table);
     }
   }
@@ -380,6 +383,11 @@ ellipsa_model model_from_json(const char* text, int64_t length) {
           format_error(where + ": converged and chosen must be true or false");
         c.converged = e["converged"].get<bool>();
         c.chosen = e["chosen"].get<bool>();
+        if (e.contains("reason")) {  // optional (files before it was stored have none)
+          if (!e["reason"].is_string()) format_error(where + ".reason must be a string");
+          c.reason = e["reason"].get<std::string>();
+          if (c.reason.size() > 4096) format_error(where + ".reason is longer than 4096 bytes");
+        }
         x.selection.push_back(c);
       }
     }

@@ -212,4 +212,20 @@ ELLIPSA_API ellipsa_status ellipsa_model_selection(ellipsa_candidate* out, int64
   });
 }
 
+ELLIPSA_API ellipsa_status ellipsa_candidate_explain(const char** reason, const ellipsa_model* model,
+                                                     int64_t index) {
+  if (reason != nullptr) *reason = nullptr;
+  return guard("ellipsa_candidate_explain", [&] {
+    require_not_null(reason, "reason");
+    require_not_null(model, "model");
+    if (!model->mixture) throw Misuse{ELLIPSA_ERR_STATE, "not a mixture model"};
+    const auto& table = model->mixture->selection;
+    if (index < 0 || index >= static_cast<int64_t>(table.size()))
+      throw Misuse{ELLIPSA_ERR_ARGUMENT, "candidate index " + std::to_string(index) + " outside [0, " +
+                                             std::to_string(table.size()) + ")"};
+    *reason = table[static_cast<size_t>(index)].reason.c_str();
+    return ELLIPSA_OK;
+  });
+}
+
 }  // extern "C"

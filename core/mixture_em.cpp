@@ -357,9 +357,6 @@ StartOutcome run_em(const EmData& data, const MixtureModel& provisional, Eigen::
 void validate_options(const MixtureOptions& o, Index n_input) {
   if (o.components < 1)
     throw Error(ErrorKind::Argument, "mixture: the number of components K must be at least 1");
-  if (o.components > n_input)
-    throw Error(ErrorKind::Argument, "mixture: K = " + std::to_string(o.components) +
-                                         " exceeds the number of rows (" + std::to_string(n_input) + ")");
   if (o.restarts < 1) throw Error(ErrorKind::Argument, "mixture: restarts must be at least 1");
   if (o.max_iterations < 1) throw Error(ErrorKind::Argument, "mixture: max_iterations must be at least 1");
   if (o.lloyd_steps < 0) throw Error(ErrorKind::Argument, "mixture: lloyd_steps must be >= 0");
@@ -383,6 +380,12 @@ void validate_options(const MixtureOptions& o, Index n_input) {
     if (!o.initial_responsibilities.allFinite() || o.initial_responsibilities.minCoeff() < 0.0)
       throw Error(ErrorKind::Argument, "mixture: initial responsibilities must be finite and >= 0");
   }
+  // More components than rows is a property of the data, not a misuse: a model
+  // choice over a range of K records it as a failed candidate (checked after
+  // the options, so that a bad option is still reported as one).
+  if (o.components > n_input)
+    throw Error(ErrorKind::Data, "mixture: K = " + std::to_string(o.components) +
+                                     " exceeds the number of rows (" + std::to_string(n_input) + ")");
 }
 
 // Rejects columns without spread where the regularisation cannot (or should not)

@@ -115,9 +115,9 @@ struct MixtureResult {
 Index mixture_parameter_count(Index k, Index p, CovarianceStructure structure);
 
 // Fits the mixture by EM. Data: rows are observations, NaN marks a missing value.
-// Throws Error(Argument) for bad options (K < 1, K > rows, negative tolerance or
+// Throws Error(Argument) for bad options (K < 1, negative tolerance or
 // regularisation, bad initial labels), Error(Data) for data the fit cannot use
-// (an infinite value, an all-missing row under EmOverMissing, fewer usable rows
+// (K above the number of input rows, an infinite value, an all-missing row under EmOverMissing, fewer usable rows
 // than free parameters, constant columns under Full/Tied or with no
 // regularisation, fewer distinct rows than K), Error(Singular) when no component
 // remains positive definite, Error(Cancelled) when the progress callback says so.

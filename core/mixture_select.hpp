@@ -27,9 +27,11 @@ struct MixtureSelectionOptions {
   MixtureOptions fit;
 };
 
-// One row of the table. A candidate that cannot be fitted (too few rows for its
-// parameters, every component collapsed ...) stays in the table with fitted =
-// false, the reason in `message`, and NaN criteria.
+// One row of the table. A candidate that cannot be fitted (K above the number
+// of rows, too few rows for its parameters, every component collapsed ...)
+// stays in the table with fitted = false, the reason in `message`, and NaN
+// criteria; the others still compete. A fitted candidate that stopped at
+// max_iterations has converged = false and competes like the others.
 struct MixtureCandidate {
   Index k = 0;                  // requested K
   Index k_final = 0;            // K after collapse removals

@@ -18,7 +18,7 @@ enum ExitCode : int {
   kExitOk = 0,
   kExitUsage = 2,      // bad options or arguments
   kExitData = 3,       // unreadable or unusable file or data
-  kExitNumerical = 4,  // singular scatter, exact fit, no convergence
+  kExitNumerical = 4,  // singular scatter, exact fit; a mixture at its iteration cap (outranks 5)
   kExitFlagged = 5,    // --fail-on-flag and at least one row flagged
   kExitChanged = 6,    // compare --fail-on-change and some test significant
   kExitInternal = 70,  // a defect: please report

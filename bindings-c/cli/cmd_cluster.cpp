@@ -79,17 +79,25 @@ Command add_cluster(CLI::App& parent) {
                              {"components", nlohmann::json::array()}, {"low_density_rows", low}};
             h << "model choice over " << count << " candidates (lower BIC is better; * = chosen):\n"
               << "     K  structure      log-lik          BIC          ICL  converged\n";
-            for (const auto& c : table) {
+            for (std::size_t i = 0; i < table.size(); ++i) {
+              const auto& c = table[i];
+              const char* reason = nullptr;
+              check(ellipsa_candidate_explain(&reason, m.get(), static_cast<int64_t>(i)), "reading the model");
               char buf[160];
-              std::snprintf(buf, sizeof buf, "  %s %3d  %-9s %12.3f %12.3f %12.3f  %s\n", c.chosen ? "*" : " ",
-                            c.components, structure_name(c.structure), c.log_likelihood, c.bic, c.icl,
-                            c.converged ? "yes" : "no");
-              h << buf;
+              if (*reason != '\0')  // a candidate that could not be fitted: its reason instead of numbers
+                std::snprintf(buf, sizeof buf, "  %s %3d  %-9s  not fitted: ", c.chosen ? "*" : " ", c.components,
+                              structure_name(c.structure));
+              else
+                std::snprintf(buf, sizeof buf, "  %s %3d  %-9s %12.3f %12.3f %12.3f  %s", c.chosen ? "*" : " ",
+                              c.components, structure_name(c.structure), c.log_likelihood, c.bic, c.icl,
+                              c.converged ? "yes" : "no (iteration cap)");
+              h << buf << reason << "\n";
               j["candidates"].push_back({{"components", c.components}, {"structure", structure_name(c.structure)},
                                          {"log_likelihood", std::isfinite(c.log_likelihood) ? nlohmann::json(c.log_likelihood) : nlohmann::json()},
                                          {"bic", std::isfinite(c.bic) ? nlohmann::json(c.bic) : nlohmann::json()},
                                          {"icl", std::isfinite(c.icl) ? nlohmann::json(c.icl) : nlohmann::json()},
                                          {"converged", c.converged == 1}, {"chosen", c.chosen == 1}});
+              if (*reason != '\0') j["candidates"].back()["reason"] = reason;
             }
             const auto p = static_cast<std::size_t>(cols.p);
             std::vector<double> loc(p);
@@ -127,8 +135,12 @@ Command add_cluster(CLI::App& parent) {
               out.commit();
               h << "memberships written to " << a->scores_out << "\n";
             }
+            double converged = 0.0;
+            check(ellipsa_model_diagnostic(&converged, m.get(), "converged"), "reading the model");
+            j["converged"] = converged != 0.0;
             emit_summary(a->out, h.str(), j);
-            return static_cast<int>(kExitOk);
+            return warn_not_converged(m.get(), "cluster", a->data) ? static_cast<int>(kExitNumerical)
+                                                                   : static_cast<int>(kExitOk);
           }};
 }
 

@@ -112,7 +112,10 @@ Command add_fit(CLI::App& parent) {
               for (const auto& s : f.skipped) human << "  skipped column " << s << "\n";
             if (args->output != "-") human << "model written to " << args->output << "\n";
             emit_summary(args->out, human.str(), summary);
-            return static_cast<int>(kExitOk);
+            // A mixture that stopped at its iteration cap is still written; the
+            // exit code says it did not converge.
+            return warn_not_converged(f.model.get(), "fit", args->data) ? static_cast<int>(kExitNumerical)
+                                                                         : static_cast<int>(kExitOk);
           }};
 }
 

@@ -16,7 +16,7 @@ struct ScreenArgs {
   std::string output;
   std::string by;
   double level = 0.975;
-  std::string reference = "fitting-rows";
+  std::string reference;  // "" = fitting-rows, or chi2 for a mixture
   bool fail_on_flag = false;
   std::string digits = "10";
   FitFlags fit;
@@ -61,8 +61,8 @@ Command add_screen(CLI::App& parent) {
   app->add_option("--level", a->level, "Flag rows whose robust distance exceeds the reference's limit at this level")
       ->capture_default_str();
   app->add_option("--reference", a->reference,
-                  "Limit the flags come from: fitting-rows (the rows screened made the fit), chi2 or new-rows")
-      ->capture_default_str();
+                  "Limit the flags come from: fitting-rows (the default: the rows screened made the fit), "
+                  "chi2 or new-rows; a mixture has chi2 only (its default)");
   app->add_flag("--fail-on-flag", a->fail_on_flag, "Exit with code 5 when any row is flagged");
   add_digits_flag(*app, a->digits);
   add_fit_flags(*app, a->fit, true);
@@ -70,7 +70,15 @@ Command add_screen(CLI::App& parent) {
   add_output_flags(*app, a->out);
   return {app, [a]() {
             const int digits = parse_digits(a->digits);
+            // A mixture's flags use the chi-square limit only (the C interface
+            // refuses the Hotelling references for mixtures): it is their default.
+            const bool mixture = a->fit.method == "mixture";
+            if (a->reference.empty()) a->reference = mixture ? "chi2" : "fitting-rows";
             const int32_t reference = parse_reference(a->reference);
+            if (mixture && reference != ELLIPSA_REFERENCE_CHI2 && reference != ELLIPSA_REFERENCE_MODEL)
+              throw CliError(kExitUsage, "--reference " + a->reference +
+                                             ": a mixture is screened against the chi2 limit only "
+                                             "(leave --reference out, or give chi2)");
             if (!(a->level > 0.0 && a->level < 1.0)) throw CliError(kExitUsage, "--level must lie in (0, 1)");
             // The group column is checked against the header here (a usage
             // error), and taken out of the variables if it happens to be numeric.
@@ -140,6 +148,7 @@ Command add_screen(CLI::App& parent) {
             nlohmann::json machine{{"method", a->fit.method}, {"level", a->level}, {"rows", t.rows()},
                                    {"columns", t.columns}, {"groups", nlohmann::json::array()}};
             int64_t total_flagged = 0;
+            bool not_converged = false;
             machine["reference"] = a->reference;
             human << "screened " << t.rows() << " rows on " << p << " columns with " << a->fit.method
                   << " at level " << a->level << (a->by.empty() ? "" : ", per " + a->by) << "\n";
@@ -165,6 +174,11 @@ Command add_screen(CLI::App& parent) {
               human << ", " << flagged.size() << " flagged by the " << limit << "\n" << lines.str();
               machine["groups"].push_back({{"group", g.name}, {"rows_used", used}, {"rows_dropped", dropped},
                                            {"limit", limit}, {"flagged", flagged}});
+              if (warn_not_converged(g.model.get(), "screen",
+                                     a->by.empty() ? a->data : a->data + ", " + a->by + " = " + g.name)) {
+                not_converged = true;
+                machine["groups"].back()["converged"] = false;
+              }
               if (g.shape) {
                 human << "    bulk shape (Mardia): " << shape_numbers(*g.shape) << "\n";
                 for (const auto& sentence : shape_sentences(*g.shape)) human << "    " << sentence << "\n";
@@ -175,6 +189,8 @@ Command add_screen(CLI::App& parent) {
             if (!a->output.empty()) human << "scored rows written to " << a->output << "\n";
             human << "A flag is evidence to investigate, not a verdict on a part, a batch or a person.\n";
             emit_summary(a->out, human.str(), machine);
+            // A mixture that did not converge (4) outranks flagged rows (5).
+            if (not_converged) return static_cast<int>(kExitNumerical);
             return a->fail_on_flag && total_flagged > 0 ? static_cast<int>(kExitFlagged) : static_cast<int>(kExitOk);
           }};
 }

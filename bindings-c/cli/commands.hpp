@@ -40,6 +40,8 @@ struct FitFlags {
   std::string small_sample = "on";  // mcd, detmcd: small-sample factors on|off
   std::string consistency = "normal";  // mcd, detmcd: raw scatter scaling, normal|median
   std::string reference;            // fit: scoring reference recorded in the model ("" = library default)
+  int max_iterations = 500;         // mixture: EM iteration cap (the library's documented default)
+  double tolerance = 1e-6;          // mixture: relative log-likelihood change (the library's documented default)
   // The flags the user gave: only those are passed to the library, whose own
   // defaults (and its refusal of settings a method does not use) then apply.
   CLI::Option* alpha_flag = nullptr;
@@ -50,12 +52,19 @@ struct FitFlags {
   CLI::Option* divisor_flag = nullptr;
   CLI::Option* small_sample_flag = nullptr;
   CLI::Option* consistency_flag = nullptr;
+  CLI::Option* iterations_flag = nullptr;
+  CLI::Option* tolerance_flag = nullptr;
   bool components_default = false;  // cluster: pass the range even when not given
 };
 void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method);
 // progress, when given and enabled, receives the fit's progress reports.
 OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& columns,
                             Progress* progress = nullptr);
+// A mixture whose chosen EM run stopped at its iteration cap: prints a warning
+// on stderr ("ellipsa <command>: warning: <what>: ...") and returns true, so
+// the command can exit with kExitNumerical after writing its outputs. False
+// (and silent) for a converged mixture or a Gaussian model.
+bool warn_not_converged(const ellipsa_model* m, const std::string& command, const std::string& what);
 void add_dialect_flags(CLI::App& app, DialectFlags& d);
 void add_output_flags(CLI::App& app, OutputFlags& o);
 // --digits of the subcommands that write scored rows: "10" by default, "1".."17",

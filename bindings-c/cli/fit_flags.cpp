@@ -1,5 +1,7 @@
 // Flags and option handles shared by the fitting subcommands.
 #include <charconv>
+#include <cmath>
+#include <cstdio>
 
 #include "commands.hpp"
 
@@ -64,6 +66,30 @@ void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method) {
                              ->capture_default_str();
   app.add_option("--missing", f.missing, "Rows with missing cells: drop, refuse, or em (mixture only)")
       ->capture_default_str();
+  f.iterations_flag = app.add_option("--max-iterations", f.max_iterations,
+                                     "Mixture: EM iterations at most per run; a fit that stops there exits "
+                                     "with code 4 (outputs still written)")
+                          ->capture_default_str();
+  f.tolerance_flag = app.add_option("--tolerance", f.tolerance,
+                                    "Mixture: EM stops when the log-likelihood changes by less than this "
+                                    "relative amount")
+                         ->capture_default_str();
+}
+
+bool warn_not_converged(const ellipsa_model* m, const std::string& command, const std::string& what) {
+  int32_t kind = 0;
+  check(ellipsa_model_describe(&kind, nullptr, nullptr, nullptr, m), "reading the model");
+  if (kind != ELLIPSA_KIND_MIXTURE) return false;
+  double converged = 1.0, iterations = 0.0;
+  check(ellipsa_model_diagnostic(&converged, m, "converged"), "reading the model");
+  if (converged != 0.0) return false;
+  check(ellipsa_model_diagnostic(&iterations, m, "iterations"), "reading the model");
+  std::fprintf(stderr,
+               "ellipsa %s: warning: %s: the mixture's EM stopped at its iteration cap (iterations: %.0f) "
+               "before meeting its tolerance; its results are still given but may change with more "
+               "iterations (raise --max-iterations or loosen --tolerance). Exit code 4.\n",
+               command.c_str(), what.c_str(), iterations);
+  return true;
 }
 
 namespace {
@@ -118,6 +144,13 @@ OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& c
     check(ellipsa_fit_options_set_structure(o.get(), structure), "--structure");
   }
   if (given(f.restarts_flag)) check(ellipsa_fit_options_set_restarts(o.get(), f.restarts), "--restarts");
+  if (given(f.iterations_flag) || given(f.tolerance_flag)) {
+    // One setter takes both; the one not given keeps its default.
+    if (f.max_iterations < 1) throw CliError(kExitUsage, "--max-iterations must be at least 1");
+    if (!(f.tolerance > 0.0 && f.tolerance < HUGE_VAL)) throw CliError(kExitUsage, "--tolerance must be a positive number");
+    check(ellipsa_fit_options_set_iterations(o.get(), f.max_iterations, f.tolerance),
+          given(f.iterations_flag) ? "--max-iterations" : "--tolerance");
+  }
   if (given(f.small_sample_flag)) {
     if (f.small_sample != "on" && f.small_sample != "off") throw CliError(kExitUsage, "--small-sample must be on or off");
     check(ellipsa_fit_options_set_small_sample(o.get(), f.small_sample == "on" ? 1 : 0), "--small-sample");

@@ -13,8 +13,9 @@ constexpr const char* kExitCodes =
     "  0  success\n"
     "  2  usage error (unknown option, bad value)\n"
     "  3  bad data or file (unreadable CSV, no numeric columns, too few rows, bad model file)\n"
-    "  4  numerical failure (singular scatter, exact fit, no convergence)\n"
-    "  5  rows were flagged (only with --fail-on-flag)\n"
+    "  4  numerical failure (singular scatter, exact fit), or a mixture that stopped at its\n"
+    "     iteration cap (fit, cluster, screen: outputs still written, with a warning)\n"
+    "  5  rows were flagged (only with --fail-on-flag; 4 takes precedence)\n"
     "  6  compare: the new batch differs from the reference (only with --fail-on-change)\n"
     "  70 internal error (please report it)\n";
 }

@@ -92,7 +92,7 @@ typedef int32_t ellipsa_status;
 #define ELLIPSA_ERR_CANCELLED 13     /**< A progress callback asked to stop. */
 #define ELLIPSA_ERR_INTERNAL 14      /**< A defect inside ellipsa; please report it with the message. */
 #define ELLIPSA_NUM_SINGULAR 20      /**< A scatter matrix is singular or too ill-conditioned to use. */
-#define ELLIPSA_NUM_NOT_CONVERGED 21 /**< An iteration reached its cap before its tolerance. */
+#define ELLIPSA_NUM_NOT_CONVERGED 21 /**< An iteration failed to converge (a mixture that reaches its EM iteration cap is not this: it is returned with ::ELLIPSA_OK and its "converged" diagnostic 0). */
 #define ELLIPSA_NUM_EXACT_FIT 22     /**< MCD: at least h rows lie on a hyperplane. */
 
 /**
@@ -563,6 +563,17 @@ typedef struct ellipsa_model ellipsa_model;
  * see ellipsa_model_rows()). Infinite values are refused. The data are read
  * during the call only.
  *
+ * Mixtures: a range of K (or several structures) is a model choice; a
+ * candidate that cannot be fitted (K above the number of rows, fewer rows than
+ * its parameters, components that collapse) is recorded with its reason
+ * (ellipsa_candidate_explain()) and the best of the others is kept; only when
+ * no candidate can be fitted does the call fail (::ELLIPSA_ERR_DATA, the
+ * message gives the first candidate's reason). An EM run that reaches the
+ * iteration cap (ellipsa_fit_options_set_iterations()) before its tolerance
+ * is still a fit: the call returns ::ELLIPSA_OK, the model's "converged"
+ * diagnostic is 0 and each candidate's `converged` says which ones stopped at
+ * the cap.
+ *
  * @param[out] out     The fitted model; destroy it with ellipsa_model_destroy().
  *                     Set to NULL on failure.
  * @param data         n x p view; p >= 1. Classical fits need n > p complete rows
@@ -576,12 +587,15 @@ typedef struct ellipsa_model ellipsa_model;
  *     match p, rows*cols overflowing);
  *   ::ELLIPSA_ERR_ARGUMENT (a setting that does not apply to the method);
  *   ::ELLIPSA_ERR_DATA (too few complete rows, an infinite value, an all-missing
- *     or constant column: the message names the column);
+ *     or constant column: the message names the column; mixtures: no candidate
+ *     of the model choice could be fitted);
  *   ::ELLIPSA_NUM_SINGULAR (a covariance that is not positive definite: the
  *     message names the columns involved and suggests shrinkage);
  *   ::ELLIPSA_NUM_EXACT_FIT (MCD: at least h rows on a hyperplane; the message
  *     gives the hyperplane);
- *   ::ELLIPSA_NUM_NOT_CONVERGED (mixtures, when no candidate converged);
+ *   ::ELLIPSA_NUM_NOT_CONVERGED (only when the eigen-decomposition that names
+ *     the columns of a singular scatter fails; a mixture that reaches its
+ *     iteration cap is returned with ::ELLIPSA_OK, see above);
  *   ::ELLIPSA_ERR_CANCELLED; ::ELLIPSA_ERR_MEMORY.
  * Thread-safe for distinct options handles (and for one handle shared read-only).
  */
@@ -774,7 +788,8 @@ ELLIPSA_API ellipsa_status ellipsa_model_raw_estimate(double *location, int64_t 
  * scatter = that factor times the regularised subset scatter, chosen so that
  * the median squared distance of the fitting rows is the chi-square median),
  * "consistency_rule" (mcd, detmcd, mrcd: the ELLIPSA_CONSISTENCY_ value;
- * mrcd always 0), "log_likelihood", "bic", "icl", "iterations", "converged",
+ * mrcd always 0), "log_likelihood", "bic", "icl", "iterations", "converged" (1 when
+ * the chosen EM run met its tolerance, 0 when it stopped at the iteration cap),
  * "parameters", "log_density_cutoff" (mixture), "log_det" (gaussian models),
  * "divisor" (1 for n, 2 for n-1; classical), "small_sample_raw",
  * "small_sample_reweighted" (mcd, detmcd: the small-sample factors applied, 1
@@ -816,11 +831,11 @@ typedef struct ellipsa_candidate {
   int64_t struct_size;    /**< Set by the caller (::ELLIPSA_CANDIDATE_INIT), the same in every element. */
   int32_t components;     /**< K. */
   int32_t structure;      /**< ELLIPSA_STRUCTURE_ value. */
-  double log_likelihood;  /**< Maximised log-likelihood (NaN if the fit failed). */
+  double log_likelihood;  /**< Maximised log-likelihood (NaN if the candidate could not be fitted: see ellipsa_candidate_explain()). */
   int64_t parameters;     /**< Free parameters. */
   double bic;             /**< -2 logL + parameters * log n (lower is better). */
   double icl;             /**< BIC plus the entropy term (lower is better). */
-  int32_t converged;      /**< 1 when EM met its tolerance. */
+  int32_t converged;      /**< 1 when EM met its tolerance; 0 when it stopped at the iteration cap (still a fit that competes) or the candidate could not be fitted. */
   int32_t chosen;         /**< 1 for the candidate the model holds. */
 } ellipsa_candidate;
 
@@ -846,6 +861,27 @@ typedef struct ellipsa_candidate {
  */
 ELLIPSA_API ellipsa_status ellipsa_model_selection(ellipsa_candidate *out, int64_t capacity,
                                                    int64_t *count, const ellipsa_model *model);
+
+/**
+ * @brief Mixtures: why a candidate of the model choice could not be fitted.
+ *
+ * A candidate that could not be fitted has NaN log-likelihood, BIC and ICL;
+ * its reason is a sentence such as "mixture: K = 13 exceeds the number of rows
+ * (12)" or "... fewer than the 15 free parameters of a 4-component spherical
+ * mixture in 2 dimensions". A model loaded from a file written before reasons
+ * were stored gives an empty reason for every candidate.
+ * @param[out] reason NUL-terminated text owned by the model, valid until the
+ *                    model is destroyed; "" for a candidate that was fitted.
+ *                    Set to NULL on failure.
+ * @param model       A mixture model.
+ * @param index       Position of the candidate in the table of
+ *                    ellipsa_model_selection(), 0 <= index < count.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (reason, model);
+ *         ::ELLIPSA_ERR_STATE (not a mixture); ::ELLIPSA_ERR_ARGUMENT (index
+ *         outside the table). Thread-safe (the model is read only).
+ */
+ELLIPSA_API ellipsa_status ellipsa_candidate_explain(const char **reason, const ellipsa_model *model,
+                                                     int64_t index);
 /** @} */
 
 /* ======================================================================== */

@@ -273,6 +273,20 @@ def numpy_mixture(rng):
     check(len(set(s.component[:150].tolist())) == 1 and s.component[0] != s.component[-1], "labels")
     text = model.save()
     check(ellipsa.load(text).save() == text, "mixture round trip")
+    # A K range beyond the rows keeps the K that fit; the others carry their
+    # reason (the exact wording is ellipsa's own, pinned in tests/core too).
+    small = ellipsa.fit([[0.0], [1.0], [2.5], [4.0], [9.0], [10.5]], method="mixture",
+                        components=(1, 7), seed=5)
+    reasons = [c["reason"] for c in small.selection]
+    check(reasons[0] == "" and reasons[-1] == "mixture: K = 7 exceeds the number of rows (6)",
+          "reason of a candidate that could not be fitted")
+    check([c["reason"] for c in ellipsa.load(small.save()).selection] == reasons,
+          "reasons survive the model file")
+    # One blob split in two: EM creeps, so one iteration cannot meet 1e-12.
+    capped = ellipsa.fit(rng.normal(size=(200, 2)), method="mixture", components=2, seed=5,
+                         iterations=(1, 1e-12))
+    check(capped.diagnostic("converged") == 0.0 and not capped.selection[0]["converged"],
+          "a fit stopped at its iteration cap is returned, marked not converged")
 
 
 def round_trip(model, rows):

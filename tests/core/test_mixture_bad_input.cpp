@@ -1,6 +1,7 @@
 // Inputs the mixture fit refuses, each with a clear message and error kind.
 #include <gtest/gtest.h>
 
+#include <cmath>
 #include <limits>
 #include <string>
 
@@ -45,9 +46,56 @@ TEST(MixtureBadInput, ComponentCountOutOfRange) {
   const Eigen::MatrixXd x = spread_rows(30, 2, 1);
   EXPECT_EQ(failure(x, with_k(0)).first, ErrorKind::Argument);
   EXPECT_EQ(failure(x, with_k(-3)).first, ErrorKind::Argument);
+  // More components than rows is a data condition (a model choice records it
+  // as a failed candidate), not a misuse.
   const auto [kind, msg] = failure(x, with_k(31));
-  EXPECT_EQ(kind, ErrorKind::Argument);
-  EXPECT_NE(msg.find("exceeds the number of rows"), std::string::npos) << msg;
+  EXPECT_EQ(kind, ErrorKind::Data);
+  EXPECT_EQ(msg, "mixture: K = 31 exceeds the number of rows (30)");
+  // A bad option is still reported as one, whatever K is.
+  MixtureOptions o = with_k(31);
+  o.restarts = 0;
+  EXPECT_EQ(failure(x, o).first, ErrorKind::Argument);
+}
+
+TEST(MixtureBadInput, SelectionKeepsTheBestWhenLargeKCannotBeFitted) {
+  // 12 rows in 2 columns, spherical: 4K - 1 free parameters, so K <= 3 can be
+  // fitted, K = 4..12 have too few rows for their parameters and K = 13
+  // exceeds the rows. The table keeps every candidate with its reason.
+  const Eigen::MatrixXd x = spread_rows(12, 2, 11);
+  MixtureSelectionOptions so;
+  so.k_min = 1;
+  so.k_max = 13;
+  so.structures = {CovarianceStructure::Spherical};
+  const MixtureSelection sel = select_mixture(make_view(x), so);
+  ASSERT_EQ(sel.table.size(), 13u);
+  ASSERT_GE(sel.winner, 0);
+  EXPECT_TRUE(sel.table[static_cast<std::size_t>(sel.winner)].fitted);
+  EXPECT_LE(sel.table[static_cast<std::size_t>(sel.winner)].k, 3);
+  EXPECT_TRUE(sel.table[0].fitted) << sel.table[0].message;
+  EXPECT_TRUE(sel.table[0].message.empty());
+  for (std::size_t i = 3; i < 12; ++i) {
+    EXPECT_FALSE(sel.table[i].fitted) << "K = " << sel.table[i].k;
+    EXPECT_NE(sel.table[i].message.find("free parameters"), std::string::npos) << sel.table[i].message;
+    EXPECT_TRUE(std::isnan(sel.table[i].bic));
+  }
+  EXPECT_FALSE(sel.table[12].fitted);
+  EXPECT_EQ(sel.table[12].message, "mixture: K = 13 exceeds the number of rows (12)");
+  // Spherical, K = 4, p = 2: 3 weights + 8 means + 4 variances = 15 (parameter
+  // count of the structure, common practice).
+  EXPECT_NE(sel.table[3].message.find("fewer than the 15 free parameters"), std::string::npos)
+      << sel.table[3].message;
+
+  // Only when no K can be fitted does the selection fail, with the first reason.
+  so.k_min = 13;
+  so.k_max = 14;
+  try {
+    select_mixture(make_view(x), so);
+    ADD_FAILURE() << "no candidate fits, yet no error";
+  } catch (const Error& e) {
+    EXPECT_EQ(e.kind(), ErrorKind::Data);
+    EXPECT_EQ(std::string(e.what()),
+              "mixture selection: no candidate could be fitted (mixture: K = 13 exceeds the number of rows (12))");
+  }
 }
 
 TEST(MixtureBadInput, FewerRowsThanParameters) {

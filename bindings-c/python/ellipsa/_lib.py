@@ -225,6 +225,7 @@ _SIGNATURES = {
     "ellipsa_model_diagnostic": (_status, [_dp, _vp, _c.c_char_p]),
     "ellipsa_model_row_set": (_status, [_i64p, _c.c_int64, _i64p, _vp, _c.c_int32]),
     "ellipsa_model_selection": (_status, [_c.POINTER(Candidate), _c.c_int64, _i64p, _vp]),
+    "ellipsa_candidate_explain": (_status, [_c.POINTER(_c.c_char_p), _vp, _c.c_int64]),
     "ellipsa_model_score": (_status, [_c.POINTER(ScoresBuffers), _vp, _mp, _c.c_double]),
     # The saved text is taken as a void pointer so it can be handed back to
     # ellipsa_text_free unchanged (c_char_p would convert it to bytes).

@@ -330,7 +330,12 @@ class Model(object):
 
     @property
     def selection(self):
-        """Mixtures: the model-choice table, one dict per candidate tried."""
+        """Mixtures: the model-choice table, one dict per candidate tried.
+
+        "converged" is False for a candidate whose EM stopped at its iteration
+        cap (still a fit) or that could not be fitted; "reason" says why a
+        candidate could not be fitted ("" when it was).
+        """
         count = _c.c_int64()
         check(lib.ellipsa_model_selection(None, 0, _c.byref(count), self._h()))
         table = (_lib.Candidate * max(count.value, 1))()
@@ -346,7 +351,13 @@ class Model(object):
             "icl": e.icl,
             "converged": bool(e.converged),
             "chosen": bool(e.chosen),
-        } for e in table[:count.value]]
+            "reason": self._candidate_reason(i),
+        } for i, e in enumerate(table[:count.value])]
+
+    def _candidate_reason(self, index):
+        reason = _c.c_char_p()
+        check(lib.ellipsa_candidate_explain(_c.byref(reason), self._h(), index))
+        return reason.value.decode("utf-8") if reason.value else ""
 
     # -- scoring and files -------------------------------------------------
     def score(self, data, level=0.975, fields=None):
