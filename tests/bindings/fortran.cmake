@@ -1,0 +1,40 @@
+# Fortran binding (bindings-c/fortran/ellipsa.f90, iso_c_binding): the module
+# and tests/bindings/test_fortran_smoke.f90 are compiled as Fortran 2003 with
+# warnings as errors (the test compares doubles exactly on purpose) against the libellipsa.so of this build, then run. The
+# model written by the Python binding comes from write_fortran_fixture.py
+# (Debian's /usr/bin/python3). Three tests joined by fixtures, so
+# `ctest -R bindings.fortran` builds what it runs. Without gfortran
+# (make deps installs it) the smoke test is reported as skipped, with the reason.
+find_program(ELLIPSA_GFORTRAN gfortran)
+set(_f_dir ${CMAKE_CURRENT_BINARY_DIR}/fortran)
+if(ELLIPSA_GFORTRAN)
+  file(MAKE_DIRECTORY ${_f_dir})
+  add_test(NAME bindings.fortran_compile
+    COMMAND ${ELLIPSA_GFORTRAN} -std=f2003 -Wall -Wextra -Wno-compare-reals -pedantic -Werror -fcheck=all
+            -J ${_f_dir} -o ${_f_dir}/test_fortran_smoke
+            ${PROJECT_SOURCE_DIR}/bindings-c/fortran/ellipsa_c.f90
+            ${PROJECT_SOURCE_DIR}/bindings-c/fortran/ellipsa.f90
+            ${CMAKE_CURRENT_SOURCE_DIR}/test_fortran_smoke.f90
+            -L$<TARGET_FILE_DIR:ellipsa> -lellipsa -Wl,-rpath,$<TARGET_FILE_DIR:ellipsa>)
+  set_tests_properties(bindings.fortran_compile PROPERTIES
+    FIXTURES_SETUP ellipsa_fortran_exe LABELS "bindings;fortran")
+  set(_f_args ${_f_dir})
+  if(ELLIPSA_PYTHON3)
+    add_test(NAME bindings.fortran_python_fixture
+      COMMAND ${ELLIPSA_PYTHON3} ${CMAKE_CURRENT_SOURCE_DIR}/write_fortran_fixture.py ${_f_dir}/from-python)
+    set_tests_properties(bindings.fortran_python_fixture PROPERTIES
+      FIXTURES_SETUP ellipsa_fortran_python LABELS "bindings;fortran"
+      ENVIRONMENT "ELLIPSA_LIBRARY=$<TARGET_FILE:ellipsa>;PYTHONPATH=${CMAKE_SOURCE_DIR}/bindings-c/python")
+    list(APPEND _f_args ${_f_dir}/from-python)
+  else()
+    message(STATUS "ellipsa: /usr/bin/python3 not found: the Fortran test does not load a model written by Python")
+  endif()
+  add_test(NAME bindings.fortran_smoke COMMAND ${_f_dir}/test_fortran_smoke ${_f_args})
+  set_tests_properties(bindings.fortran_smoke PROPERTIES
+    FIXTURES_REQUIRED "ellipsa_fortran_exe;ellipsa_fortran_python" LABELS "bindings;fortran")
+else()
+  message(STATUS "ellipsa: Fortran binding smoke test skipped: gfortran not found (make deps installs it)")
+  add_test(NAME bindings.fortran_smoke
+    COMMAND sh -c "echo 'skipped: gfortran not found (make deps installs it)'; exit 77")
+  set_tests_properties(bindings.fortran_smoke PROPERTIES SKIP_RETURN_CODE 77 LABELS "bindings;fortran")
+endif()
