@@ -1,7 +1,8 @@
 # UNTESTED HERE: no Julia runtime was available where this file was written
-# (Debian 12 ships no Julia package). It was checked against capi/include/ellipsa.h
-# by reading only (and parsed for syntax, see README.md); run the example in
-# README.md before relying on it.
+# (Debian 12 ships no Julia package). Its ccalls are checked against
+# capi/include/ellipsa.h by tests/bindings/check_julia_ccalls.py (names, argument
+# counts and types, struct layouts), but the code has never run; run the example
+# in README.md before relying on it.
 #
 # Julia binding of the ellipsa C interface, by ccall. Thin on purpose: every
 # number comes from libellipsa; this module only passes arrays as strided views,
