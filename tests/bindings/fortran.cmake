@@ -30,6 +30,24 @@ if(ELLIPSA_GFORTRAN)
     message(STATUS "ellipsa: /usr/bin/python3 not found: the Fortran test does not load a model written by Python")
   endif()
   add_test(NAME bindings.fortran_smoke COMMAND ${_f_dir}/test_fortran_smoke ${_f_args})
+  # The example of bindings-c/fortran/README.md and docs, checked against the batch tool.
+  add_test(NAME bindings.fortran_example_compile
+    COMMAND ${ELLIPSA_GFORTRAN} -std=f2003 -Wall -Wextra -pedantic -Werror
+            -J ${_f_dir}/example-modules -o ${_f_dir}/screen_new_batch
+            ${PROJECT_SOURCE_DIR}/bindings-c/fortran/ellipsa_c.f90
+            ${PROJECT_SOURCE_DIR}/bindings-c/fortran/ellipsa.f90
+            ${PROJECT_SOURCE_DIR}/examples/fortran/screen_new_batch.f90
+            -L$<TARGET_FILE_DIR:ellipsa> -lellipsa -Wl,-rpath,$<TARGET_FILE_DIR:ellipsa>)
+  file(MAKE_DIRECTORY ${_f_dir}/example-modules)
+  set_tests_properties(bindings.fortran_example_compile PROPERTIES
+    FIXTURES_SETUP ellipsa_fortran_example LABELS "bindings;fortran")
+  if(ELLIPSA_PYTHON3)
+    add_test(NAME bindings.fortran_example
+      COMMAND ${ELLIPSA_PYTHON3} ${CMAKE_CURRENT_SOURCE_DIR}/check_fortran_example.py
+              ${_f_dir}/screen_new_batch $<TARGET_FILE:ellipsa_cli> ${CMAKE_SOURCE_DIR} ${_f_dir}/example)
+    set_tests_properties(bindings.fortran_example PROPERTIES
+      FIXTURES_REQUIRED ellipsa_fortran_example LABELS "bindings;fortran" ENVIRONMENT "OPENBLAS_NUM_THREADS=1")
+  endif()
   set_tests_properties(bindings.fortran_smoke PROPERTIES
     FIXTURES_REQUIRED "ellipsa_fortran_exe;ellipsa_fortran_python" LABELS "bindings;fortran")
 else()
