@@ -8,9 +8,10 @@
 find_program(ELLIPSA_GFORTRAN gfortran)
 set(_f_dir ${CMAKE_CURRENT_BINARY_DIR}/fortran)
 if(ELLIPSA_GFORTRAN)
-  file(MAKE_DIRECTORY ${_f_dir})
+  # sh -c 'mkdir -p "$0" && exec "$@"' DIR COMMAND...: the module directory is made by the test itself.
+  set(_f_mkdir_then sh -c "mkdir -p \"$0\" && exec \"$@\"")
   add_test(NAME bindings.fortran_compile
-    COMMAND ${ELLIPSA_GFORTRAN} -std=f2003 -Wall -Wextra -Wno-compare-reals -pedantic -Werror -fcheck=all
+    COMMAND ${_f_mkdir_then} ${_f_dir} ${ELLIPSA_GFORTRAN} -std=f2003 -Wall -Wextra -Wno-compare-reals -pedantic -Werror -fcheck=all
             -J ${_f_dir} -o ${_f_dir}/test_fortran_smoke
             ${PROJECT_SOURCE_DIR}/bindings-c/fortran/ellipsa_c.f90
             ${PROJECT_SOURCE_DIR}/bindings-c/fortran/ellipsa.f90
@@ -32,13 +33,12 @@ if(ELLIPSA_GFORTRAN)
   add_test(NAME bindings.fortran_smoke COMMAND ${_f_dir}/test_fortran_smoke ${_f_args})
   # The example of bindings-c/fortran/README.md and docs, checked against the batch tool.
   add_test(NAME bindings.fortran_example_compile
-    COMMAND ${ELLIPSA_GFORTRAN} -std=f2003 -Wall -Wextra -pedantic -Werror
+    COMMAND ${_f_mkdir_then} ${_f_dir}/example-modules ${ELLIPSA_GFORTRAN} -std=f2003 -Wall -Wextra -pedantic -Werror
             -J ${_f_dir}/example-modules -o ${_f_dir}/screen_new_batch
             ${PROJECT_SOURCE_DIR}/bindings-c/fortran/ellipsa_c.f90
             ${PROJECT_SOURCE_DIR}/bindings-c/fortran/ellipsa.f90
             ${PROJECT_SOURCE_DIR}/examples/fortran/screen_new_batch.f90
             -L$<TARGET_FILE_DIR:ellipsa> -lellipsa -Wl,-rpath,$<TARGET_FILE_DIR:ellipsa>)
-  file(MAKE_DIRECTORY ${_f_dir}/example-modules)
   set_tests_properties(bindings.fortran_example_compile PROPERTIES
     FIXTURES_SETUP ellipsa_fortran_example LABELS "bindings;fortran")
   if(ELLIPSA_PYTHON3)
