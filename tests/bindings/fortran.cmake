@@ -6,6 +6,7 @@
 # `ctest -R bindings.fortran` builds what it runs. Without gfortran
 # (make deps installs it) the smoke test is reported as skipped, with the reason.
 find_program(ELLIPSA_GFORTRAN gfortran)
+find_program(ELLIPSA_PYTHON3 NAMES python3 PATHS /usr/bin NO_DEFAULT_PATH)  # as python.cmake (included after this file)
 set(_f_dir ${CMAKE_CURRENT_BINARY_DIR}/fortran)
 if(ELLIPSA_GFORTRAN)
   # sh -c 'mkdir -p "$0" && exec "$@"' DIR COMMAND...: the module directory is made by the test itself.
