@@ -120,6 +120,10 @@ contains
   end function ellipsa_library_version
 
   ! ---- views --------------------------------------------------------------------
+  !> The address held by a C pointer, as an integer: how the strides of an
+  !> array section are measured (transfer of a c_ptr is processor-dependent
+  !> in the standard; gfortran, like every compiler on a flat address space,
+  !> gives the address).
   function address(p) result(a)
     type(c_ptr), intent(in) :: p
     integer(c_intptr_t) :: a
