@@ -12,6 +12,7 @@ packages=(
   python3 python3-numpy          # Python binding and its smoke test
   r-base-core                    # R binding and its smoke test
   mono-mcs mono-runtime          # C# binding and its smoke test
+  gfortran                       # Fortran binding and its smoke test
   clang libclang-rt-14-dev       # fuzz targets (libFuzzer)
   chromium                       # renders the HTML report in its end-to-end test
   abi-compliance-checker universal-ctags  # ABI check (scripts/check-abi.sh)

@@ -1,7 +1,8 @@
 # UNTESTED HERE: no Julia runtime was available where this file was written
-# (Debian 12 ships no Julia package). It was checked against capi/include/ellipsa.h
-# by reading only (and parsed for syntax, see README.md); run the example in
-# README.md before relying on it.
+# (Debian 12 ships no Julia package). Its ccalls are checked against
+# capi/include/ellipsa.h by tests/bindings/check_julia_ccalls.py (names, argument
+# counts and types, struct layouts), but the code has never run; run the example
+# in README.md before relying on it.
 #
 # Julia binding of the ellipsa C interface, by ccall. Thin on purpose: every
 # number comes from libellipsa; this module only passes arrays as strided views,
@@ -92,18 +93,43 @@ end
 library_version() = unsafe_string(ccall((:ellipsa_version, libellipsa), Cstring, ()))
 
 # ---- distributions --------------------------------------------------------------------------
-for (jl, c, args) in ((:chi2_quantile, :ellipsa_chi2_quantile, (:probability, :df)),
-                      (:chi2_tail, :ellipsa_chi2_tail, (:x, :df)),
-                      (:f_quantile, :ellipsa_f_quantile, (:probability, :df1, :df2)),
-                      (:f_tail, :ellipsa_f_tail, (:x, :df1, :df2)),
-                      (:beta_quantile, :ellipsa_beta_quantile, (:probability, :a, :b)),
-                      (:beta_tail, :ellipsa_beta_tail, (:x, :a, :b)))
-    types = Expr(:tuple, :(Ref{Cdouble}), (:Cdouble for _ in args)...)
-    @eval function $jl($(args...))
-        out = Ref{Cdouble}(NaN)
-        check(ccall(($(QuoteNode(c)), libellipsa), Int32, $types, out, $(args...)))
-        out[]
-    end
+# One literal ccall each: tests/bindings/check_julia_ccalls.py checks every ccall against ellipsa.h.
+function chi2_quantile(probability, df)
+    out = Ref{Cdouble}(NaN)
+    check(ccall((:ellipsa_chi2_quantile, libellipsa), Int32, (Ref{Cdouble}, Cdouble, Cdouble), out, probability, df))
+    out[]
+end
+
+function chi2_tail(x, df)
+    out = Ref{Cdouble}(NaN)
+    check(ccall((:ellipsa_chi2_tail, libellipsa), Int32, (Ref{Cdouble}, Cdouble, Cdouble), out, x, df))
+    out[]
+end
+
+function f_quantile(probability, df1, df2)
+    out = Ref{Cdouble}(NaN)
+    check(ccall((:ellipsa_f_quantile, libellipsa), Int32, (Ref{Cdouble}, Cdouble, Cdouble, Cdouble),
+                out, probability, df1, df2))
+    out[]
+end
+
+function f_tail(x, df1, df2)
+    out = Ref{Cdouble}(NaN)
+    check(ccall((:ellipsa_f_tail, libellipsa), Int32, (Ref{Cdouble}, Cdouble, Cdouble, Cdouble), out, x, df1, df2))
+    out[]
+end
+
+function beta_quantile(probability, a, b)
+    out = Ref{Cdouble}(NaN)
+    check(ccall((:ellipsa_beta_quantile, libellipsa), Int32, (Ref{Cdouble}, Cdouble, Cdouble, Cdouble),
+                out, probability, a, b))
+    out[]
+end
+
+function beta_tail(x, a, b)
+    out = Ref{Cdouble}(NaN)
+    check(ccall((:ellipsa_beta_tail, libellipsa), Int32, (Ref{Cdouble}, Cdouble, Cdouble, Cdouble), out, x, a, b))
+    out[]
 end
 
 """Hotelling T^2 upper control limit for individual observations (Tracy, Young and Mason 1992)."""
