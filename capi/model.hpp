@@ -59,7 +59,7 @@ struct MixturePart {
   int64_t iterations = 0;
   double log_density_cutoff = 0.0;   // flag rows whose log-density is below this
   double cutoff_level = 0.975;       // the level the cutoff was calibrated at
-  std::vector<Candidate> selection;  // empty when only one candidate was fitted
+  std::vector<Candidate> selection;  // every candidate tried; empty only for a model loaded from a file without the table
 };
 
 }  // namespace ellipsa::capi
