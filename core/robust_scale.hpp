@@ -2,6 +2,23 @@
 // Rousseeuw & Croux (1993). They standardise columns before the MCD algorithms
 // and re-estimate the spread of projections in the deterministic MCD.
 //
+// Qn comes in two forms. qn_scale() applies the finite-sample factor d_n
+// (Croux & Rousseeuw 1992) on top of the asymptotic consistency constant, so
+// that its mean is sigma at a normal sample of every size n >= 2, up to the
+// Monte Carlo error of d_n (standard error at most 0.0012). Without d_n, Qn
+// overestimates sigma on average by 150% at n = 2, 9% at n = 40 and about
+// 3.7/n (even n) or 1.6/n (odd n) beyond.
+// qn_scale_asymptotic() leaves d_n out. The factors are this project's own
+// Monte Carlo (scripts/calibration/qn_factors.cpp, its seed and table in
+// docs/calibration.md, "Finite-sample factors of Qn"): a table for small n, a
+// fitted n / (n + a) with one constant a per parity above it.
+// Where Qn is used: the column standardisation of DetMCD and MRCD and the
+// projection scales of their deterministic starts, all with the factor. In
+// DetMCD every Qn is taken over the same n values, so the factor multiplies
+// all scales alike and the fit is unchanged up to rounding; in MRCD the
+// target of the regularisation is the identity on the Qn-standardised columns,
+// so the factor sets its magnitude (diag(Qn_j^2) in original units).
+//
 // Every function takes its sample by value or const reference and never
 // reorders the caller's data. Values must be finite (not checked here: the MCD
 // entry points screen their input); an empty sample throws Error(Data).
@@ -45,11 +62,21 @@ class ScaleWorkspace {
   std::unique_ptr<Buffers> buffers_;
 };
 
-// Qn scale (Rousseeuw & Croux 1993): d * {|x_i - x_j|; i < j}_(k) with
-// k = C(floor(n/2)+1, 2) and d = qn_consistency_constant(). The published
-// finite-sample factors d_n are NOT applied (we do not have the published
-// values here); the estimate is the asymptotically consistent one. n = 1
-// gives 0.
+// Finite-sample factor d_n of Qn for a sample of n >= 2 values: 1 / E[Qn]
+// with Qn = qn_scale_asymptotic() of n i.i.d. N(0, 1) values, so that
+// d_n qn_scale_asymptotic(x) is unbiased for sigma at the normal. A simulated
+// table for n <= kQnFactorTableMax, n / (n + a) above it with a fitted per
+// parity (constants and their standard errors in robust_scale.cpp, from
+// scripts/calibration/qn_factors.cpp). Tends to 1 as n grows. Throws
+// Error(Argument) for n < 2 (Qn of one value is 0 whatever the factor).
+inline constexpr Index kQnFactorTableMax = 39;
+double qn_finite_sample_factor(Index n);
+
+// Qn scale (Rousseeuw & Croux 1993) with the finite-sample factor:
+// d_n * d * {|x_i - x_j|; i < j}_(k) with k = C(floor(n/2)+1, 2),
+// d = qn_consistency_constant() and d_n = qn_finite_sample_factor(n). Mean
+// sigma at a normal sample of any n >= 2 (up to the Monte Carlo error of d_n).
+// n = 1 gives 0; so do samples in which at least k pairs are tied.
 //
 // Exact order statistic without forming the n(n-1)/2 differences: one sort,
 // then a selection in the implicit sorted matrix of differences (Croux &
@@ -59,6 +86,12 @@ class ScaleWorkspace {
 double qn_scale(const Eigen::Ref<const Eigen::VectorXd>& x);
 // The same value, with caller-provided scratch memory.
 double qn_scale(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace& workspace);
+
+// Qn without the finite-sample factor: d * {|x_i - x_j|; i < j}_(k), the
+// asymptotically consistent estimate (the one qn_factors.cpp simulates).
+// Equals qn_scale(x) / qn_finite_sample_factor(n) up to rounding; n = 1 gives 0.
+double qn_scale_asymptotic(const Eigen::Ref<const Eigen::VectorXd>& x);
+double qn_scale_asymptotic(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace& workspace);
 
 // The raw order statistic {|x_i - x_j|; i < j}_(k), k 1-based in
 // [1, n(n-1)/2]. Exposed for tests and for callers needing another quantile.

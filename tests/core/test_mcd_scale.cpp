@@ -68,7 +68,9 @@ TEST(RobustScale, PairwiseOrderStatisticMatchesBruteForce) {
     for (long long k : {1LL, pairs, 1 + static_cast<long long>(g() % pairs)})
       ASSERT_EQ(pairwise_difference_order_statistic(x, k), brute_pairwise(x, k)) << "n=" << n << " k=" << k;
     const long long hq = n / 2 + 1;
-    ASSERT_EQ(qn_scale(x), qn_consistency_constant() * brute_pairwise(x, hq * (hq - 1) / 2));
+    ASSERT_EQ(qn_scale_asymptotic(x), qn_consistency_constant() * brute_pairwise(x, hq * (hq - 1) / 2));
+    // qn_scale is the same times the finite-sample factor (robust_scale.hpp).
+    ASSERT_EQ(qn_scale(x), qn_finite_sample_factor(n) * qn_scale_asymptotic(x));
   }
 }
 
@@ -77,7 +79,7 @@ TEST(RobustScale, QnLargeSampleAndInvariances) {
   std::mt19937_64 g(7);
   const Eigen::VectorXd x = mcd_test::normal_data(3000, 1, 99).col(0);
   const long long hq = 3000 / 2 + 1;
-  EXPECT_EQ(qn_scale(x), qn_consistency_constant() * brute_pairwise(x, hq * (hq - 1) / 2));
+  EXPECT_EQ(qn_scale_asymptotic(x), qn_consistency_constant() * brute_pairwise(x, hq * (hq - 1) / 2));
   // Consistency at the normal: sd of Qn is about 0.6/sqrt(n) relative at n = 3000 -> 0.011;
   // allow 5 sd.
   EXPECT_NEAR(qn_scale(x), 1.0, 0.06);
@@ -96,7 +98,8 @@ TEST(RobustScale, QnAllEqualAndSubnormal) {
   Eigen::VectorXd tiny(6);
   tiny << 1e-310, 2e-310, 3e-310, 4e-310, 5e-310, 6e-310;
   const long long hq = 6 / 2 + 1;
-  EXPECT_EQ(qn_scale(tiny), qn_consistency_constant() * brute_pairwise(tiny, hq * (hq - 1) / 2));
+  EXPECT_EQ(qn_scale(tiny),
+            qn_finite_sample_factor(6) * (qn_consistency_constant() * brute_pairwise(tiny, hq * (hq - 1) / 2)));
   EXPECT_GT(qn_scale(tiny), 0.0);
 }
 
