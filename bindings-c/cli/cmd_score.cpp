@@ -111,6 +111,14 @@ Command add_score(CLI::App& parent) {
             human << "\n" << first_flags.str();
             if (flagged > 20) human << "  ... and " << flagged - 20 << " more\n";
             if (a->output != "-") human << "scores written to " << a->output << "\n";
+            ellipsa_method method = ELLIPSA_METHOD_CLASSICAL;
+            check(ellipsa_model_describe(nullptr, &method, nullptr, nullptr, model.get()), "reading the model");
+            if (method == ELLIPSA_METHOD_MRCD)
+              // Measured in docs/calibration.md: 97% of clean new rows flagged at
+              // n = 30, p = 20; no calibrated new-rows reference exists for MRCD.
+              human << "note: an mrcd profile is calibrated on its own fitting rows only; on new rows its flag "
+                       "rate is not calibrated and can be far above the level when rows were few for the "
+                       "columns (docs/calibration.md)\n";
             emit_summary(a->out, human.str(),
                          {{"rows", rows}, {"flagged", flagged}, {"unscorable", unscorable},
                           {"level", a->level}, {"limit", limit}, {"output", a->output}});
