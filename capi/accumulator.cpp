@@ -6,53 +6,26 @@
 #include <string>
 
 #include "boundary.hpp"
+#include "cell_names.hpp"
 #include "core/error.hpp"
 #include "core/missing.hpp"
 #include "core/moments.hpp"
 #include "core/norm_power_sums.hpp"
 #include "core/shrinkage.hpp"
+#include "accumulator.hpp"
 #include "fit_common.hpp"
 #include "matrix_view.hpp"
-
-struct ellipsa_accumulator {
-  ellipsa::core::MomentAccumulator moments;
-  ellipsa::core::NormPowerSums norms;  // about moments.mean() once rows were added
-  int64_t skipped = 0;
-};
 
 namespace {
 
 namespace core = ellipsa::core;
 
-// Adds moments b (cross-products and norm sums of disjoint rows) into a:
-// both norm sums are moved to the merged mean (norm_power_sums.hpp).
+// The stream's arithmetic is the core's (core/norm_power_sums.hpp).
 void merge_into(ellipsa_accumulator& a, const core::MomentAccumulator& b_moments, const core::NormPowerSums& b_norms) {
-  if (b_moments.rows() == 0) return;
-  if (a.moments.rows() == 0) {
-    a.moments = b_moments;
-    a.norms = b_norms;
-    return;
-  }
-  const Eigen::MatrixXd a_cross = a.moments.cross_products();
-  a.moments.merge(b_moments);
-  const Eigen::VectorXd& mean = a.moments.mean();
-  a.norms = core::combine(core::recentre(a.norms, a_cross, mean),
-                          core::recentre(b_norms, b_moments.cross_products(), mean));
+  core::merge_state(a.moments, a.norms, b_moments, b_norms);
 }
 
-// The new rows' norm sums are taken about the merged mean directly; the old
-// sums are moved there.
-void add_rows(ellipsa_accumulator& a, core::DataView x) {
-  if (a.moments.rows() == 0) {
-    a.moments.add(x);
-    a.norms = core::norm_power_sums(x, a.moments.mean());
-    return;
-  }
-  const Eigen::MatrixXd a_cross = a.moments.cross_products();
-  a.moments.add(x);
-  const Eigen::VectorXd& mean = a.moments.mean();
-  a.norms = core::combine(core::recentre(a.norms, a_cross, mean), core::norm_power_sums(x, mean));
-}
+void add_rows(ellipsa_accumulator& a, core::DataView x) { core::add_rows(a.moments, a.norms, x); }
 
 }  // namespace
 
@@ -81,7 +54,8 @@ ELLIPSA_API ellipsa_status ellipsa_accumulator_add(ellipsa_accumulator* accumula
                                           std::to_string(accumulator->moments.dimension())};
     if (x.rows() == 0) return ELLIPSA_OK;
     // Checks first (an infinite value throws here), so a refused call adds nothing.
-    const auto complete = core::select_complete_rows(x);
+    const auto complete = ellipsa::capi::naming_places(
+        "chunk", x.cols(), [&] { return core::select_complete_rows(x); });
     if (complete.dropped == 0) {
       add_rows(*accumulator, x);
     } else if (!complete.rows.empty()) {

@@ -1,5 +1,7 @@
 #include "boundary.hpp"
 
+#include <boost/math/policies/error_handling.hpp>
+
 #include <exception>
 #include <new>
 #include <stdexcept>
@@ -53,6 +55,10 @@ ellipsa_status status_from_current_exception(const char* function) noexcept {
     return fail(ELLIPSA_ERR_MEMORY, function, "out of memory");
   } catch (const std::length_error& e) {
     return fail(ELLIPSA_ERR_MEMORY, function, std::string("size too large: ") + e.what());
+  } catch (const boost::math::evaluation_error& e) {
+    // A Boost.Math iteration that failed on extreme arguments (found by
+    // fuzzing the sheet evaluator): a numerical outcome, not a library fault.
+    return fail(ELLIPSA_NUM_NOT_CONVERGED, function, std::string("numerical evaluation failed: ") + e.what());
   } catch (const core::EigenAssertion& e) {
     return fail(ELLIPSA_ERR_INTERNAL, function, std::string("internal check failed: ") + e.what());
   } catch (const std::exception& e) {

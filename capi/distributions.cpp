@@ -1,9 +1,8 @@
 // Distribution functions and Hotelling limits at the C boundary.
-#include <cmath>
-
 #include "boundary.hpp"
 #include "core/distributions.hpp"
 #include "core/error.hpp"
+#include "core/hotelling.hpp"
 
 using ellipsa::capi::guard;
 using ellipsa::capi::Misuse;
@@ -50,22 +49,9 @@ ELLIPSA_API ellipsa_status ellipsa_beta_tail(double* out, double x, double a, do
 ELLIPSA_API ellipsa_status ellipsa_hotelling_limit(double* out, int32_t phase, int64_t m, int64_t p,
                                                    double alpha) {
   return scalar_call("ellipsa_hotelling_limit", out, [&]() -> double {
-    if (!(alpha > 0.0 && alpha < 1.0))
-      throw Misuse{ELLIPSA_ERR_ARGUMENT, "alpha must lie in (0, 1)"};
-    if (p < 1) throw Misuse{ELLIPSA_ERR_ARGUMENT, "p must be at least 1"};
-    const double md = static_cast<double>(m), pd = static_cast<double>(p);
-    if (phase == ELLIPSA_PHASE_ONE) {
-      if (m <= p + 1) throw Misuse{ELLIPSA_ERR_ARGUMENT, "phase I needs m > p + 1 reference rows"};
-      // Tracy, Young & Mason (1992), phase I (Beta form).
-      return ((md - 1.0) * (md - 1.0) / md) *
-             core::beta_quantile(1.0 - alpha, pd / 2.0, (md - pd - 1.0) / 2.0);
-    }
-    if (phase == ELLIPSA_PHASE_TWO) {
-      if (m <= p) throw Misuse{ELLIPSA_ERR_ARGUMENT, "phase II needs m > p reference rows"};
-      // Tracy, Young & Mason (1992), phase II (F form).
-      return pd * (md + 1.0) * (md - 1.0) / (md * (md - pd)) *
-             core::f_quantile(1.0 - alpha, pd, md - pd);
-    }
+    // Tracy, Young & Mason (1992), computed once in the core (core/hotelling.*).
+    if (phase == ELLIPSA_PHASE_ONE) return core::t2_phase1_limit(m, p, alpha);
+    if (phase == ELLIPSA_PHASE_TWO) return core::t2_phase2_limit(m, p, alpha);
     throw Misuse{ELLIPSA_ERR_ARGUMENT, "phase must be ELLIPSA_PHASE_ONE or ELLIPSA_PHASE_TWO"};
   });
 }

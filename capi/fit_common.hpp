@@ -22,7 +22,9 @@ struct PreparedData {
   core::DataView used() const;
 };
 
-// Applies the missing-value policy (drop or refuse; EM keeps every row).
+// Applies the missing-value policy (drop or refuse; EM keeps every row with an
+// observed value); infinite values are refused under every policy, naming the
+// cell (capi/cell_names.hpp).
 PreparedData prepare(const ellipsa_matrix* data, const ellipsa_fit_options& o);
 
 // Factors the model's scatter matrices; when one is singular, rethrows with a

@@ -8,6 +8,7 @@
 #include "core/mixture_select.hpp"
 #include "fit_common.hpp"
 #include "mixture_convert.hpp"
+#include "threads.hpp"
 
 namespace ellipsa::capi {
 
@@ -67,6 +68,7 @@ void fit_mixture(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_opti
   s.fit.missing = o.missing == ELLIPSA_MISSING_EM ? core::MissingHandling::EmOverMissing
                                                   : core::MissingHandling::CompleteRows;
   s.fit.progress = progress_of(o);
+  s.fit.threads = resolve_threads(o.threads);
   const core::DataView x = d.used();
   if (x.rows() < 1) throw core::Error(core::ErrorKind::Data, "no rows left to fit");
   auto sel = core::select_mixture(x, s);

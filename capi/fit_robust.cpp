@@ -12,6 +12,7 @@
 #include "core/mcd_fast.hpp"
 #include "core/mcd_regularised.hpp"
 #include "fit_common.hpp"
+#include "threads.hpp"
 
 namespace ellipsa::capi {
 namespace {
@@ -57,6 +58,7 @@ core::RobustFit run(const PreparedData& d, const ellipsa_fit_options& o) {
     f.small_sample = o.small_sample ? core::SmallSample::Both : core::SmallSample::Off;
     f.raw_consistency = raw_consistency_of(o);
     f.progress = progress_of(o);
+    f.threads = resolve_threads(o.threads);
     return core::fast_mcd(x, f);
   }
   if (o.method == ELLIPSA_METHOD_DETMCD) {
@@ -65,6 +67,7 @@ core::RobustFit run(const PreparedData& d, const ellipsa_fit_options& o) {
     f.small_sample = o.small_sample ? core::SmallSample::Both : core::SmallSample::Off;
     f.raw_consistency = raw_consistency_of(o);
     f.progress = progress_of(o);
+    f.threads = resolve_threads(o.threads);
     return core::det_mcd(x, f);
   }
   core::MrcdOptions f;

@@ -105,6 +105,12 @@ Eigen::MatrixXd read_scatter(const json& v, int64_t p, const std::string& where)
       if (std::abs(m(i, j) - m(j, i)) > 1e-12 * scale)
         format_error(where + " is not symmetric (entries " + std::to_string(i + 1) + "," +
                      std::to_string(j + 1) + ")");
+  // Symmetric to the last bit, as every fit leaves it: the tolerance above
+  // admits rounding in hand-edited files; keep their average (found by fuzzing:
+  // the model kept the asymmetry and saved it back).
+  for (int64_t i = 0; i < p; ++i)
+    for (int64_t j = 0; j < i; ++j)
+      if (m(i, j) != m(j, i)) m(i, j) = m(j, i) = 0.5 * m(i, j) + 0.5 * m(j, i);
   core::CholeskyFactor f;
   if (!f.compute(m)) format_error(where + " is not positive definite");
   return m;
@@ -150,7 +156,11 @@ void read_reference(const json& j, ellipsa_model& m) {
 }  // namespace
 
 std::string model_to_json(const ellipsa_model& m) {
-  json j;
+  // Created as an object, not turned into one by the first operator[]: that
+  // conversion (nlohmann 3.11) marks the value an object before allocating it,
+  // so an allocation failure there left a null object that the destructor
+  // then read (found by tests/alloc).
+  json j = json::object();
   j["format"] = "ellipsa-model";
   j["format_version"] = kFormatVersion;
   j["kind"] = m.kind == ELLIPSA_KIND_MIXTURE ? "mixture" : "gaussian";

@@ -46,6 +46,8 @@ bool method_from_name(const char* name, ellipsa_method* out) {
     }
   return false;
 }
+// The one spelling of each structure and missing-value policy: the model
+// file, the sheet functions, the batch tool and the bindings use these.
 const char* structure_name(int32_t structure) {
   switch (structure) {
     case ELLIPSA_STRUCTURE_FULL: return "full";
@@ -62,6 +64,15 @@ int32_t structure_from_name(const std::string& name, bool allow_all) {
   for (int32_t v = ELLIPSA_STRUCTURE_FULL; v <= last; ++v)
     if (name == structure_name(v)) return v;
   return 0;
+}
+
+const char* missing_name(int32_t policy) {
+  switch (policy) {
+    case ELLIPSA_MISSING_DROP_ROWS: return "drop";
+    case ELLIPSA_MISSING_REFUSE: return "refuse";
+    case ELLIPSA_MISSING_EM: return "em";
+  }
+  return "unknown";
 }
 
 }  // namespace ellipsa::capi
@@ -124,6 +135,39 @@ ELLIPSA_API ellipsa_status ellipsa_method_from_name(ellipsa_method* out, const c
 
 ELLIPSA_API const char* ellipsa_method_name(ellipsa_method method) {
   return ellipsa::capi::method_name(method);
+}
+
+ELLIPSA_API const char* ellipsa_structure_name(int32_t structure) {
+  return ellipsa::capi::structure_name(structure);
+}
+
+ELLIPSA_API ellipsa_status ellipsa_structure_from_name(int32_t* out, const char* name) {
+  return guard("ellipsa_structure_from_name", [&] {
+    require_not_null(out, "out");
+    require_not_null(name, "name");
+    const int32_t s = ellipsa::capi::structure_from_name(name, true);
+    if (s == 0)
+      throw Misuse{ELLIPSA_ERR_ARGUMENT, std::string("unknown covariance structure '") + name +
+                                             "' (known: full, diagonal, tied, spherical, all)"};
+    *out = s;
+    return ELLIPSA_OK;
+  });
+}
+
+ELLIPSA_API const char* ellipsa_missing_name(int32_t policy) { return ellipsa::capi::missing_name(policy); }
+
+ELLIPSA_API ellipsa_status ellipsa_missing_from_name(int32_t* out, const char* name) {
+  return guard("ellipsa_missing_from_name", [&] {
+    require_not_null(out, "out");
+    require_not_null(name, "name");
+    for (int32_t p : {ELLIPSA_MISSING_DROP_ROWS, ELLIPSA_MISSING_REFUSE, ELLIPSA_MISSING_EM})
+      if (std::strcmp(name, ellipsa::capi::missing_name(p)) == 0) {
+        *out = p;
+        return ELLIPSA_OK;
+      }
+    throw Misuse{ELLIPSA_ERR_ARGUMENT,
+                 std::string("unknown missing-value policy '") + name + "' (known: drop, refuse, em)"};
+  });
 }
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_divisor(ellipsa_fit_options* o, int32_t divisor) {

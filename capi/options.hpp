@@ -24,6 +24,7 @@ struct ellipsa_fit_options {
   int32_t small_sample = 1;  // MCD, DetMCD: apply the small-sample factors
   int32_t consistency = ELLIPSA_CONSISTENCY_NORMAL;  // MCD, DetMCD: raw scatter scaling rule
   int32_t reference = ELLIPSA_REFERENCE_MODEL;  // MODEL = the default choice (score_reference.cpp)
+  int32_t threads = 0;  // 0 = ELLIPSA_THREADS or the available cores (capi/threads.hpp)
   ellipsa_progress_fn progress = nullptr;
   void* progress_user = nullptr;
 };
@@ -34,4 +35,6 @@ bool is_known_method(ellipsa_method m);
 const char* structure_name(int32_t structure);
 // The ELLIPSA_STRUCTURE_ value of a name, or 0; "all" only when allow_all.
 int32_t structure_from_name(const std::string& name, bool allow_all);
+// "drop", "refuse", "em", or "unknown".
+const char* missing_name(int32_t policy);
 }

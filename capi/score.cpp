@@ -3,10 +3,10 @@
 // routes rows and copies results.
 #include <cmath>
 #include <cstring>
-#include <map>
 #include <vector>
 
 #include "boundary.hpp"
+#include "cell_names.hpp"
 #include "core/error.hpp"
 #include "core/missing.hpp"
 #include "core/mixture_score.hpp"
@@ -15,6 +15,7 @@
 #include "mixture_convert.hpp"
 #include "model.hpp"
 #include "score_reference.hpp"
+#include "threads.hpp"
 
 using ellipsa::capi::guard;
 using ellipsa::capi::Misuse;
@@ -36,8 +37,10 @@ ellipsa_scores effective_buffers(const ellipsa_scores& in) {
   return out;
 }
 
-core::ScoringOptions scoring_options(const ellipsa_scores& b, double level, const core::ScoreReference& ref) {
+core::ScoringOptions scoring_options(const ellipsa_scores& b, double level, const core::ScoreReference& ref,
+                                     int threads) {
   core::ScoringOptions o;
+  o.threads = threads;
   o.level = level;
   o.reference = ref;
   o.p_values = b.p_value != nullptr;
@@ -65,10 +68,12 @@ void write_gaussian(const ellipsa_scores& b, const core::RowScores& s, const std
 }
 
 void score_gaussian(const ellipsa_scores& b, const ellipsa_model& m, core::DataView x, double level,
-                    const core::ScoreReference& ref) {
+                    const core::ScoreReference& ref, int threads) {
   const auto& c = m.components.front();
   const core::MahalanobisScorer scorer(c.location, c.factor);
-  const auto s = scorer.score(x, scoring_options(b, level, ref));
+  core::ScoringOptions options = scoring_options(b, level, ref, threads);
+  options.log_densities = b.log_density != nullptr;  // the marginal log-density, from the scorer's own factors
+  const auto s = scorer.score(x, options);
   std::vector<int64_t> rows(static_cast<size_t>(x.rows()));
   for (int64_t i = 0; i < x.rows(); ++i) rows[static_cast<size_t>(i)] = i;
   write_gaussian(b, s, rows, x.cols());
@@ -77,34 +82,12 @@ void score_gaussian(const ellipsa_scores& b, const ellipsa_model& m, core::DataV
     if (b.membership) b.membership[i] = 1.0;
     if (b.low_density) b.low_density[i] = s.df(i) > 0 ? (s.flagged(i) ? 1 : 0) : -1;  // the flag itself
   }
-  if (b.log_density) {
-    // log N(x_o; T_o, S_oo) = -0.5 (df log 2pi + log det S_oo + d2). The
-    // marginal log-det is only available for complete rows without refactoring,
-    // so each pattern of missing coordinates gets its own small factorisation.
-    const double full_logdet = c.factor.log_determinant();
-    const double log2pi = std::log(2.0 * M_PI);
-    std::map<std::vector<Eigen::Index>, double> marginal_logdet;
-    for (int64_t i = 0; i < x.rows(); ++i) {
-      const auto df = s.df(i);
-      if (df == 0) {
-        b.log_density[i] = std::nan("");
-      } else if (df == x.cols()) {
-        b.log_density[i] = -0.5 * (static_cast<double>(df) * log2pi + full_logdet + s.d2(i));
-      } else {
-        std::vector<Eigen::Index> obs;
-        for (Eigen::Index j = 0; j < x.cols(); ++j)
-          if (!std::isnan(x(i, j))) obs.push_back(j);
-        // One factorisation per pattern of observed columns, however many rows share it.
-        auto it = marginal_logdet.find(obs);
-        if (it == marginal_logdet.end())
-          it = marginal_logdet.emplace(obs, core::CholeskyFactor(c.scatter(obs, obs)).log_determinant()).first;
-        b.log_density[i] = -0.5 * (static_cast<double>(df) * log2pi + it->second + s.d2(i));
-      }
-    }
-  }
+  if (b.log_density)
+    for (int64_t i = 0; i < x.rows(); ++i) b.log_density[i] = s.log_density(i);
 }
 
-void score_mixture_model(const ellipsa_scores& b, const ellipsa_model& m, core::DataView x, double level) {
+void score_mixture_model(const ellipsa_scores& b, const ellipsa_model& m, core::DataView x, double level,
+                         int threads) {
   const auto model = ellipsa::capi::to_core_mixture(m);
   const auto ms = core::score_mixture(model, x);
   const int64_t n = x.rows(), p = x.cols();
@@ -133,7 +116,7 @@ void score_mixture_model(const ellipsa_scores& b, const ellipsa_model& m, core::
     const Eigen::MatrixXd block = core::gather(x, rows);
     const auto& c = m.components[static_cast<size_t>(k < 0 ? 0 : k)];
     const core::MahalanobisScorer scorer(c.location, c.factor);
-    write_gaussian(b, scorer.score(core::make_view(block), scoring_options(b, level, {})), out_rows, p);
+    write_gaussian(b, scorer.score(core::make_view(block), scoring_options(b, level, {}, threads)), out_rows, p);
   }
 }
 
@@ -142,7 +125,7 @@ void score_mixture_model(const ellipsa_scores& b, const ellipsa_model& m, core::
 namespace {
 
 ellipsa_status score_with(const char* fn, ellipsa_scores* out, const ellipsa_model* model,
-                          const ellipsa_matrix* data, double level, int32_t reference) {
+                          const ellipsa_matrix* data, double level, int32_t reference, int32_t threads) {
   return guard(fn, [&] {
     require_not_null(out, "out");
     require_not_null(model, "model");
@@ -153,9 +136,14 @@ ellipsa_status score_with(const char* fn, ellipsa_scores* out, const ellipsa_mod
                                           std::to_string(model->dimension())};
     if (!(level > 0.0 && level < 1.0)) throw Misuse{ELLIPSA_ERR_ARGUMENT, "level must lie in (0, 1)"};
     const core::ScoreReference ref = ellipsa::capi::score_reference(*model, reference);
+    if (threads < 0 || threads > 256)
+      throw Misuse{ELLIPSA_ERR_ARGUMENT, "threads must lie in [0, 256] (0 = ELLIPSA_THREADS or the available cores)"};
+    const int workers = ellipsa::capi::resolve_threads(threads);
     if (x.rows() == 0) return ELLIPSA_OK;
-    if (model->kind == ELLIPSA_KIND_MIXTURE) score_mixture_model(b, *model, x, level);
-    else score_gaussian(b, *model, x, level, ref);
+    ellipsa::capi::naming_places("data", model->columns, [&] {
+      if (model->kind == ELLIPSA_KIND_MIXTURE) score_mixture_model(b, *model, x, level, workers);
+      else score_gaussian(b, *model, x, level, ref, workers);
+    });
     return ELLIPSA_OK;
   });
 }
@@ -164,11 +152,17 @@ ellipsa_status score_with(const char* fn, ellipsa_scores* out, const ellipsa_mod
 
 extern "C" ELLIPSA_API ellipsa_status ellipsa_model_score(ellipsa_scores* out, const ellipsa_model* model,
                                                           const ellipsa_matrix* data, double level) {
-  return score_with("ellipsa_model_score", out, model, data, level, ELLIPSA_REFERENCE_MODEL);
+  return score_with("ellipsa_model_score", out, model, data, level, ELLIPSA_REFERENCE_MODEL, 0);
 }
 
 extern "C" ELLIPSA_API ellipsa_status ellipsa_model_score_v2(ellipsa_scores* out, const ellipsa_model* model,
                                                              const ellipsa_matrix* data, double level,
                                                              int32_t reference) {
-  return score_with("ellipsa_model_score_v2", out, model, data, level, reference);
+  return score_with("ellipsa_model_score_v2", out, model, data, level, reference, 0);
+}
+
+extern "C" ELLIPSA_API ellipsa_status ellipsa_model_score_v3(ellipsa_scores* out, const ellipsa_model* model,
+                                                             const ellipsa_matrix* data, double level,
+                                                             int32_t reference, int32_t threads) {
+  return score_with("ellipsa_model_score_v3", out, model, data, level, reference, threads);
 }

@@ -6,6 +6,7 @@
 #include <vector>
 
 #include "boundary.hpp"
+#include "cell_names.hpp"
 #include "core/mardia.hpp"
 #include "core/missing.hpp"
 #include "matrix_view.hpp"
@@ -53,7 +54,8 @@ ELLIPSA_API ellipsa_status ellipsa_data_shape(ellipsa_shape_test* out, const ell
     check_struct(out);
     const core::DataView x = ellipsa::capi::checked_view(data, "data");
     if (x.cols() < 1) throw Misuse{ELLIPSA_ERR_SHAPE, "data has no columns"};
-    const core::CompleteRows c = core::select_complete_rows(x);
+    const core::CompleteRows c = ellipsa::capi::naming_places(
+        "data", x.cols(), [&] { return core::select_complete_rows(x); });
     write(out, core::mardia(core::make_view(core::gather(x, c.rows))), false);
     return ELLIPSA_OK;
   });
@@ -74,7 +76,8 @@ ELLIPSA_API ellipsa_status ellipsa_model_shape(ellipsa_shape_test* out, const el
       throw Misuse{ELLIPSA_ERR_SHAPE, "data has " + std::to_string(x.rows()) + " rows; the model was fitted on " +
                                           std::to_string(model->rows_used + model->rows_dropped) +
                                           " (pass the fitting data)"};
-    std::vector<core::Index> rows = core::select_complete_rows(x).rows;
+    std::vector<core::Index> rows =
+        ellipsa::capi::naming_places("data", model->columns, [&] { return core::select_complete_rows(x).rows; });
     const bool selected = model->robust.has_value() && !model->robust->outlier_rows.empty();
     if (model->robust) {
       const auto& flagged = model->robust->outlier_rows;  // ascending

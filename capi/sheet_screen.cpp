@@ -63,7 +63,12 @@ Scored score(const Arguments& a, ellipsa_sheet_cache* cache, unsigned want, doub
   if (want & kContribution) buffers.contribution = (s.contribution.resize(np), s.contribution.data());
   if (want & kConditional) buffers.conditional_drop = (s.conditional_drop.resize(np), s.conditional_drop.data());
   const ellipsa_matrix view = rows.view();
-  check(ellipsa_model_score_v2(&buffers, model.get(), &view, level, reference_of(a)), "rows");
+  const ellipsa_status scored = ellipsa_model_score_v2(&buffers, model.get(), &view, level, reference_of(a));
+  // A reference range with too few rows for the requested limit is a
+  // condition of the sheet's data, not of a handle: ELLIPSA_ERR_DATA, as the
+  // header lists for ellipsa_sheet_evaluate (found by fuzzing: it came out as
+  // ELLIPSA_ERR_STATE).
+  check(scored == ELLIPSA_ERR_STATE ? ELLIPSA_ERR_DATA : scored, "rows");
   return s;
 }
 

@@ -34,6 +34,17 @@ double CholeskyFactor::log_determinant() const {
   return 2.0 * lower_.diagonal().array().log().sum();
 }
 
+double CholeskyFactor::smallest_residual_fraction() const {
+  if (!ok_ || lower_.rows() == 0) return 0.0;
+  // S_jj = sum_k L_jk^2 (row j of L), so no copy of S is needed.
+  double smallest = 1.0;
+  for (Index j = 0; j < lower_.rows(); ++j) {
+    const double pivot = lower_(j, j) * lower_(j, j);
+    smallest = std::min(smallest, pivot / lower_.row(j).head(j + 1).squaredNorm());
+  }
+  return smallest;
+}
+
 double CholeskyFactor::pivot_ratio() const {
   if (!ok_ || lower_.rows() == 0) return 0.0;
   const auto d = lower_.diagonal();

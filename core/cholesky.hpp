@@ -26,6 +26,11 @@ class CholeskyFactor {
   // (min L_ii / max L_ii)^2: a cheap lower-bound style indicator of conditioning;
   // values near machine epsilon mean the distances carry few correct digits.
   double pivot_ratio() const;
+  // min_j L_jj^2 / S_jj: the smallest fraction of a column's variance left after
+  // regressing it on the columns before it (1 - R^2). Unlike pivot_ratio() it
+  // does not depend on the columns' units; near rounding level it means a
+  // column is (nearly) a combination of earlier ones. 0 when not factored.
+  double smallest_residual_fraction() const;
 
   // d2_i = |L^-1 (x_i - centre)|^2 for every row of x.
   Eigen::VectorXd squared_distances(DataView x, const Eigen::VectorXd& centre) const;

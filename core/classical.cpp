@@ -17,8 +17,7 @@ void check_shape(DataView x) {
 }
 
 void throw_constant(Index j) {
-  throw Error(ErrorKind::Data, "classical estimate: column " + std::to_string(j) +
-                                   " (0-based) is constant (zero variance)");
+  throw LocatedError(ErrorKind::Data, "classical estimate", -1, j, "is constant (zero variance)");
 }
 
 // A column is constant when every used row holds the same value. Tested on the
@@ -52,8 +51,8 @@ ClassicalEstimate finish(const MomentAccumulator& acc, Normalisation norm, Index
   // below underflow when squared, values above 1e154 overflow.
   for (Index j = 0; j < p; ++j)
     if (!(out.covariance(j, j) > 0.0 && std::isfinite(out.covariance(j, j))))
-      throw Error(ErrorKind::Data, "classical estimate: the variance of column " + std::to_string(j) +
-                                       " (0-based) underflows or overflows double precision; rescale the data");
+      throw LocatedError(ErrorKind::Data, "classical estimate", -1, j,
+                         "has a variance that underflows or overflows double precision; rescale the data");
   out.normalisation = norm;
   out.weight_sum = acc.weight_sum();
   out.rows = acc.rows();
@@ -62,11 +61,12 @@ ClassicalEstimate finish(const MomentAccumulator& acc, Normalisation norm, Index
 
 }  // namespace
 
-ClassicalEstimate classical_estimate(DataView x, Normalisation norm) {
+ClassicalEstimate classical_estimate(DataView x, Normalisation norm, int threads) {
   check_shape(x);
   // The finite and constant-column checks come from the accumulator's own pass
   // over each chunk (while it is in cache) instead of two more passes over x.
   MomentAccumulator acc(x.cols());
+  acc.set_threads(threads);
   ColumnScreen screen;
   acc.add(x, &screen);
   // Names the first NaN or +-Inf; returns only when every entry is finite and a

@@ -24,7 +24,8 @@ struct ClassicalEstimate {
 // Throws Error(Data) when: fewer than 2 rows; any entry NaN or +-Inf (select
 // complete rows first, see missing.hpp); n <= p (the covariance is singular: the
 // message points to shrinkage); a column is constant (zero variance, named).
-ClassicalEstimate classical_estimate(DataView x, Normalisation norm);
+// `threads`: see MomentAccumulator::set_threads (the result does not depend on it).
+ClassicalEstimate classical_estimate(DataView x, Normalisation norm, int threads = 1);
 
 // Weighted version: w(i) >= 0 and finite (else Error(Argument) naming the row),
 // one weight per row (else Error(Shape)); the weight sum must be positive, and

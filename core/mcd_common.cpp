@@ -2,7 +2,6 @@
 
 #include <Eigen/Eigenvalues>
 #include <algorithm>
-#include <boost/math/distributions/normal.hpp>
 #include <cmath>
 #include <limits>
 #include <string>
@@ -11,6 +10,7 @@
 #include "distributions.hpp"
 #include "error.hpp"
 #include "moments.hpp"
+#include "parallel.hpp"
 #include "order_statistics.hpp"
 #include "robust_scale.hpp"
 
@@ -73,10 +73,8 @@ Standardised standardise(DataView x, ColumnScale kind) {
   s.centre.resize(p);
   s.scale.resize(p);
   s.z.resize(n, p);
-  // Phi^-1(3/4): the MAD of a normal sample estimates sigma Phi^-1(3/4).
-  const double q75 = boost::math::quantile(boost::math::normal_distribution<double>(), 0.75);
-  Eigen::VectorXd col, dev;
-  std::vector<double> buf;
+  Eigen::VectorXd col;
+  std::vector<double> dev, buf;
   for (Index j = 0; j < p; ++j) {
     col = x.col(j);
     const double m = median_of(col.data(), n, buf);
@@ -84,8 +82,7 @@ Standardised standardise(DataView x, ColumnScale kind) {
     if (kind == ColumnScale::Qn) {
       sc = qn_scale(col);
     } else {
-      dev = (col.array() - m).abs();
-      sc = median_of(dev.data(), n, buf) / q75;
+      sc = mad_about(col.data(), n, m, dev, buf);
     }
     if (!(sc > 0.0)) {
       // More than half the values coincide: fall back to the standard deviation
@@ -222,15 +219,22 @@ void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, CStepWorks
   w.linv_t = fit.linv.transpose();
   w.shift.noalias() = fit.linv * fit.mean;
   w.d2.resize(n);
-  w.y.resize(std::min(kChunk, n), p);
-  for (Index s = 0; s < n; s += kChunk) {
+  // Fixed chunks of rows, each row's distance from its own row only: the same
+  // values on any number of threads.
+  const Index chunks = chunk_count(n, kChunk);
+  const int workers = parallel_workers(w.threads, chunks);
+  if (static_cast<int>(w.worker_y.size()) < workers) w.worker_y.resize(static_cast<std::size_t>(workers));
+  parallel_for(w.threads, chunks, [&](Index c, int worker) {
+    const Index s = c * kChunk;
     const Index m = std::min(kChunk, n - s);
-    auto y = w.y.topRows(m);
+    Eigen::MatrixXd& buffer = w.worker_y[static_cast<std::size_t>(worker)];
+    if (buffer.rows() < m || buffer.cols() != p) buffer.resize(std::min(kChunk, n), p);
+    auto y = buffer.topRows(m);
     y.noalias() = z.middleRows(s, m) * w.linv_t;  // plain GEMM: faster than a triangular product
     auto d = w.d2.segment(s, m).array();
     d = (y.col(0).array() - w.shift(0)).square();
     for (Index j = 1; j < p; ++j) d += (y.col(j).array() - w.shift(j)).square();
-  }
+  });
 }
 
 void smallest_h_into(const Eigen::VectorXd& d2, Index h, const Eigen::MatrixXd& z, CStepWorkspace& w) {
@@ -245,6 +249,13 @@ void smallest_h_into(const Eigen::VectorXd& d2, Index h, const Eigen::MatrixXd& 
     taken += d2(i) <= cut;
     below += d2(i) < cut;
   }
+  // Fewer than h rows at or below the cut: some distances are NaN (whitened
+  // rows that overflowed, e.g. values near 1e308). Padding the subset would
+  // repeat a row (found by fuzzing: a model whose h-subset did not load).
+  if (taken < static_cast<std::size_t>(h))
+    throw Error(ErrorKind::Data,
+                "distances of the rows are not finite: the values are too large in magnitude for double "
+                "precision; rescale the columns");
   const auto first = w.below.begin();
   if (taken == static_cast<std::size_t>(h)) {  // the usual case: no surplus ties at the cut
     w.rows.assign(first, first + h);
@@ -296,8 +307,9 @@ bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, CStepWorkspace& w
   return accept;
 }
 
-int c_steps_to_convergence(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, int max_steps) {
+int c_steps_to_convergence(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, int max_steps, int threads) {
   CStepWorkspace w;
+  w.threads = threads;
   int steps = 0;
   bool changed = false;
   while (steps < max_steps && !fit.singular) {
@@ -371,15 +383,16 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
   // distances users score rows with come from MahalanobisScorer (scoring.hpp)
   // on the returned location and scatter, not from here.
   const DataView zv = make_view(s.z);
+  Eigen::VectorXd unscaled_d2;  // median rule: distances under the subset's own covariance
   if (rule.raw == RawConsistency::Median) {
     // Rousseeuw & Van Driessen (1999): scale so that the median distance of
     // all rows is the chi-square median (distances scale as 1/factor).
     CholeskyFactor unscaled;
     if (!unscaled.compute(best.cov))
       throw Error(ErrorKind::Singular, "MCD: raw scatter is not positive definite (internal error)");
-    const Eigen::VectorXd d2 = centred_distances(s.z, best.mean, unscaled);
+    unscaled_d2 = centred_distances(s.z, best.mean, unscaled);
     std::vector<double> buf;
-    const double med = median_of(d2.data(), n, buf);
+    const double med = median_of(unscaled_d2.data(), n, buf);
     if (!(med > 0.0))
       throw Error(ErrorKind::Singular,
                   "MCD: half of the rows lie on the subset's centre; the median rescaling is undefined");
@@ -392,10 +405,14 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
   // n grows; the small-sample factor removes the remaining bias of the raw
   // scatter before it chooses the rows to reweight.
   const double raw_factor = r.consistency_factor * r.small_sample.raw;
-  CholeskyFactor raw_chol;
-  if (!raw_chol.compute(raw_factor * best.cov))
-    throw Error(ErrorKind::Singular, "MCD: raw scatter is not positive definite (internal error)");
-  r.raw_d2 = centred_distances(s.z, best.mean, raw_chol);
+  if (rule.raw == RawConsistency::Median) {
+    r.raw_d2 = unscaled_d2 / raw_factor;  // the distances above, scaled: no second pass
+  } else {
+    CholeskyFactor raw_chol;
+    if (!raw_chol.compute(raw_factor * best.cov))
+      throw Error(ErrorKind::Singular, "MCD: raw scatter is not positive definite (internal error)");
+    r.raw_d2 = centred_distances(s.z, best.mean, raw_chol);
+  }
   r.raw_location = s.centre + s.scale.cwiseProduct(best.mean);
   r.raw_scatter = raw_factor * scale_both_sides(best.cov, s.scale);
   r.raw_log_det = best.log_det + 2.0 * s.scale.array().log().sum();

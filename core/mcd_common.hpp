@@ -163,6 +163,10 @@ SubsetFit fit_subset(const Eigen::MatrixXd& z, std::vector<Index> rows);
 // sizes are reached no C-step allocates O(n) memory. It carries no state
 // between calls beyond buffer capacity: results never depend on its history.
 struct CStepWorkspace {
+  // Threads for the distances of all rows (subset_distances); per-row results,
+  // so the C-steps do not depend on it.
+  int threads = 1;
+  std::vector<Eigen::MatrixXd> worker_y;  // one chunk of whitened rows per thread
   Eigen::MatrixXd linv_t, y;  // L^-T of the fit; one chunk of whitened rows
   Eigen::VectorXd shift, d2;  // L^-1 mean; squared distances of all rows
   std::vector<double> select;  // order-statistic scratch
@@ -217,7 +221,8 @@ bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, CStepWorkspace& w
 // Returns the number of steps taken. A fit changed by the steps is recomputed
 // from its rows by fit_subset() at the end, so that it depends only on the set
 // of rows and not on the path of updates.
-int c_steps_to_convergence(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, int max_steps);
+// `threads`: see CStepWorkspace::threads.
+int c_steps_to_convergence(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, int max_steps, int threads = 1);
 
 // A singular subset fit found on some stage's rows z_stage (a group, a pool or
 // the full data) defines a hyperplane; if at least h rows of the full data z lie

@@ -224,7 +224,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
                                                       : mcd_detail::start_distances(z, starts[k], workspace);
     if (d2.size() == 0) continue;
     mcd_detail::SubsetFit f = mcd_detail::fit_subset(z, mcd_detail::smallest_h(d2, half, z));
-    if (!f.singular) iterations += mcd_detail::c_steps_to_convergence(z, h, f, opt.max_csteps);
+    if (!f.singular) iterations += mcd_detail::c_steps_to_convergence(z, h, f, opt.max_csteps, opt.threads);
     if (f.singular) {
       const auto ex = mcd_detail::exact_fit_subset(z, z, f, h);
       if (ex) {

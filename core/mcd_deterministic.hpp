@@ -23,6 +23,8 @@ struct DetMcdOptions {
   // Scaling of the raw scatter (mcd_common.hpp): the normal-consistency factor or the median rule.
   RawConsistency raw_consistency = RawConsistency::NormalFactor;
   ProgressCallback progress;      // optional; false cancels
+  // Threads for the distances of the C-steps (parallel.hpp); the fit does not depend on it.
+  int threads = 1;
 };
 
 // Same input contract and errors as fast_mcd() (n > p, finite values, not all

@@ -5,35 +5,16 @@
 #include <limits>
 #include <numeric>
 #include <optional>
-#include <random>
 #include <string>
 #include <utility>
 
 #include "error.hpp"
+#include "portable_random.hpp"
 
 namespace ellipsa::core {
 namespace {
 
 using mcd_detail::SubsetFit;
-
-// Uniform integers from a fixed engine by rejection: portable across standard
-// libraries (the engine's output sequence is fixed by the C++ standard).
-class Sampler {
- public:
-  explicit Sampler(std::uint64_t seed) : engine_(seed) {}
-  // Uniform on {0, ..., m-1}, m >= 1, without modulo bias.
-  Index below(Index m) {
-    const std::uint64_t um = static_cast<std::uint64_t>(m);
-    const std::uint64_t reject_under = (0 - um) % um;  // 2^64 mod m
-    for (;;) {
-      const std::uint64_t v = engine_();
-      if (v >= reject_under) return static_cast<Index>(v % um);
-    }
-  }
-
- private:
-  std::mt19937_64 engine_;
-};
 
 // One candidate during the search: its fit on the current stage's rows.
 struct Candidate {
@@ -68,7 +49,7 @@ struct Search {
   const Eigen::MatrixXd& z;  // standardised full data
   Index h;
   const FastMcdOptions& opt;
-  Sampler rng;
+  PortableRandom rng;
   int iterations = 0;
   int starts = 0;
   std::optional<SubsetFit> exact;  // set once an exact fit of the full data is found
@@ -89,7 +70,7 @@ std::optional<SubsetFit> random_start(Search& s, const Eigen::MatrixXd& zs, Inde
   std::vector<char> used(static_cast<std::size_t>(ns), 0);
   auto add_random_row = [&]() {
     Index r;
-    do r = s.rng.below(ns);
+    do r = static_cast<Index>(s.rng.below(static_cast<std::uint64_t>(ns)));
     while (used[static_cast<std::size_t>(r)]);
     used[static_cast<std::size_t>(r)] = 1;
     rows.push_back(r);
@@ -277,7 +258,8 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
                       : mcd_detail::finish_fit(x, st, f, h, rule);
   }
 
-  Search s{st.z, h, opt, Sampler(opt.seed), 0, 0, std::nullopt, {}};
+  Search s{st.z, h, opt, PortableRandom(opt.seed), 0, 0, std::nullopt, {}};
+  s.work.threads = opt.threads;
   std::vector<Candidate> cands;
   int order = 0;
   if (n <= opt.nested_threshold) {
@@ -290,7 +272,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
     const Index pool_size = std::min(n, groups * opt.group_size);
     std::vector<Index> perm = all;
     for (Index k = 0; k < pool_size; ++k)  // partial Fisher-Yates
-      std::swap(perm[static_cast<std::size_t>(k)], perm[static_cast<std::size_t>(k + s.rng.below(n - k))]);
+      std::swap(perm[static_cast<std::size_t>(k)], perm[static_cast<std::size_t>(k + static_cast<Index>(s.rng.below(static_cast<std::uint64_t>(n - k))))]);
     std::vector<Index> pool(perm.begin(), perm.begin() + pool_size);
     const int starts_per_group = std::max(1, opt.starts / static_cast<int>(groups));
     std::vector<Candidate> pooled;

@@ -36,6 +36,9 @@ struct FastMcdOptions {
   // Scaling of the raw scatter (mcd_common.hpp): the normal-consistency factor or the median rule.
   RawConsistency raw_consistency = RawConsistency::NormalFactor;
   ProgressCallback progress;     // optional; false cancels
+  // Threads for the distances of the C-steps on all rows (parallel.hpp); the
+  // fit does not depend on it.
+  int threads = 1;
 };
 
 // x: n x p complete rows (no NaN/inf), n > p.

@@ -21,11 +21,14 @@
 //   in a C-step at fixed rho). If the final subset would need more, rho is
 //   raised to that value at the end, so condition_number <= max_condition is
 //   guaranteed (standardised units; it is reported as RobustFit::condition_number).
-// - No reweighting: location/scatter = raw_location/raw_scatter = (mean of H,
-//   K(H)) in original units; robust_d2 = raw_d2 = distances under K(H).
-// - outlier[i]: robust_d2[i] > chi2q(p, level) * median(d2) / chi2q(p, 0.5),
-//   a median-normalised cutoff of ours (the regularised distances are not
-//   chi-square calibrated when p >= n).
+// - No reweighting: location = raw_location (mean of H), raw_scatter = K(H)
+//   in original units, raw_d2 = distances under K(H). The regularised
+//   distances are not chi-square calibrated when p >= n, so the final scatter
+//   is reweight_factor * K(H) with reweight_factor = med(raw_d2) / chi2q(p, 0.5)
+//   (the median calibration, common practice), and robust_d2 = raw_d2 /
+//   reweight_factor.
+// - outlier[i]: robust_d2[i] > chi2q(p, level), the rows that scoring against
+//   the chi-square flags at that level.
 #pragma once
 #include "mcd_common.hpp"
 

@@ -23,12 +23,34 @@ std::vector<Index> all_or(const std::vector<Index>& columns, Index p) {
 }
 
 [[noreturn]] void throw_non_finite(Index row, Index col, double v, const char* what) {
-  const std::string where = std::string(what) + ": row " + std::to_string(row) +
-                            ", column " + std::to_string(col) + " (0-based) ";
   if (std::isnan(v))
-    throw Error(ErrorKind::Data, where + "is missing (NaN); select the complete rows first");
-  throw Error(ErrorKind::Data, where + "is non-finite (" + (v > 0 ? "+Inf" : "-Inf") +
-                                   "); NaN marks a missing value, Inf is not accepted");
+    throw LocatedError(ErrorKind::Data, what, row, col, "is missing (NaN), and missing values are refused here");
+  throw_infinite_cell(what, row, col, v);
+}
+
+}  // namespace
+
+void throw_infinite_cell(const char* what, Index row, Index col, double v) {
+  throw LocatedError(ErrorKind::Data, what, row, col,
+                     std::string("is infinite (") + (v > 0 ? "+Inf" : "-Inf") +
+                         "); NaN marks a missing value, Inf is not accepted");
+}
+
+namespace {
+
+// Whether every entry is finite, in one vectorised pass in the order the data
+// lie in memory: a contiguous table (either layout) as one flat array, else
+// column by column (unit row step) or Eigen's generic loop.
+bool all_finite_in_memory_order(DataView x) {
+  const Index n = x.rows(), p = x.cols();
+  using Flat = Eigen::Map<const Eigen::ArrayXd>;
+  if (x.innerStride() == 1 && (x.outerStride() == n || p == 1)) return Flat(x.data(), n * p).allFinite();
+  if (x.outerStride() == 1 && (x.innerStride() == p || n == 1)) return Flat(x.data(), n * p).allFinite();
+  if (x.innerStride() == 1) {
+    using ColumnMajor = Eigen::Map<const Eigen::MatrixXd, Eigen::Unaligned, Eigen::OuterStride<>>;
+    return ColumnMajor(x.data(), n, p, Eigen::OuterStride<>(x.outerStride())).allFinite();
+  }
+  return x.allFinite();
 }
 
 }  // namespace
@@ -36,6 +58,13 @@ std::vector<Index> all_or(const std::vector<Index>& columns, Index p) {
 CompleteRows select_complete_rows(DataView x, const std::vector<Index>& columns) {
   const std::vector<Index> cols = all_or(columns, x.cols());
   CompleteRows out;
+  // The common case, every entry finite: every row is complete, found in one
+  // pass in memory order instead of a row-by-row scan.
+  if (columns.empty() && x.rows() > 0 && all_finite_in_memory_order(x)) {
+    out.rows.resize(static_cast<std::size_t>(x.rows()));
+    for (Index i = 0; i < x.rows(); ++i) out.rows[static_cast<std::size_t>(i)] = i;
+    return out;
+  }
   std::vector<Index> present(cols.size(), 0);
   out.rows.reserve(static_cast<std::size_t>(x.rows()));
   for (Index i = 0; i < x.rows(); ++i) {
@@ -82,12 +111,7 @@ Eigen::MatrixXd gather(DataView x, const std::vector<Index>& rows,
 void require_finite(DataView x, const char* what) {
   // Fast vectorised test on contiguous columns first; the element-wise scan
   // below only runs to name the offending entry.
-  if (x.innerStride() == 1) {
-    using ColumnMajor = Eigen::Map<const Eigen::MatrixXd, Eigen::Unaligned, Eigen::OuterStride<>>;
-    if (ColumnMajor(x.data(), x.rows(), x.cols(), Eigen::OuterStride<>(x.outerStride())).allFinite()) return;
-  } else if (x.allFinite()) {
-    return;
-  }
+  if (all_finite_in_memory_order(x)) return;
   for (Index j = 0; j < x.cols(); ++j)
     for (Index i = 0; i < x.rows(); ++i)
       if (!std::isfinite(x(i, j))) throw_non_finite(i, j, x(i, j), what);

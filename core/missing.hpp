@@ -17,7 +17,7 @@ struct CompleteRows {
 };
 
 // Scans the chosen columns (all columns when `columns` is empty) of x. Throws
-// Error(Data) naming the first +-Inf (row, column), Error(Argument) for a column
+// LocatedError(Data) at the first +-Inf (row, column), Error(Argument) for a column
 // index out of range. A column that is missing in every row makes every row
 // incomplete; it is listed so that the caller can say why nothing is left.
 CompleteRows select_complete_rows(DataView x, const std::vector<Index>& columns = {});
@@ -30,8 +30,13 @@ std::vector<Index> all_missing_columns(DataView x);
 Eigen::MatrixXd gather(DataView x, const std::vector<Index>& rows,
                        const std::vector<Index>& columns = {});
 
-// Throws Error(Data) naming the first entry of x that is NaN ("missing") or
-// +-Inf ("non-finite"); `what` names the caller in the message.
+// Throws LocatedError(Data) at the first entry of x that is NaN ("missing") or
+// +-Inf ("infinite"); `what` names the caller in the message.
 void require_finite(DataView x, const char* what);
+
+// Throws LocatedError(Data) for the infinite value v at (row, col): the one
+// wording of an infinite cell ("is infinite (+Inf); NaN marks a missing value,
+// Inf is not accepted").
+[[noreturn]] void throw_infinite_cell(const char* what, Index row, Index col, double v);
 
 }  // namespace ellipsa::core

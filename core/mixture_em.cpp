@@ -8,6 +8,7 @@
 #include <memory>
 #include <numbers>
 #include <string>
+#include <vector>
 
 #include "cholesky.hpp"
 #include "error.hpp"
@@ -15,6 +16,7 @@
 #include "mixture_missing.hpp"
 #include "mixture_score.hpp"
 #include "moments.hpp"
+#include "parallel.hpp"
 
 namespace ellipsa::core {
 
@@ -49,7 +51,7 @@ const char* structure_name(CovarianceStructure s) {
 // column-major, the BLAS-3 shape) and its row norms are the squared Mahalanobis
 // distances. The arithmetic does not depend on the layout of x.
 Posterior complete_e_step(const MixtureModel& model, const std::vector<CholeskyFactor>& factors, DataView x,
-                          Eigen::MatrixXd& t) {
+                          Eigen::MatrixXd& t, int threads) {
   constexpr Index kChunkRows = 4096;
   const Index n = x.rows();
   const Index p = x.cols();
@@ -58,13 +60,29 @@ Posterior complete_e_step(const MixtureModel& model, const std::vector<CholeskyF
   t.resize(n, k_count);
   Posterior post;
   post.log_density.resize(n);
-  ColumnMajorChunks chunks(x);
-  Eigen::MatrixXd lj, y(std::min(kChunkRows, std::max<Index>(n, 1)), p);
-  Eigen::ArrayXd d2;
-  for (Index start = 0; start < n; start += kChunkRows) {
+  // Fixed chunks on `threads` threads (parallel.hpp); each chunk's rows are
+  // written in place and its sum_t_log_t is added in chunk order afterwards.
+  const Index chunk_total = chunk_count(n, kChunkRows);
+  struct Scratch {
+    Eigen::MatrixXd lj, y;
+    Eigen::ArrayXd d2;
+    std::unique_ptr<ColumnMajorChunks> chunks;
+  };
+  std::vector<Scratch> scratch(static_cast<std::size_t>(parallel_workers(threads, chunk_total)));
+  std::vector<double> sum_t_log_t(static_cast<std::size_t>(chunk_total), 0.0);
+  parallel_for(threads, chunk_total, [&](Index c, int worker) {
+    Scratch& s = scratch[static_cast<std::size_t>(worker)];
+    if (!s.chunks) {
+      s.chunks = std::make_unique<ColumnMajorChunks>(x);
+      s.y.resize(std::min(kChunkRows, std::max<Index>(n, 1)), p);
+    }
+    Eigen::MatrixXd& lj = s.lj;
+    Eigen::MatrixXd& y = s.y;
+    Eigen::ArrayXd& d2 = s.d2;
+    const Index start = c * kChunkRows;
     const Index m = std::min(kChunkRows, n - start);
     Index ld = 0;
-    const double* block = chunks.block(start, m, ld);
+    const double* block = s.chunks->block(start, m, ld);
     lj.resize(m, k_count);
     for (Index k = 0; k < k_count; ++k) {
       const Eigen::MatrixXd& l = factors[static_cast<std::size_t>(k)].lower();
@@ -80,8 +98,9 @@ Posterior complete_e_step(const MixtureModel& model, const std::vector<CholeskyF
     const Posterior part = normalise_posterior(lj);
     t.middleRows(start, m) = lj;
     post.log_density.segment(start, m) = part.log_density;
-    post.sum_t_log_t += part.sum_t_log_t;
-  }
+    sum_t_log_t[static_cast<std::size_t>(c)] = part.sum_t_log_t;
+  });
+  for (double v : sum_t_log_t) post.sum_t_log_t += v;
   return post;
 }
 
@@ -111,14 +130,14 @@ class EmData {
 
 class CompleteData final : public EmData {
  public:
-  explicit CompleteData(DataView x) : x_(x) {}
+  CompleteData(DataView x, int threads) : x_(x), threads_(threads) {}
   Index rows() const override { return x_.rows(); }
   Eigen::MatrixXd log_joint(const MixtureModel& m, const std::vector<CholeskyFactor>& f) const override {
     return weighted_log_densities(m, f, x_);
   }
   Posterior e_step(const MixtureModel& m, const std::vector<CholeskyFactor>& f,
                    Eigen::MatrixXd& t) const override {
-    return complete_e_step(m, f, x_, t);
+    return complete_e_step(m, f, x_, t, threads_);
   }
   // One component by the centred two-pass path (all_moments below does all K at once).
   ComponentMoments moments(const MixtureModel&, Index, const Eigen::VectorXd& t) const override {
@@ -133,7 +152,7 @@ class CompleteData final : public EmData {
     Eigen::MatrixXd shifts = Eigen::MatrixXd::Constant(t.cols(), x_.cols(), std::numeric_limits<double>::quiet_NaN());
     if (current.means.rows() == t.cols() && current.means.cols() == x_.cols()) shifts = current.means;
     std::vector<ComponentMoments> out;
-    for (auto& r : weighted_moments(x_, t, shifts))
+    for (auto& r : weighted_moments(x_, t, shifts, threads_))
       out.push_back({r.weight, std::move(r.mean), std::move(r.cross_products)});
     return out;
   }
@@ -141,6 +160,7 @@ class CompleteData final : public EmData {
 
  private:
   DataView x_;
+  int threads_;
 };
 
 class IncompleteData final : public EmData {
@@ -489,7 +509,7 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
       for (Index i = 0; i < n; ++i)
         if (std::isnan(imputed(i, j))) imputed(i, j) = column_mean(j);
   } else {
-    data = std::make_unique<CompleteData>(xu);
+    data = std::make_unique<CompleteData>(xu, o.threads);
   }
   const DataView seed_view = em_missing ? make_view(imputed) : xu;
 

@@ -75,6 +75,9 @@ struct MixtureOptions {
   Eigen::VectorXi initial_labels;
   Eigen::MatrixXd initial_responsibilities;
   MixtureProgress progress;  // may be empty
+  // Threads for the E-step and the weighted moments of complete rows
+  // (parallel.hpp); the fit does not depend on it.
+  int threads = 1;
 };
 
 enum class CollapseReason { SmallWeight, NotPositiveDefinite };

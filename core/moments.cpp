@@ -5,8 +5,11 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <memory>
+#include <vector>
 
 #include "error.hpp"
+#include "parallel.hpp"
 
 namespace ellipsa::core {
 namespace {
@@ -33,6 +36,45 @@ MomentAccumulator::MomentAccumulator(Index p)
       relative_mean_(Eigen::VectorXd::Zero(p)),
       mean_(Eigen::VectorXd::Zero(p)),
       lower_(Eigen::MatrixXd::Zero(p, p)) {}
+
+MomentAccumulator::State MomentAccumulator::state() const {
+  State s;
+  s.weight = weight_;
+  s.rows = rows_;
+  s.direct_rows = direct_rows_;
+  s.shifted = shifted_;
+  s.shift = shift_;
+  s.relative_mean = relative_mean_;
+  s.lower = lower_;
+  return s;
+}
+
+MomentAccumulator MomentAccumulator::from_state(const State& s) {
+  const Index p = s.shift.size();
+  auto bad = [](const std::string& what) { throw Error(ErrorKind::Format, "accumulator state: " + what); };
+  if (s.relative_mean.size() != p || s.lower.rows() != p || s.lower.cols() != p) bad("sizes differ");
+  if (!s.shift.allFinite() || !s.relative_mean.allFinite() || !std::isfinite(s.weight))
+    bad("a non-finite shift, mean or weight");
+  for (Index j = 0; j < p; ++j)
+    for (Index i = j; i < p; ++i)
+      if (!std::isfinite(s.lower(i, j))) bad("a non-finite cross-product");
+  if (s.rows < 0 || s.direct_rows < 0 || s.direct_rows > s.rows) bad("row counts out of range");
+  if (s.weight < 0.0 || (s.rows == 0) != (s.weight == 0.0)) bad("a weight that does not fit the row count");
+  if (s.rows > 0 && !s.shifted) bad("rows without a shift");
+  for (Index j = 0; j < p; ++j)
+    if (s.lower(j, j) < 0.0) bad("a negative sum of squares");
+  MomentAccumulator a(p);
+  a.weight_ = s.weight;
+  a.rows_ = s.rows;
+  a.direct_rows_ = s.direct_rows;
+  a.shifted_ = s.shifted;
+  a.shift_ = s.shift;
+  a.relative_mean_ = s.relative_mean;
+  a.mean_ = a.shift_ + a.relative_mean_;
+  a.lower_ = Eigen::MatrixXd::Zero(p, p);
+  a.lower_.triangularView<Eigen::Lower>() = s.lower.triangularView<Eigen::Lower>();
+  return a;
+}
 
 Eigen::MatrixXd MomentAccumulator::cross_products() const {
   Eigen::MatrixXd full = lower_.selfadjointView<Eigen::Lower>();
@@ -197,6 +239,27 @@ bool MomentAccumulator::offset_allows_raw_product() const {
   return true;
 }
 
+namespace {
+
+// What one chunk of rows contributes: its count, its mean relative to the
+// accumulator's shift, its centred cross-products (lower triangle) and, when
+// screening, its column sums and ranges.
+struct ChunkMoments {
+  Index rows = 0;
+  bool direct = false;  // cross-products from the raw product
+  Eigen::VectorXd relative_mean;
+  Eigen::MatrixXd gram;
+  Eigen::VectorXd sum, lo, hi;
+};
+
+// Per-thread scratch of the chunk loop.
+struct ChunkScratch {
+  Eigen::MatrixXd raw, chunk;
+  Eigen::RowVectorXd mu;
+};
+
+}  // namespace
+
 void MomentAccumulator::add(DataView x, ColumnScreen* screen) {
   const Index p = dimension();
   if (x.cols() != p) throw Error(ErrorKind::Shape, "moment accumulator: column count differs");
@@ -205,67 +268,105 @@ void MomentAccumulator::add(DataView x, ColumnScreen* screen) {
     screen->min = Eigen::VectorXd::Constant(p, std::numeric_limits<double>::infinity());
     screen->max = Eigen::VectorXd::Constant(p, -std::numeric_limits<double>::infinity());
   }
-  if (!shifted_ && x.rows() > 0) {
+  if (x.rows() == 0) return;
+  if (!shifted_) {
     shift_ = x.row(0).transpose();
     shifted_ = true;
   }
   // Column-major caller data (unit row step, columns at least a chunk apart, an
   // int leading dimension) are read in place: a chunk of rows is a BLAS
-  // sub-matrix. Other layouts are copied chunk by chunk into `raw` first; the
-  // arithmetic after that point is the same for every layout.
+  // sub-matrix. Other layouts are copied chunk by chunk into `raw` first (row
+  // blocks packed into a column-major tile that stays in cache); the arithmetic
+  // after that point is the same for every layout.
   const bool in_place = x.innerStride() == 1 && x.outerStride() <= std::numeric_limits<int>::max() &&
                         (p == 1 || x.outerStride() >= x.rows());
   const Index ld_in_place = std::max<Index>(x.outerStride(), x.rows());
   using ColumnMajor = Eigen::Map<const Eigen::MatrixXd, Eigen::Unaligned, Eigen::OuterStride<>>;
   const ColumnMajor cm(x.data(), x.rows(), x.cols(), Eigen::OuterStride<>(in_place ? x.outerStride() : 1));
-  Eigen::MatrixXd raw, chunk, gram(p, p);
-  Eigen::RowVectorXd mu;
-  Eigen::VectorXd sum(p), xbar(p);
-  bool raw_product_ok = true;  // cleared for the rest of the call after a chunk fails its check
-  for (Index start = 0; start < x.rows(); start += kChunkRows) {
+  const Eigen::VectorXd shift = shift_;
+
+  // Chunk c covers rows c*kChunkRows.. whatever the thread count; its moments
+  // depend on its rows, the shift and `try_raw` only, and are merged in chunk
+  // order below, so the result is bit-identical for every thread count.
+  auto compute = [&](Index c, bool try_raw, ChunkScratch& s, ChunkMoments& r) {
+    const Index start = c * kChunkRows;
     const Index m = std::min(kChunkRows, x.rows() - start);
-    if (!in_place) copy_rows_column_major(x, start, m, raw);
-    const double* block = in_place ? x.data() + start : raw.data();
+    if (!in_place) copy_rows_column_major(x, start, m, s.raw);
+    const double* block = in_place ? x.data() + start : s.raw.data();
     const Index ld = in_place ? ld_in_place : m;
-    const bool try_raw = raw_product_ok && offset_allows_raw_product();
-    if (screen)
-      column_pass<true>(block, m, p, ld, sum.data(), screen->min.data(), screen->max.data());
-    else if (try_raw)
-      column_pass<false>(block, m, p, ld, sum.data(), nullptr, nullptr);
-    if (screen) screen->finite = screen->finite && sum.allFinite();
+    r.rows = m;
+    r.gram.resize(p, p);
+    if (screen) {
+      r.sum.resize(p);
+      r.lo = Eigen::VectorXd::Constant(p, std::numeric_limits<double>::infinity());
+      r.hi = Eigen::VectorXd::Constant(p, -std::numeric_limits<double>::infinity());
+      column_pass<true>(block, m, p, ld, r.sum.data(), r.lo.data(), r.hi.data());
+    } else if (try_raw) {
+      r.sum.resize(p);
+      column_pass<false>(block, m, p, ld, r.sum.data(), nullptr, nullptr);
+    }
     if (try_raw) {
       // Centred cross-products from the raw product: X'X - u xbar' (u = column
       // sums, xbar = u / m), lower triangle, accepted only when this chunk's
       // own offset is within kMaxOffsetRatio sds (NaN fails the test).
       const double md = static_cast<double>(m);
-      xbar = sum / md;
+      const Eigen::VectorXd xbar = r.sum / md;
       cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(p), static_cast<int>(m), 1.0, block,
-                  static_cast<int>(ld), 0.0, gram.data(), static_cast<int>(p));
+                  static_cast<int>(ld), 0.0, r.gram.data(), static_cast<int>(p));
       bool accepted = true;
       for (Index k = 0; k < p; ++k) {
-        for (Index i = k; i < p; ++i) gram(i, k) -= sum(i) * xbar(k);
-        accepted = accepted && md * xbar(k) * xbar(k) <= kMaxOffsetRatio * kMaxOffsetRatio * gram(k, k);
+        for (Index i = k; i < p; ++i) r.gram(i, k) -= r.sum(i) * xbar(k);
+        accepted = accepted && md * xbar(k) * xbar(k) <= kMaxOffsetRatio * kMaxOffsetRatio * r.gram(k, k);
       }
       if (accepted) {
-        merge_relative(md, m, xbar - shift_, gram);
-        direct_rows_ += m;
-        continue;
+        r.relative_mean = xbar - shift;
+        r.direct = true;
+        return;
       }
-      raw_product_ok = false;
     }
     if (in_place) {
       // The vectorised copy needs the compile-time unit row step of `cm`.
-      shifted_centred_chunk(cm.middleRows(start, m), shift_, chunk, mu);
+      shifted_centred_chunk(cm.middleRows(start, m), shift, s.chunk, s.mu);
     } else {
-      raw.rowwise() -= shift_.transpose();
-      mu = raw.colwise().mean();
-      raw.rowwise() -= mu;
-      chunk.swap(raw);
+      s.raw.rowwise() -= shift.transpose();
+      s.mu = s.raw.colwise().mean();
+      s.raw.rowwise() -= s.mu;
+      s.chunk.swap(s.raw);
     }
-    gram.setZero();
-    add_gram_lower(chunk, gram);
-    merge_relative(static_cast<double>(m), m, mu.transpose(), gram);
+    r.gram.setZero();
+    add_gram_lower(s.chunk, r.gram);
+    r.relative_mean = s.mu.transpose();
+    r.direct = false;
+  };
+  auto merge_chunk = [&](const ChunkMoments& r) {
+    if (screen) {
+      screen->finite = screen->finite && r.sum.allFinite();
+      screen->min = screen->min.cwiseMin(r.lo);
+      screen->max = screen->max.cwiseMax(r.hi);
+    }
+    merge_relative(static_cast<double>(r.rows), r.rows, r.relative_mean, r.gram);
+    if (r.direct) direct_rows_ += r.rows;
+  };
+
+  // The first chunk decides, from the moments so far, whether the raw product
+  // is tried; the rest follow the moments after the first chunk, and a chunk
+  // whose own offset is too large takes the centred path on its own.
+  const Index chunks = chunk_count(x.rows(), kChunkRows);
+  ChunkScratch first_scratch;
+  {
+    ChunkMoments r;
+    compute(0, offset_allows_raw_product(), first_scratch, r);
+    merge_chunk(r);
   }
+  if (chunks == 1) return;
+  const bool try_raw = offset_allows_raw_product();
+  std::vector<ChunkMoments> results(static_cast<std::size_t>(chunks - 1));
+  std::vector<ChunkScratch> scratch(static_cast<std::size_t>(parallel_workers(threads_, chunks - 1)));
+  scratch[0] = std::move(first_scratch);
+  parallel_for(threads_, chunks - 1, [&](Index c, int worker) {
+    compute(c + 1, try_raw, scratch[static_cast<std::size_t>(worker)], results[static_cast<std::size_t>(c)]);
+  });
+  for (const auto& r : results) merge_chunk(r);
 }
 
 void MomentAccumulator::add(DataView x, const Eigen::Ref<const Eigen::VectorXd>& w) {
@@ -314,7 +415,7 @@ constexpr double kMaxShiftRatio = 4.0;
 }  // namespace
 
 std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd& w,
-                                              const Eigen::MatrixXd& shifts) {
+                                              const Eigen::MatrixXd& shifts, int threads) {
   const Index n = x.rows();
   const Index p = x.cols();
   const Index k_count = w.cols();
@@ -335,31 +436,60 @@ std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd&
   Eigen::VectorXd total = Eigen::VectorXd::Zero(k_count);
   Eigen::MatrixXd sums = Eigen::MatrixXd::Zero(p, k_count);
   std::vector<Eigen::MatrixXd> lower(static_cast<std::size_t>(k_count), Eigen::MatrixXd::Zero(p, p));
-  ColumnMajorChunks chunks(x);
-  Eigen::MatrixXd y(std::min(kChunkRows, std::max<Index>(n, 1)), p);
-  Eigen::MatrixXd gram = Eigen::MatrixXd::Zero(p, p);  // dsyrk writes its lower triangle only
-  Eigen::ArrayXd root;
-  for (Index start = 0; start < n; start += kChunkRows) {
+  // Each fixed chunk's sums go to its own slot (on `threads` threads) and are
+  // added in chunk order afterwards, as one thread would add them.
+  struct ChunkSums {
+    Eigen::VectorXd weight;                // per weighting, 0 when skipped
+    Eigen::MatrixXd sums;                  // p x K
+    std::vector<Eigen::MatrixXd> lower;    // K lower triangles (empty when skipped)
+  };
+  struct Scratch {
+    std::unique_ptr<ColumnMajorChunks> chunks;
+    Eigen::MatrixXd y;
+    Eigen::ArrayXd root;
+  };
+  const Index chunk_total = chunk_count(n, kChunkRows);
+  std::vector<ChunkSums> parts(static_cast<std::size_t>(chunk_total));
+  std::vector<Scratch> scratch(static_cast<std::size_t>(parallel_workers(threads, chunk_total)));
+  parallel_for(threads, chunk_total, [&](Index c, int worker) {
+    Scratch& s = scratch[static_cast<std::size_t>(worker)];
+    if (!s.chunks) {
+      s.chunks = std::make_unique<ColumnMajorChunks>(x);
+      s.y.resize(std::min(kChunkRows, std::max<Index>(n, 1)), p);
+    }
+    ChunkSums& part = parts[static_cast<std::size_t>(c)];
+    part.weight = Eigen::VectorXd::Zero(k_count);
+    part.sums = Eigen::MatrixXd::Zero(p, k_count);
+    part.lower.resize(static_cast<std::size_t>(k_count));
+    const Index start = c * kChunkRows;
     const Index m = std::min(kChunkRows, n - start);
     Index ld = 0;
-    const double* block = chunks.block(start, m, ld);
+    const double* block = s.chunks->block(start, m, ld);
     for (Index k = 0; k < k_count; ++k) {
       const auto wc = w.col(k).segment(start, m);
       const double ws = wc.sum();
       if (!(ws > 0.0)) continue;
-      root = wc.array().sqrt();
+      s.root = wc.array().sqrt();
       for (Index j = 0; j < p; ++j) {
         const Eigen::Map<const Eigen::ArrayXd> xj(block + j * ld, m);
-        auto yj = y.col(j).head(m).array();
-        yj = (xj - centre(j, k)) * root;
-        sums(j, k) += (yj * root).sum();
+        auto yj = s.y.col(j).head(m).array();
+        yj = (xj - centre(j, k)) * s.root;
+        part.sums(j, k) = (yj * s.root).sum();
       }
+      Eigen::MatrixXd& gram = part.lower[static_cast<std::size_t>(k)];
+      gram = Eigen::MatrixXd::Zero(p, p);  // dsyrk writes its lower triangle only
       cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(p), static_cast<int>(m), 1.0,
-                  y.data(), static_cast<int>(y.rows()), 0.0, gram.data(), static_cast<int>(p));
-      lower[static_cast<std::size_t>(k)] += gram;
-      total(k) += ws;
+                  s.y.data(), static_cast<int>(s.y.rows()), 0.0, gram.data(), static_cast<int>(p));
+      part.weight(k) = ws;
     }
-  }
+  });
+  for (const ChunkSums& part : parts)
+    for (Index k = 0; k < k_count; ++k) {
+      if (!(part.weight(k) > 0.0)) continue;
+      sums.col(k) += part.sums.col(k);
+      lower[static_cast<std::size_t>(k)] += part.lower[static_cast<std::size_t>(k)];
+      total(k) += part.weight(k);
+    }
   std::vector<WeightedMoments> out(static_cast<std::size_t>(k_count));
   for (Index k = 0; k < k_count; ++k) {
     WeightedMoments& r = out[static_cast<std::size_t>(k)];

@@ -44,6 +44,10 @@ class MomentAccumulator {
   // error bound. A diagnostic: the moments do not depend on it beyond rounding.
   Index direct_rows() const { return direct_rows_; }
   const Eigen::VectorXd& mean() const { return mean_; }
+  // Threads add() may use (1 by default; parallel.hpp). Chunk boundaries and
+  // the merge order do not depend on it, so neither do the moments.
+  void set_threads(int threads) { threads_ = threads; }
+  int threads() const { return threads_; }
   // sum_i w_i (x_i - mean)(x_i - mean)', full symmetric matrix.
   Eigen::MatrixXd cross_products() const;
 
@@ -64,6 +68,25 @@ class MomentAccumulator {
   // not positive (fewer than 2 rows for ByCountMinusOne, no weight at all).
   Eigen::MatrixXd covariance(Normalisation norm) const;
 
+  // The whole internal state, so that an accumulator can be stored or sent to
+  // another process and rebuilt there bit for bit: later adds and merges then
+  // give the same bits as on the original.
+  struct State {
+    double weight = 0.0;
+    Index rows = 0;
+    Index direct_rows = 0;
+    bool shifted = false;
+    Eigen::VectorXd shift;          // p
+    Eigen::VectorXd relative_mean;  // p
+    Eigen::MatrixXd lower;          // p x p, lower triangle authoritative
+  };
+  State state() const;
+  // Rebuilds an accumulator from state(). Throws Error(Format) for a state no
+  // accumulator can be in (sizes, non-finite values, negative counts or
+  // weights, direct rows above rows, a negative diagonal of the cross-products,
+  // rows without a shift).
+  static MomentAccumulator from_state(const State& s);
+
  private:
   // Whether the moments so far put every column mean within kMaxOffsetRatio
   // standard deviations of zero (moments.cpp): the raw-product path may be tried.
@@ -72,6 +95,7 @@ class MomentAccumulator {
   void merge_relative(double weight, Index rows, const Eigen::VectorXd& relative_mean,
                       const Eigen::MatrixXd& cross_products);
 
+  int threads_ = 1;
   double weight_ = 0.0;
   Index rows_ = 0;
   Index direct_rows_ = 0;
@@ -102,8 +126,10 @@ struct WeightedMoments {
 // weighted mean lies too far from its shift for the shifted products to keep
 // their digits (moments.cpp), that weighting is recomputed by the centred path of
 // MomentAccumulator::add(x, w). Throws Error(Shape) for mismatched sizes.
+// `threads`: fixed chunks whose sums are added in chunk order (parallel.hpp),
+// so the moments do not depend on it.
 std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd& w,
-                                              const Eigen::MatrixXd& shifts);
+                                              const Eigen::MatrixXd& shifts, int threads = 1);
 
 // Rows start..start+m-1 of x into `raw`, column-major (m x p). Row-major views
 // are transposed in small blocks that stay in L1.

@@ -18,6 +18,7 @@
 #include <Eigen/Core>
 
 #include "data_view.hpp"
+#include "moments.hpp"
 
 namespace ellipsa::core {
 
@@ -40,5 +41,15 @@ NormPowerSums recentre(const NormPowerSums& s, const Eigen::MatrixXd& cross_abou
 
 // Sums of two disjoint row sets already about the same centre.
 NormPowerSums combine(const NormPowerSums& a, const NormPowerSums& b);
+
+// A stream's state: moments, and norm sums about moments.mean() once rows
+// were added. The two operations below keep both exact (the C interface's
+// accumulator is this pair).
+// Adds the rows of x (finite; not checked): their sums are taken about the
+// merged mean directly, the old sums are moved there.
+void add_rows(MomentAccumulator& moments, NormPowerSums& norms, DataView x);
+// Adds the state of a disjoint row set: both norm sums are moved to the merged mean.
+void merge_state(MomentAccumulator& moments, NormPowerSums& norms, const MomentAccumulator& other_moments,
+                 const NormPowerSums& other_norms);
 
 }  // namespace ellipsa::core

@@ -1,6 +1,7 @@
 #include "order_statistics.hpp"
 
 #include <algorithm>
+#include <boost/math/distributions/normal.hpp>
 #include <cmath>
 #include <limits>
 
@@ -72,6 +73,14 @@ double median_of(const double* v, Index n, std::vector<double>& buf) {
   const OrderPair m = order_statistics(v, n, n / 2, buf);
   if (n % 2 == 1) return m.at;
   return m.below + (m.at - m.below) / 2.0;
+}
+
+double mad_about(const double* v, Index n, double centre, std::vector<double>& dev, std::vector<double>& buf) {
+  if (n < 1) throw Error(ErrorKind::Data, "MAD of an empty sample");
+  dev.resize(static_cast<std::size_t>(n));
+  for (Index i = 0; i < n; ++i) dev[static_cast<std::size_t>(i)] = std::abs(v[i] - centre);
+  static const double q75 = boost::math::quantile(boost::math::normal_distribution<double>(), 0.75);
+  return median_of(dev.data(), n, buf) / q75;
 }
 
 }  // namespace ellipsa::core

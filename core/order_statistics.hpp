@@ -26,8 +26,14 @@ OrderPair order_statistics(const double* v, Index n, Index k, std::vector<double
 
 // Median of v[0..n), n >= 1: the middle order statistic, or for even n the
 // midpoint of the two middle ones written as a + (b - a)/2 so that it cannot
-// overflow. Same value as median() of robust_scale.hpp. Throws Error(Data)
-// for n < 1.
+// overflow; median() of robust_scale.hpp is this function. Throws
+// Error(Data) for n < 1.
 double median_of(const double* v, Index n, std::vector<double>& buf);
+
+// Median absolute deviation of v[0..n) about `centre` (normally its median),
+// divided by Phi^-1(3/4) (about 0.6745) so that it estimates sigma at the
+// normal; no small-sample correction. dev and buf are scratch memory. The one
+// MAD of the core: mad() of robust_scale.hpp and the MCD standardisation use it.
+double mad_about(const double* v, Index n, double centre, std::vector<double>& dev, std::vector<double>& buf);
 
 }  // namespace ellipsa::core

@@ -14,6 +14,7 @@
 #include <vector>
 
 #include "error.hpp"
+#include "order_statistics.hpp"
 
 namespace ellipsa::core {
 namespace {
@@ -22,34 +23,21 @@ void require_nonempty(Index n, const char* what) {
   if (n <= 0) throw Error(ErrorKind::Data, std::string(what) + " of an empty sample");
 }
 
-double median_in_place(std::vector<double>& v) {
-  const std::size_t n = v.size();
-  const std::size_t mid = n / 2;
-  std::nth_element(v.begin(), v.begin() + static_cast<std::ptrdiff_t>(mid), v.end());
-  const double upper = v[mid];
-  if (n % 2 == 1) return upper;
-  const double lower = *std::max_element(v.begin(), v.begin() + static_cast<std::ptrdiff_t>(mid));
-  // Midpoint written so that it cannot overflow for huge values of equal sign.
-  return lower + (upper - lower) / 2.0;
-}
-
 }  // namespace
 
+// One median and one MAD in the core: order_statistics.hpp.
 double median(const Eigen::Ref<const Eigen::VectorXd>& x) {
   require_nonempty(x.size(), "median");
-  std::vector<double> v(x.data(), x.data() + x.size());
-  if (x.innerStride() != 1)
-    for (Index i = 0; i < x.size(); ++i) v[static_cast<std::size_t>(i)] = x(i);
-  return median_in_place(v);
+  const Eigen::VectorXd v = x;  // contiguous
+  std::vector<double> buf;
+  return median_of(v.data(), v.size(), buf);
 }
 
 double mad(const Eigen::Ref<const Eigen::VectorXd>& x) {
   require_nonempty(x.size(), "MAD");
-  const double m = median(x);
-  std::vector<double> v(static_cast<std::size_t>(x.size()));
-  for (Index i = 0; i < x.size(); ++i) v[static_cast<std::size_t>(i)] = std::abs(x(i) - m);
-  const boost::math::normal_distribution<double> z;
-  return median_in_place(v) / boost::math::quantile(z, 0.75);
+  const Eigen::VectorXd v = x;
+  std::vector<double> dev, buf;
+  return mad_about(v.data(), v.size(), median_of(v.data(), v.size(), buf), dev, buf);
 }
 
 double qn_consistency_constant() {

@@ -3,12 +3,16 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <numbers>
 #include <string>
 #include <unordered_map>
+#include <utility>
 #include <vector>
 
 #include "distributions.hpp"
 #include "error.hpp"
+#include "missing.hpp"
+#include "parallel.hpp"
 
 namespace ellipsa::core {
 namespace {
@@ -62,11 +66,7 @@ void score_block(const Model& model, Eigen::Ref<Eigen::MatrixXd> block, Eigen::M
   }
 }
 
-[[noreturn]] void throw_infinite(Index row, Index col, double v) {
-  throw Error(ErrorKind::Data, "scoring: row " + std::to_string(row) + ", column " + std::to_string(col) +
-                                   " (0-based) is non-finite (" + (v > 0 ? "+Inf" : "-Inf") +
-                                   "); NaN marks a missing value, Inf is not accepted");
-}
+[[noreturn]] void throw_infinite(Index row, Index col, double v) { throw_infinite_cell("scoring", row, col, v); }
 
 }  // namespace
 
@@ -105,26 +105,44 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
   out.df = IndexVector::Constant(n, p);
   if (opt.contributions) out.contributions.setConstant(n, p, kNaN);
   if (opt.conditional_drops) out.conditional_drops.setConstant(n, p, kNaN);
+  // log det S_oo per row (NaN: nothing observed), turned into log-densities at the end.
+  Eigen::VectorXd log_det;
+  if (opt.log_densities) log_det = Eigen::VectorXd::Constant(n, factor_.log_determinant());
 
   const Eigen::MatrixXd& lower = factor_.lower();
   Model full{&lower, {}, nullptr};
   if (opt.conditional_drops) full.inverse_diagonal = inverse_diagonal(lower);
 
   // Complete rows: block copy, centre, one triangular solve per block. Rows
-  // with a NaN are set aside by pattern and scored afterwards.
-  std::unordered_map<std::vector<bool>, std::vector<Index>> patterns;
-  Eigen::MatrixXd block(std::min(kChunkRows, std::max<Index>(n, 1)), p);
-  Eigen::MatrixXd work(opt.contributions || opt.conditional_drops ? block.rows() : 0, p);
-  std::vector<Index> rows(static_cast<std::size_t>(block.rows()));
-  for (Index start = 0; start < n; start += kChunkRows) {
+  // with a NaN are set aside by pattern and scored afterwards. Blocks are fixed
+  // row ranges scored on opt.threads threads; the rows set aside are gathered
+  // in block order, as one thread would meet them.
+  const Index chunks = chunk_count(n, kChunkRows);
+  const Index block_rows = std::min(kChunkRows, std::max<Index>(n, 1));
+  struct Scratch {
+    Eigen::MatrixXd block, work;
+    std::vector<Index> rows;
+  };
+  std::vector<Scratch> scratch(static_cast<std::size_t>(parallel_workers(opt.threads, chunks)));
+  std::vector<std::vector<std::pair<std::vector<bool>, Index>>> set_aside(static_cast<std::size_t>(chunks));
+  parallel_for(opt.threads, chunks, [&](Index c, int worker) {
+    Scratch& s = scratch[static_cast<std::size_t>(worker)];
+    if (s.block.rows() == 0) {
+      s.block.resize(block_rows, p);
+      s.work.resize(opt.contributions || opt.conditional_drops ? block_rows : 0, p);
+      s.rows.resize(static_cast<std::size_t>(block_rows));
+    }
+    auto& aside = set_aside[static_cast<std::size_t>(c)];
+    const Index start = c * kChunkRows;
     const Index m = std::min(kChunkRows, n - start);
+    Eigen::MatrixXd& block = s.block;
     block.topRows(m) = x.middleRows(start, m);
     Index kept = 0;
     for (Index k = 0; k < m; ++k) {
       const Index i = start + k;
       if (block.row(k).allFinite()) {
         if (kept != k) block.row(kept) = block.row(k);
-        rows[static_cast<std::size_t>(kept++)] = i;
+        s.rows[static_cast<std::size_t>(kept++)] = i;
         continue;
       }
       std::vector<bool> missing(static_cast<std::size_t>(p));
@@ -133,12 +151,15 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
         if (std::isinf(v)) throw_infinite(i, j, v);
         missing[static_cast<std::size_t>(j)] = std::isnan(v);
       }
-      patterns[std::move(missing)].push_back(i);
+      aside.emplace_back(std::move(missing), i);
     }
-    if (kept == 0) continue;
+    if (kept == 0) return;
     block.topRows(kept).rowwise() -= location_.transpose();
-    score_block(full, block.topRows(kept), work, rows.data(), opt, out);
-  }
+    score_block(full, block.topRows(kept), s.work, s.rows.data(), opt, out);
+  });
+  std::unordered_map<std::vector<bool>, std::vector<Index>> patterns;
+  for (auto& aside : set_aside)
+    for (auto& [missing, i] : aside) patterns[std::move(missing)].push_back(i);
 
   // One factorisation per missingness pattern: the marginal of the observed
   // coordinates o is N(T_o, S_oo).
@@ -148,7 +169,11 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
       if (!missing[static_cast<std::size_t>(j)]) observed.push_back(j);
     const Index q = static_cast<Index>(observed.size());
     if (q == 0) {
-      for (Index i : members) { out.d2(i) = kNaN; out.df(i) = 0; }
+      for (Index i : members) {
+        out.d2(i) = kNaN;
+        out.df(i) = 0;
+        if (opt.log_densities) log_det(i) = kNaN;
+      }
       continue;
     }
     ++out.missing_patterns;
@@ -161,6 +186,8 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
     if (!sub_factor.compute(sub))
       throw Error(ErrorKind::Singular, "scorer: the scatter sub-matrix of a missingness pattern is not positive "
                                        "definite (the scatter is too ill-conditioned)");
+    if (opt.log_densities)
+      for (Index i : members) log_det(i) = sub_factor.log_determinant();
     Model marginal{&sub_factor.lower(), {}, &observed};
     if (opt.conditional_drops) marginal.inverse_diagonal = inverse_diagonal(sub_factor.lower());
     Eigen::MatrixXd sub_block(std::min<Index>(kChunkRows, static_cast<Index>(members.size())), q);
@@ -187,10 +214,19 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
                                            " observed coordinates, more than the reference rows of the profile support");
   out.flagged.resize(n);
   for (Index i = 0; i < n; ++i) out.flagged(i) = out.df(i) > 0 && out.d2(i) > cutoff(out.df(i));
+  if (opt.log_densities) {
+    const double log_2pi = std::log(2.0 * std::numbers::pi);
+    out.log_density.resize(n);
+    for (Index i = 0; i < n; ++i)
+      out.log_density(i) = -0.5 * (static_cast<double>(out.df(i)) * log_2pi + log_det(i) + out.d2(i));
+  }
   if (opt.p_values) {
     out.p_value.resize(n);
-    for (Index i = 0; i < n; ++i)
-      out.p_value(i) = out.df(i) > 0 ? reference_sf(opt.reference, out.df(i), out.d2(i)) : kNaN;
+    parallel_for(opt.threads, chunks, [&](Index c, int) {
+      const Index end = std::min(n, (c + 1) * kChunkRows);
+      for (Index i = c * kChunkRows; i < end; ++i)
+        out.p_value(i) = out.df(i) > 0 ? reference_sf(opt.reference, out.df(i), out.d2(i)) : kNaN;
+    });
   }
   return out;
 }

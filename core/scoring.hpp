@@ -23,6 +23,10 @@ struct ScoringOptions {
   bool p_values = true;           // fill RowScores::p_value
   bool contributions = false;     // fill RowScores::contributions
   bool conditional_drops = false; // fill RowScores::conditional_drops
+  bool log_densities = false;     // fill RowScores::log_density
+  // Threads for the complete rows and the p-values (parallel.hpp); every row's
+  // result is computed from that row alone, so it does not depend on this.
+  int threads = 1;
 };
 
 struct RowScores {
@@ -37,6 +41,9 @@ struct RowScores {
   // (variable j left out) = z_j^2 / (S_oo^-1)_jj with z = S_oo^-1 (x - T)_o.
   // NaN at missing coordinates. Empty unless asked.
   Eigen::MatrixXd conditional_drops;
+  // log N(x_o; T_o, S_oo) = -0.5 (df log 2 pi + log det S_oo + d2), from the
+  // factor each pattern is scored with; NaN for an all-missing row. Empty unless asked.
+  Eigen::VectorXd log_density;
   // Distinct patterns of missing coordinates met (excluding all-missing rows);
   // each costs one factorisation of its sub-matrix, however many rows share it.
   Index missing_patterns = 0;

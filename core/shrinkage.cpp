@@ -2,26 +2,34 @@
 
 #include <algorithm>
 #include <string>
+#include <vector>
 
 #include "error.hpp"
 #include "missing.hpp"
 #include "moments.hpp"
+#include "parallel.hpp"
 
 namespace ellipsa::core {
 namespace {
 
 constexpr Index kChunkRows = 4096;
 
-// sum_k |x_k - mean|^4 over the rows, chunked so that no n x p centred copy exists.
-double sum_fourth_powers_of_norms(DataView x, const Eigen::VectorXd& mean) {
-  double total = 0.0;
-  Eigen::MatrixXd chunk;
-  for (Index start = 0; start < x.rows(); start += kChunkRows) {
+// sum_k |x_k - mean|^4 over the rows, chunked so that no n x p centred copy
+// exists. Chunk sums are added in chunk order: the same total for any thread count.
+double sum_fourth_powers_of_norms(DataView x, const Eigen::VectorXd& mean, int threads) {
+  const Index chunks = chunk_count(x.rows(), kChunkRows);
+  std::vector<double> partial(static_cast<std::size_t>(chunks), 0.0);
+  std::vector<Eigen::MatrixXd> scratch(static_cast<std::size_t>(parallel_workers(threads, chunks)));
+  parallel_for(threads, chunks, [&](Index c, int worker) {
+    const Index start = c * kChunkRows;
     const Index m = std::min(kChunkRows, x.rows() - start);
+    Eigen::MatrixXd& chunk = scratch[static_cast<std::size_t>(worker)];
     chunk = x.middleRows(start, m);
     chunk.rowwise() -= mean.transpose();
-    total += chunk.rowwise().squaredNorm().array().square().sum();
-  }
+    partial[static_cast<std::size_t>(c)] = chunk.rowwise().squaredNorm().array().square().sum();
+  });
+  double total = 0.0;
+  for (double v : partial) total += v;
   return total;
 }
 
@@ -55,11 +63,12 @@ double oas_intensity(double trace_s2, double trace_s, double spread, double n, d
 
 // The shape and row-count checks are shrinkage_from_moments'; only the
 // finiteness of the raw data must be checked here.
-ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method) {
+ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method, int threads) {
   require_finite(x, "shrinkage estimate");
   MomentAccumulator acc(x.cols());
+  acc.set_threads(threads);
   acc.add(x);
-  const double fourth = method == ShrinkageMethod::LedoitWolf ? sum_fourth_powers_of_norms(x, acc.mean()) : 0.0;
+  const double fourth = method == ShrinkageMethod::LedoitWolf ? sum_fourth_powers_of_norms(x, acc.mean(), threads) : 0.0;
   return shrinkage_from_moments(x.rows(), acc.mean(), acc.cross_products(), fourth, method);
 }
 

@@ -29,7 +29,8 @@ struct ShrinkageEstimate {
 // multiple of the identity (always so for p = 1) the target equals S and any
 // intensity gives the same estimate; the reported intensity is then 1, the
 // limit of both formulas as S approaches the target.
-ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method);
+// `threads`: see MomentAccumulator::set_threads (the result does not depend on it).
+ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method, int threads = 1);
 
 // The same estimate from moments gathered elsewhere (a stream of chunks):
 // n rows, their mean, cross-products sum (x - mean)(x - mean)' and, for

@@ -19,6 +19,7 @@ packages=(
   gnumeric gnumeric-plugins-extra         # spreadsheet host and its Python plugin loader (sheet test)
   libreoffice-calc-nogui python3-uno      # second spreadsheet host, its Python UNO bridge (sheet test)
   libreoffice-dev                         # unoidl-write: the Calc add-in type library at build time
+  libopenmpi-dev openmpi-bin              # ellipsa-mpi, the distributed driver, and its test (mpirun)
 )
 
 missing=()

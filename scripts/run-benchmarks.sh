@@ -6,6 +6,8 @@
 set -euo pipefail
 build=${1:-build}
 export OPENBLAS_NUM_THREADS=1
+echo "== side by side: C interface, Python binding vs NumPy, R binding vs base R, 1 and 2 threads"
+/usr/bin/python3 "$(dirname "$0")/../bench/side_by_side.py" "$build"
 for b in "$build"/bench/bench_*; do
   [ -x "$b" ] || continue
   echo "== $(basename "$b")"

@@ -1,5 +1,6 @@
 #include "cli_common.hpp"
 
+#include <cmath>
 #include <cstdio>
 #include <fstream>
 #include <iostream>
@@ -57,6 +58,17 @@ std::string column_kind_text(const ColumnInfo& c) {
   return "";
 }
 
+void refuse_infinite_cells(CsvReader& reader, const CsvChunk& chunk) {
+  for (std::size_t r = 0; r < chunk.rows(); ++r)
+    for (std::size_t c = 0; c < chunk.cols(); ++c)
+      if (std::isinf(chunk.value(r, c))) {
+        const std::size_t j = reader.selected()[c];  // 0-based header column
+        throw CsvError(reader.source_name(), chunk.line(r), static_cast<std::int64_t>(j + 1), reader.header()[j],
+                       "the number is infinite or beyond the range of double precision; write a finite number, "
+                       "or leave the cell empty (or NA) for a missing value");
+      }
+}
+
 Table read_table(const std::string& path, CsvOptions options, bool keep_fields) {
   options.keep_fields = keep_fields;
   CsvReader reader(path, options);
@@ -69,6 +81,7 @@ Table read_table(const std::string& path, CsvOptions options, bool keep_fields) 
     throw CliError(kExitData, reader.source_name() + ": no numeric columns to use");
   CsvChunk chunk;
   while (reader.next_chunk(chunk, 65536)) {
+    refuse_infinite_cells(reader, chunk);
     t.values.insert(t.values.end(), chunk.data(), chunk.data() + chunk.rows() * chunk.cols());
     for (std::size_t r = 0; r < chunk.rows(); ++r) {
       t.lines.push_back(chunk.line(r));

@@ -65,6 +65,10 @@ struct Table {
   }
 };
 Table read_table(const std::string& path, CsvOptions options, bool keep_fields = false);
+// Refuses an infinite cell ("inf", or a number beyond the double range) with
+// the file, line and column, before the library sees the chunk (it would know
+// only the row within the chunk). Called on every chunk read for the library.
+void refuse_infinite_cells(CsvReader& reader, const CsvChunk& chunk);
 
 ModelPtr load_model_file(const std::string& path);
 std::string model_text(const ellipsa_model* m);

@@ -23,11 +23,6 @@ struct ClusterArgs {
   OutputFlags out;
 };
 
-const char* structure_name(int32_t s) {
-  static const char* const names[] = {"?", "full", "diagonal", "tied", "spherical"};
-  return s >= 1 && s <= 4 ? names[s] : "?";
-}
-
 }  // namespace
 
 Command add_cluster(CLI::App& parent) {
@@ -86,13 +81,13 @@ Command add_cluster(CLI::App& parent) {
               char buf[160];
               if (*reason != '\0')  // a candidate that could not be fitted: its reason instead of numbers
                 std::snprintf(buf, sizeof buf, "  %s %3d  %-9s  not fitted: ", c.chosen ? "*" : " ", c.components,
-                              structure_name(c.structure));
+                              ellipsa_structure_name(c.structure));
               else
                 std::snprintf(buf, sizeof buf, "  %s %3d  %-9s %12.3f %12.3f %12.3f  %s", c.chosen ? "*" : " ",
-                              c.components, structure_name(c.structure), c.log_likelihood, c.bic, c.icl,
+                              c.components, ellipsa_structure_name(c.structure), c.log_likelihood, c.bic, c.icl,
                               c.converged ? "yes" : "no (iteration cap)");
               h << buf << reason << "\n";
-              j["candidates"].push_back({{"components", c.components}, {"structure", structure_name(c.structure)},
+              j["candidates"].push_back({{"components", c.components}, {"structure", ellipsa_structure_name(c.structure)},
                                          {"log_likelihood", std::isfinite(c.log_likelihood) ? nlohmann::json(c.log_likelihood) : nlohmann::json()},
                                          {"bic", std::isfinite(c.bic) ? nlohmann::json(c.bic) : nlohmann::json()},
                                          {"icl", std::isfinite(c.icl) ? nlohmann::json(c.icl) : nlohmann::json()},

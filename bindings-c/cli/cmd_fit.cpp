@@ -41,6 +41,7 @@ Fitted fit_streaming(const FitArgs& a, Progress& progress) {
   std::unique_ptr<ellipsa_accumulator, AccumulatorDeleter> acc(raw);
   CsvChunk chunk;
   while (reader.next_chunk(chunk, 65536)) {
+    refuse_infinite_cells(reader, chunk);
     const auto x = ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()),
                                             static_cast<int64_t>(chunk.cols()));
     check(ellipsa_accumulator_add(acc.get(), &x), reader.source_name());
@@ -91,7 +92,7 @@ Command add_fit(CLI::App& parent) {
                   "Scoring reference recorded in the model: chi2, new-rows or fitting-rows "
                   "(default: new-rows when the fit has rows enough; docs/calibration.md)");
   add_dialect_flags(*app, args->dialect);
-  add_output_flags(*app, args->out);
+  add_output_flags(*app, args->out, "Also list the columns left out of the fit and why");
   return {app, [args]() {
             if (args->out.json && args->output == "-")
               throw CliError(kExitUsage, "--json prints the summary on standard output: give the model a file with -o");

@@ -63,11 +63,10 @@ Command add_inspect(CLI::App& parent) {
               check(ellipsa_model_selection(table.data(), count, &count, m.get()), "reading the model");
               if (count > 1) {
                 h << "model choice (lower BIC is better):\n     K  structure        logL          BIC          ICL\n";
-                static const char* const kStructures[] = {"", "full", "diagonal", "tied", "spherical"};
                 for (const auto& c : table) {
                   char buf[128];
                   std::snprintf(buf, sizeof buf, "  %s %3d  %-9s %12.4f %12.4f %12.4f\n", c.chosen ? "*" : " ",
-                                c.components, kStructures[c.structure], c.log_likelihood, c.bic, c.icl);
+                                c.components, ellipsa_structure_name(c.structure), c.log_likelihood, c.bic, c.icl);
                   h << buf;
                 }
               }

@@ -78,12 +78,9 @@ std::vector<ReportCandidate> model_choice(const ellipsa_model* m) {
   std::vector<ellipsa_candidate> table(static_cast<std::size_t>(count));
   for (auto& c : table) c.struct_size = sizeof(ellipsa_candidate);
   check(ellipsa_model_selection(table.data(), count, &count, m), "reading the model");
-  static const char* const kStructures[] = {"?", "full", "diagonal", "tied", "spherical"};
   std::vector<ReportCandidate> out;
-  for (const auto& c : table) {
-    const bool known = c.structure >= 1 && c.structure <= 4;
-    out.push_back({c.components, kStructures[known ? c.structure : 0], c.bic, c.icl, c.chosen == 1});
-  }
+  for (const auto& c : table)
+    out.push_back({c.components, ellipsa_structure_name(c.structure), c.bic, c.icl, c.chosen == 1});
   return out;
 }
 

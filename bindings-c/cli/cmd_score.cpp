@@ -71,6 +71,7 @@ Command add_score(CLI::App& parent) {
             std::ostringstream first_flags;
             int listed = 0;
             while (reader.next_chunk(chunk, kChunkRows)) {
+              refuse_infinite_cells(reader, chunk);
               const auto x = ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()),
                                                       static_cast<int64_t>(chunk.cols()));
               block.score(model.get(), cols, x, a->level, reference);

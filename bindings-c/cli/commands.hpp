@@ -66,7 +66,10 @@ OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& c
 // (and silent) for a converged mixture or a Gaussian model.
 bool warn_not_converged(const ellipsa_model* m, const std::string& command, const std::string& what);
 void add_dialect_flags(CLI::App& app, DialectFlags& d);
-void add_output_flags(CLI::App& app, OutputFlags& o);
+// --quiet and --json for every subcommand; --verbose only where a subcommand
+// has something more to say (verbose_help says what), so no flag is accepted
+// that does nothing.
+void add_output_flags(CLI::App& app, OutputFlags& o, const char* verbose_help = nullptr);
 // --digits of the subcommands that write scored rows: "10" by default, "1".."17",
 // or "exact" (the shortest text that reads back to the same double).
 void add_digits_flag(CLI::App& app, std::string& digits);

@@ -15,9 +15,9 @@ void add_dialect_flags(CLI::App& app, DialectFlags& d) {
   app.add_option("--exclude", d.exclude, "Never use these columns (e.g. an id that looks numeric)")->delimiter(',');
 }
 
-void add_output_flags(CLI::App& app, OutputFlags& o) {
+void add_output_flags(CLI::App& app, OutputFlags& o, const char* verbose_help) {
   app.add_flag("-q,--quiet", o.quiet, "Print nothing but errors");
-  app.add_flag("-v,--verbose", o.verbose, "Say more about what was read and fitted");
+  if (verbose_help != nullptr) app.add_flag("-v,--verbose", o.verbose, verbose_help);
   app.add_flag("--json", o.json, "Print a machine-readable summary (JSON) on standard output");
 }
 
@@ -119,10 +119,8 @@ OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& c
           "--divisor");
   }
   int32_t missing = 0;
-  if (f.missing == "drop") missing = ELLIPSA_MISSING_DROP_ROWS;
-  else if (f.missing == "refuse") missing = ELLIPSA_MISSING_REFUSE;
-  else if (f.missing == "em") missing = ELLIPSA_MISSING_EM;
-  else throw CliError(kExitUsage, "--missing must be drop, refuse or em");
+  if (ellipsa_missing_from_name(&missing, f.missing.c_str()) != ELLIPSA_OK)
+    throw CliError(kExitUsage, "--missing must be drop, refuse or em");
   check(ellipsa_fit_options_set_missing(o.get(), missing), "--missing");
   if (given(f.alpha_flag)) check(ellipsa_fit_options_set_alpha(o.get(), f.alpha), "--alpha");
   if (given(f.seed_flag)) check(ellipsa_fit_options_set_seed(o.get(), f.seed), "--seed");
@@ -135,12 +133,8 @@ OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& c
   }
   if (given(f.structure_flag) || (mixture && f.components_default)) {
     int32_t structure = 0;
-    if (f.structure == "full") structure = ELLIPSA_STRUCTURE_FULL;
-    else if (f.structure == "diagonal") structure = ELLIPSA_STRUCTURE_DIAGONAL;
-    else if (f.structure == "tied") structure = ELLIPSA_STRUCTURE_TIED;
-    else if (f.structure == "spherical") structure = ELLIPSA_STRUCTURE_SPHERICAL;
-    else if (f.structure == "all") structure = ELLIPSA_STRUCTURE_ALL;
-    else throw CliError(kExitUsage, "--structure must be full, diagonal, tied, spherical or all");
+    if (ellipsa_structure_from_name(&structure, f.structure.c_str()) != ELLIPSA_OK)
+      throw CliError(kExitUsage, "--structure must be full, diagonal, tied, spherical or all");
     check(ellipsa_fit_options_set_structure(o.get(), structure), "--structure");
   }
   if (given(f.restarts_flag)) check(ellipsa_fit_options_set_restarts(o.get(), f.restarts), "--restarts");

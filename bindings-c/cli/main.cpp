@@ -1,6 +1,8 @@
 // ellipsa: the batch command-line tool. Built on the C interface only.
 #include <CLI/CLI.hpp>
 #include <cstdio>
+#include <cstdlib>
+#include <vector>
 #include <string>
 
 #include "commands.hpp"
@@ -28,11 +30,30 @@ int main(int argc, char** argv) {
   app.footer(kExitCodes);
   std::vector<Command> commands{add_fit(app), add_score(app), add_screen(app), add_cluster(app), add_inspect(app), add_report(app),
                                 add_compare(app)};
-  for (auto& c : commands) c.app->footer(kExitCodes);
+  // --threads on every subcommand: the library's thread count for fitting and
+  // scoring, handed over as ELLIPSA_THREADS (the library's default rule), so
+  // every call of this process uses it. Results do not depend on it.
+  int threads = 0;
+  std::vector<CLI::Option*> thread_flags;
+  for (auto& c : commands) {
+    c.app->footer(kExitCodes);
+    thread_flags.push_back(c.app->add_option(
+        "--threads", threads,
+        "Threads for fitting and scoring, 1 to 256 (default: ELLIPSA_THREADS, else every available core); "
+        "results are the same for any count"));
+  }
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
     return app.exit(e) == 0 ? kExitOk : kExitUsage;
+  }
+  for (auto* flag : thread_flags) {
+    if (flag->count() == 0) continue;
+    if (threads < 1 || threads > 256) {
+      std::fprintf(stderr, "ellipsa: --threads must be a whole number from 1 to 256 (got %d)\n", threads);
+      return kExitUsage;
+    }
+    setenv("ELLIPSA_THREADS", std::to_string(threads).c_str(), 1);
   }
   for (auto& c : commands) {
     if (!c.app->parsed()) continue;

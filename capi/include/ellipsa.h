@@ -15,6 +15,10 @@
  *   Out-parameters come first. On failure, out-parameters are left unchanged
  *   unless the function says otherwise, and ellipsa_last_error() describes what
  *   went wrong.
+ * - Besides the statuses its documentation lists, any call that returns an
+ *   ::ellipsa_status may return ::ELLIPSA_ERR_MEMORY (an allocation failed or
+ *   a size overflows) and ::ELLIPSA_ERR_INTERNAL (a defect in ellipsa); no
+ *   call returns a status that is neither listed nor one of these two.
  * - No call aborts, exits, prints or lets a C++ exception escape.
  * - Handles are opaque; each `_destroy` accepts NULL and then does nothing.
  * - Matrices are passed as an ::ellipsa_matrix view (pointer, rows, cols, row
@@ -23,9 +27,39 @@
  * - Missing values are NaN. Each function states what it does with them.
  * - Buffers for results are allocated by the caller with the documented size.
  *   Memory that the library allocates has its own free function.
- * - Threads: no global mutable state. A handle is used by one thread at a time;
- *   a fitted ::ellipsa_model is read-only and may be shared by any number of
- *   threads for queries and scoring. Randomness comes only from explicit seeds.
+ *
+ * @par Threads and reproducibility (the one statement; other sections refer here)
+ * - There is no global mutable state: any function may be called from any
+ *   thread, and calls on different handles never interfere.
+ * - A call that takes a handle through a non-const pointer modifies it (the
+ *   fit options' setters, ellipsa_accumulator_add(), the `into` of
+ *   ellipsa_accumulator_merge()): that handle is used by one thread at a time.
+ * - A handle passed through a const pointer is only read: a fitted
+ *   ::ellipsa_model, an ::ellipsa_comparison, an accumulator being read, and
+ *   fit options passed to ellipsa_model_fit() or
+ *   ellipsa_model_from_accumulator() may be shared by any number of threads
+ *   at once, as long as no thread modifies the handle meanwhile. (The
+ *   ::ellipsa_sheet_cache is the one handle that threads may share while
+ *   calls change it.)
+ * - A progress callback is called only on the thread that made the call it
+ *   reports on, never on a thread of the library's own. Fit options shared by
+ *   concurrent fits carry one callback and one `user` pointer, so that
+ *   callback is then called from every fitting thread, possibly at the same
+ *   moment: it must be safe to call concurrently, or each thread must use its
+ *   own options handle.
+ * - Randomness comes only from explicit seeds, through the library's own
+ *   generator (std::mt19937_64, whose sequence the C++ standard fixes) and its
+ *   own integer sampling, never from the standard library's distributions or
+ *   the clock: the random choices of a seeded fit (the starting subsets of
+ *   FAST-MCD, the k-means++ starts of a mixture, the relabellings of the
+ *   robust comparison) are the same on every platform.
+ * - Results are bit-identical from run to run, and whatever the number of
+ *   application threads calling the library at once, for the same seed, data
+ *   and options with the same library build and BLAS library on the same
+ *   processor family with the same thread settings. Beyond that they agree to
+ *   rounding only: OpenBLAS chooses its kernels per processor at run time and
+ *   its sums may depend on its thread count, and a choice that rounding
+ *   decides (between two nearly equal subsets or candidates) can then differ.
  */
 #ifndef ELLIPSA_H
 #define ELLIPSA_H
@@ -177,7 +211,8 @@ static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_
 /** @name Progress and cancellation
  *  @{ */
 /**
- * @brief Called by long operations from the calling thread.
+ * @brief Called by long operations on the thread that called them (never on a
+ *        thread of the library's own; see "Threads and reproducibility").
  *
  * @param stage    A short static description of the current stage (e.g.
  *                 "random starts"); never NULL; valid during the call only.
@@ -286,8 +321,10 @@ ELLIPSA_API ellipsa_status ellipsa_hotelling_limit(double *out, int32_t phase, i
 /** @name Fit options
  *  An ::ellipsa_fit_options handle says how to fit: the method and its
  *  settings. Create one, set what differs from the defaults, pass it to
- *  ellipsa_model_fit(), reuse it or destroy it. A handle is used by one thread at
- *  a time; ellipsa_model_fit() only reads it. A setter whose setting the
+ *  ellipsa_model_fit(), reuse it or destroy it. Setters need the handle to
+ *  themselves; ellipsa_model_fit() only reads it, so concurrent fits may
+ *  share it (see "Threads and reproducibility" at the top: its progress
+ *  callback is then called from each fitting thread). A setter whose setting the
  *  handle's method does not use (a seed for detmcd, components for classical)
  *  returns ::ELLIPSA_ERR_ARGUMENT and names the methods it applies to.
  *  @{ */
@@ -319,6 +356,41 @@ typedef int32_t ellipsa_method;
 #define ELLIPSA_STRUCTURE_TIED 3      /**< One full matrix shared by all components. */
 #define ELLIPSA_STRUCTURE_SPHERICAL 4 /**< One variance per component. */
 #define ELLIPSA_STRUCTURE_ALL 5       /**< Model choice: try all four. */
+
+/**
+ * @brief The name of a covariance structure: "full", "diagonal", "tied", "spherical", "all".
+ *
+ * These are the names of the model file, the batch tool's `--structure` and
+ * the bindings.
+ * @param structure An ELLIPSA_STRUCTURE_ value.
+ * @return A static string; "unknown" for a value this version does not know. Thread-safe.
+ */
+ELLIPSA_API const char *ellipsa_structure_name(int32_t structure);
+
+/**
+ * @brief The covariance structure with the given name (as ellipsa_structure_name() writes it).
+ * @param[out] out The ELLIPSA_STRUCTURE_ value.
+ * @param name     NUL-terminated name.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (unknown name;
+ *         the message lists the names). Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_structure_from_name(int32_t *out, const char *name);
+
+/**
+ * @brief The name of a missing-value policy: "drop", "refuse", "em".
+ * @param policy An ELLIPSA_MISSING_ value.
+ * @return A static string; "unknown" for a value this version does not know. Thread-safe.
+ */
+ELLIPSA_API const char *ellipsa_missing_name(int32_t policy);
+
+/**
+ * @brief The missing-value policy with the given name (as ellipsa_missing_name() writes it).
+ * @param[out] out The ELLIPSA_MISSING_ value.
+ * @param name     NUL-terminated name.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (unknown name;
+ *         the message lists the names). Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_missing_from_name(int32_t *out, const char *name);
 
 /**
  * @brief Creates fit options for a method, every other setting at its default.
@@ -360,7 +432,8 @@ ELLIPSA_API const char *ellipsa_method_name(ellipsa_method method);
  * @brief Divisor of the classical covariance: ::ELLIPSA_DIVISOR_N or ::ELLIPSA_DIVISOR_N_MINUS_1.
  * @param options The options.
  * @param divisor ::ELLIPSA_DIVISOR_N or ::ELLIPSA_DIVISOR_N_MINUS_1.
- * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (another
+ *         value, or a method other than classical).
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_divisor(ellipsa_fit_options *options,
                                                            int32_t divisor);
@@ -372,7 +445,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_divisor(ellipsa_fit_options *
  * Infinite values are never "missing": fitting refuses them with ::ELLIPSA_ERR_DATA.
  * @param options The options.
  * @param policy  ::ELLIPSA_MISSING_DROP_ROWS, ::ELLIPSA_MISSING_REFUSE or ::ELLIPSA_MISSING_EM.
- * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (an unknown
+ *         policy, or ::ELLIPSA_MISSING_EM for a method other than mixture).
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_missing(ellipsa_fit_options *options,
                                                            int32_t policy);
@@ -400,19 +474,22 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_column_names(ellipsa_fit_opti
  * MRCD: h = ceil(alpha*n), default 0.75 (Boudt et al. 2020) until set.
  * @param options The options.
  * @param alpha   In [0.5, 1].
- * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT outside [0.5, 1].
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (outside
+ *         [0.5, 1], or a method other than mcd, detmcd and mrcd).
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_alpha(ellipsa_fit_options *options,
                                                          double alpha);
 
 /**
- * @brief Seed of the methods that draw random numbers (FAST-MCD, mixtures).
+ * @brief Seed of the methods that draw random numbers (mcd, i.e. FAST-MCD, and mixture).
  *
- * The same seed, data and options give bit-identical results on every run and
- * platform with IEEE doubles.
+ * What a seed guarantees is stated once, under "Threads and reproducibility"
+ * at the top of this header.
  * @param options The options.
  * @param seed    Any 64-bit value.
- * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (a method
+ *         other than mcd and mixture: the others draw no random numbers; the
+ *         message names the methods a seed applies to).
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_seed(ellipsa_fit_options *options,
                                                         uint64_t seed);
@@ -426,7 +503,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_seed(ellipsa_fit_options *opt
  * @param options The options.
  * @param k_min   Smallest K, >= 1.
  * @param k_max   Largest K, >= k_min, <= 100.
- * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (a range
+ *         outside these bounds, or a method other than mixture).
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_options *options,
                                                               int32_t k_min, int32_t k_max);
@@ -435,7 +513,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_option
  * @brief Mixtures: covariance structure (ELLIPSA_STRUCTURE_ values).
  * @param options   The options.
  * @param structure An ELLIPSA_STRUCTURE_ value.
- * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (an unknown
+ *         structure, or a method other than mixture).
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_structure(ellipsa_fit_options *options,
                                                              int32_t structure);
@@ -444,17 +523,21 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_structure(ellipsa_fit_options
  * @brief Mixtures: number of EM runs from different k-means++ starts (>= 1).
  * @param options  The options.
  * @param restarts Number of starts, in [1, 10000].
- * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (outside
+ *         [1, 10000], or a method other than mixture).
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_restarts(ellipsa_fit_options *options,
                                                             int32_t restarts);
 
 /**
- * @brief Iterative methods: iteration cap (>= 1) and relative tolerance (> 0).
+ * @brief Mixtures: EM iteration cap (>= 1) and relative log-likelihood tolerance (> 0).
+ *
+ * The MCD family's C-steps have fixed caps and are not set here.
  * @param options        The options.
  * @param max_iterations Iteration cap, >= 1.
  * @param tolerance      Relative change below which an iteration stops, finite and > 0.
- * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (a value out
+ *         of range, or a method other than mixture).
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_options *options,
                                                               int32_t max_iterations,
@@ -465,7 +548,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_option
  *        mean column variance of the data (>= 0; default 1e-6).
  * @param options  The options.
  * @param relative Multiple of the mean column variance, finite and >= 0.
- * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (negative
+ *         or not finite, or a method other than mixture).
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_regularisation(ellipsa_fit_options *options,
                                                                   double relative);
@@ -473,7 +557,9 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_regularisation(ellipsa_fit_op
 /**
  * @brief A progress callback for ellipsa_model_fit() (NULL removes it).
  * @param options  The options.
- * @param callback Called from the fitting thread during ellipsa_model_fit(), or NULL.
+ * @param callback Called on the thread that called ellipsa_model_fit(), during that
+ *                 call, or NULL. Options shared by concurrent fits call it from
+ *                 each of their threads, possibly at once.
  * @param user     Passed to the callback unchanged; not dereferenced by the library.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (options).
  */
@@ -583,12 +669,12 @@ typedef struct ellipsa_model ellipsa_model;
  * @param options      How to fit; not modified.
  * @return ::ELLIPSA_OK;
  *   ::ELLIPSA_ERR_NULL (out, data, options or data->data with a non-empty shape);
- *   ::ELLIPSA_ERR_SHAPE (negative sizes or strides, column names that do not
- *     match p, rows*cols overflowing);
- *   ::ELLIPSA_ERR_ARGUMENT (a setting that does not apply to the method);
+ *   ::ELLIPSA_ERR_SHAPE (no columns, negative sizes or strides, column names
+ *     that do not match p, rows*cols overflowing);
  *   ::ELLIPSA_ERR_DATA (too few complete rows, an infinite value, an all-missing
  *     or constant column: the message names the column; mixtures: no candidate
- *     of the model choice could be fitted);
+ *     of the model choice could be fitted; too few rows for the scoring
+ *     reference set with ellipsa_fit_options_set_reference());
  *   ::ELLIPSA_NUM_SINGULAR (a covariance that is not positive definite: the
  *     message names the columns involved and suggests shrinkage);
  *   ::ELLIPSA_NUM_EXACT_FIT (MCD: at least h rows on a hyperplane; the message
@@ -597,7 +683,8 @@ typedef struct ellipsa_model ellipsa_model;
  *     the columns of a singular scatter fails; a mixture that reaches its
  *     iteration cap is returned with ::ELLIPSA_OK, see above);
  *   ::ELLIPSA_ERR_CANCELLED; ::ELLIPSA_ERR_MEMORY.
- * Thread-safe for distinct options handles (and for one handle shared read-only).
+ * Thread-safe for distinct options handles and for one handle shared by
+ * concurrent fits (its progress callback is then called from each of them).
  */
 ELLIPSA_API ellipsa_status ellipsa_model_fit(ellipsa_model **out, const ellipsa_matrix *data,
                                              const ellipsa_fit_options *options);
@@ -617,8 +704,9 @@ ELLIPSA_API void ellipsa_model_destroy(ellipsa_model *model);
  *  Golub & LeVeque 1979, and the power sums of the row norms that the
  *  Ledoit-Wolf intensity needs, moved to the merged mean the same way);
  *  accumulators of disjoint pieces merge exactly; the model is made at the end.
- *  Memory is O(p^2) whatever the number of rows. An accumulator is used by one
- *  thread at a time.
+ *  Memory is O(p^2) whatever the number of rows. An accumulator being added
+ *  to is used by one thread at a time; one that is only read may be shared
+ *  (see "Threads and reproducibility" at the top).
  *  @{ */
 /** Opaque streaming accumulator of mean, cross-products and norm power sums. */
 typedef struct ellipsa_accumulator ellipsa_accumulator;
@@ -672,6 +760,50 @@ ELLIPSA_API ellipsa_status ellipsa_accumulator_merge(ellipsa_accumulator *into,
  */
 ELLIPSA_API ellipsa_status ellipsa_accumulator_rows(int64_t *added, int64_t *skipped,
                                                     const ellipsa_accumulator *accumulator);
+
+/**
+ * @brief Writes the whole state of an accumulator as bytes, to store it or to
+ *        send it to another process, where ellipsa_accumulator_load() rebuilds it.
+ *
+ * The bytes are a versioned binary format, the same on every machine
+ * (little-endian; doubles as their IEEE 754 bits): an 8-byte magic
+ * "ELLACCUM", the format version (uint32, now 1), a reserved uint32 0, the
+ * total length (uint64), the payload, and an FNV-1a 64-bit checksum of every
+ * byte before it (uint64); docs/distributed.md gives the payload. The round
+ * trip is exact: a loaded accumulator gives the same bits as the saved one
+ * under the same later adds, merges and ellipsa_model_from_accumulator(), so
+ * processes that merge accumulators in a fixed order get the model of one
+ * process merging the same pieces in that order. Size: 8 (p (p + 1) / 2 +
+ * 5 p + 13) bytes; a p over a few thousand needs much memory.
+ * @param[out] bytes   The bytes (binary, not NUL-terminated), allocated by the
+ *                     library; free them with ellipsa_text_free().
+ * @param[out] length  Number of bytes.
+ * @param accumulator  The accumulator (not modified).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_MEMORY.
+ * Thread-safe for distinct accumulators (and one read by several threads).
+ */
+ELLIPSA_API ellipsa_status ellipsa_accumulator_save(char **bytes, int64_t *length,
+                                                    const ellipsa_accumulator *accumulator);
+
+/**
+ * @brief Rebuilds an accumulator from bytes written by ellipsa_accumulator_save().
+ *
+ * Everything is checked before anything is used: the magic, the format
+ * version (a newer one than this library reads is refused), the length stated
+ * in the header against the length given (truncated or extended bytes), the
+ * checksum (changed bytes), p in [1, 100000] and the payload size it implies,
+ * finite numbers, and counts that fit together (weight equal to the row
+ * count, non-negative sums of squares).
+ * @param[out] out  The accumulator, or NULL on failure; destroy it with
+ *                  ellipsa_accumulator_destroy().
+ * @param bytes     The bytes.
+ * @param length    Number of bytes, > 0.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (length);
+ *         ::ELLIPSA_ERR_FORMAT (the message says which check failed);
+ *         ::ELLIPSA_ERR_MEMORY. Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_accumulator_load(ellipsa_accumulator **out, const char *bytes,
+                                                    int64_t length);
 
 /**
  * @brief Makes a classical or shrinkage Gaussian model from an accumulator.
@@ -784,11 +916,19 @@ ELLIPSA_API ellipsa_status ellipsa_model_raw_estimate(double *location, int64_t 
  * Names (each exists only for the methods listed; others give
  * ::ELLIPSA_ERR_STATE): "shrinkage_intensity" (ledoit-wolf, oas, mrcd),
  * "h", "consistency_factor", "reweight_factor", "raw_log_det" (mcd, detmcd,
- * mrcd; for mrcd "reweight_factor" is its median calibration, the final
- * scatter = that factor times the regularised subset scatter, chosen so that
- * the median squared distance of the fitting rows is the chi-square median),
- * "consistency_rule" (mcd, detmcd, mrcd: the ELLIPSA_CONSISTENCY_ value;
- * mrcd always 0), "log_likelihood", "bic", "icl", "iterations", "converged" (1 when
+ * mrcd), "consistency_rule" (mcd, detmcd, mrcd: the ELLIPSA_CONSISTENCY_
+ * value; mrcd always 0). For mcd and detmcd, "consistency_factor" scales the
+ * raw scatter (see ellipsa_fit_options_set_consistency()) and
+ * "reweight_factor" is the consistency factor of the reweighted scatter for
+ * the rows kept at chi2q(p, 0.975). MRCD has no reweighting step: its
+ * "consistency_factor" is the one applied to the regularised subset scatter
+ * inside the C-steps, and its "reweight_factor" is the median calibration of
+ * the result, med(d2) / chi2q(p, 0.5) over the fitting rows' distances under
+ * the regularised scatter; the final scatter is that factor times the raw
+ * (regularised) scatter of ellipsa_model_raw_estimate(), the location is the
+ * raw one, and ::ELLIPSA_ROWS_OUTLIERS holds the rows whose distance under
+ * the final scatter exceeds chi2q(p, 0.975), the rows scoring flags at level
+ * 0.975 against the chi-square. "log_likelihood", "bic", "icl", "iterations", "converged" (1 when
  * the chosen EM run met its tolerance, 0 when it stopped at the iteration cap),
  * "parameters", "log_density_cutoff" (mixture), "log_det" (gaussian models),
  * "divisor" (1 for n, 2 for n-1; classical), "small_sample_raw",
@@ -938,8 +1078,11 @@ typedef struct ellipsa_scores {
  * @param level     Flagging level in (0, 1), e.g. 0.975.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_SHAPE (column count,
  *         negative sizes or strides, struct_size too small);
- *         ::ELLIPSA_ERR_ARGUMENT (level); ::ELLIPSA_ERR_DATA (an infinite value);
- *         ::ELLIPSA_ERR_MEMORY.
+ *         ::ELLIPSA_ERR_ARGUMENT (level); ::ELLIPSA_ERR_DATA (an infinite value:
+ *         the message names its data row and column);
+ *         ::ELLIPSA_NUM_SINGULAR (the scatter block of a row's observed
+ *         coordinates cannot be factored: only for a scatter at the edge of
+ *         singularity); ::ELLIPSA_ERR_MEMORY.
  */
 ELLIPSA_API ellipsa_status ellipsa_model_score(ellipsa_scores *out, const ellipsa_model *model,
                                                const ellipsa_matrix *data, double level);
@@ -1006,6 +1149,60 @@ ELLIPSA_API ellipsa_status ellipsa_reference_from_name(int32_t *out, const char 
 ELLIPSA_API ellipsa_status ellipsa_model_score_v2(ellipsa_scores *out, const ellipsa_model *model,
                                                   const ellipsa_matrix *data, double level,
                                                   int32_t reference);
+/** @} */
+
+/* ======================================================================== */
+/** @name Threads
+ *  Fits and scoring split their rows into fixed chunks (boundaries that do not
+ *  depend on the thread count) and merge the chunks' results in a fixed order,
+ *  so a model and its scores are bit-identical whatever the thread count.
+ *  A thread count of 0 means: the environment variable `ELLIPSA_THREADS` (a
+ *  whole number from 1 to 256) when it is set, else the cores the process may
+ *  run on. The variable is read at each call that resolves the default. With
+ *  more than one thread, set `OPENBLAS_NUM_THREADS=1` (or the equivalent of
+ *  your BLAS) so that BLAS does not start its own threads inside ours; results
+ *  do not depend on it. Progress callbacks are called from the calling thread
+ *  only. Threads parallelise: the classical and shrinkage moments, scoring of
+ *  Gaussian models, the full-data C-steps of mcd, and the E-step and weighted
+ *  moments of mixtures; other parts run on the calling thread.
+ *  @{ */
+
+/**
+ * @brief Threads a fit may use (default 0: `ELLIPSA_THREADS` or the available cores).
+ *
+ * Applies to every method; the fitted model does not depend on it.
+ * @param options The options.
+ * @param threads 0 (the default rule above) or a count in [1, 256].
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (threads
+ *         outside [0, 256]). A fit with threads 0 returns ::ELLIPSA_ERR_ARGUMENT
+ *         when `ELLIPSA_THREADS` is set to anything but a whole number in [1, 256].
+ *         Not thread-safe on one options handle.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_threads(ellipsa_fit_options *options,
+                                                           int32_t threads);
+
+/**
+ * @brief Scores rows against a model with a chosen scoring reference on a chosen number of threads.
+ *
+ * As ellipsa_model_score_v2() (which is this call with threads 0), with the
+ * thread count given: 0 for `ELLIPSA_THREADS` or the available cores, else a
+ * count in [1, 256]. The outputs do not depend on it. Only the buffers that
+ * are not NULL are computed: asking for squared distances alone computes no
+ * p-value or contribution.
+ * @param[out] out  Buffers to fill (see ::ellipsa_scores).
+ * @param model     The model (read-only; may be shared by threads).
+ * @param data      n x p view with the model's p columns in the model's order.
+ * @param level     Flagging level in (0, 1), e.g. 0.975.
+ * @param reference An ELLIPSA_REFERENCE_ value.
+ * @param threads   0, or a thread count in [1, 256].
+ * @return As ellipsa_model_score_v2(), and ::ELLIPSA_ERR_ARGUMENT (threads
+ *         outside [0, 256]; threads 0 with `ELLIPSA_THREADS` set to anything but
+ *         a whole number in [1, 256]).
+ * Thread-safe for a shared model.
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_score_v3(ellipsa_scores *out, const ellipsa_model *model,
+                                                  const ellipsa_matrix *data, double level,
+                                                  int32_t reference, int32_t threads);
 /** @} */
 
 /* ======================================================================== */
@@ -1236,8 +1433,10 @@ ELLIPSA_API ellipsa_status ellipsa_model_shape(ellipsa_shape_test *out, const el
 /* ======================================================================== */
 /** @name Model files
  *  The model file is JSON (UTF-8), described in docs/model-format.md, with a
- *  "format_version" field. Numbers are written with 17 significant digits, so
- *  save -> load -> save gives identical bytes and identical scores.
+ *  "format_version" field. Each number is written in the shortest decimal form
+ *  that reads back to the same double (at most 17 significant digits, e.g.
+ *  0.1 as "0.1"), so save -> load -> save gives identical bytes and a loaded
+ *  model gives bit-identical scores.
  *  @{ */
 /**
  * @brief Serialises a model to JSON text.
@@ -1251,8 +1450,9 @@ ELLIPSA_API ellipsa_status ellipsa_model_save(char **text, int64_t *length,
                                               const ellipsa_model *model);
 
 /**
- * @brief Frees text returned by the library; NULL is a no-op.
- * @param text Text from ellipsa_model_save(), or NULL.
+ * @brief Frees text or bytes returned by the library; NULL is a no-op.
+ * @param text Text from ellipsa_model_save(), bytes from
+ *             ellipsa_accumulator_save(), or NULL.
  */
 ELLIPSA_API void ellipsa_text_free(char *text);
 

@@ -49,6 +49,17 @@ inline double diagnostic(const ellipsa_model* m, const char* name) {
   return v;
 }
 
+struct AccFree {
+  void operator()(ellipsa_accumulator* a) const { ellipsa_accumulator_destroy(a); }
+};
+using Acc = std::unique_ptr<ellipsa_accumulator, AccFree>;
+// An empty accumulator of p columns, asserting that creation succeeds.
+inline Acc make_accumulator(int64_t p) {
+  ellipsa_accumulator* a = nullptr;
+  EXPECT_EQ(ellipsa_accumulator_create(&a, p), ELLIPSA_OK);
+  return Acc(a);
+}
+
 inline Options options(ellipsa_method m) {
   ellipsa_fit_options* o = nullptr;
   if (ellipsa_fit_options_create(&o, m) != ELLIPSA_OK) return nullptr;

@@ -12,15 +12,6 @@
 using namespace capi_test;
 
 namespace {
-struct AccFree {
-  void operator()(ellipsa_accumulator* a) const { ellipsa_accumulator_destroy(a); }
-};
-using Acc = std::unique_ptr<ellipsa_accumulator, AccFree>;
-Acc make(int64_t p) {
-  ellipsa_accumulator* a = nullptr;
-  EXPECT_EQ(ellipsa_accumulator_create(&a, p), ELLIPSA_OK);
-  return Acc(a);
-}
 std::vector<double> estimate(const ellipsa_model* m, int64_t p) {
   std::vector<double> v(static_cast<size_t>(p + p * p));
   EXPECT_EQ(ellipsa_model_component(v.data(), p, v.data() + p, p * p, nullptr, m, 0), ELLIPSA_OK);
@@ -31,7 +22,7 @@ std::vector<double> estimate(const ellipsa_model* m, int64_t p) {
 // the two and makes the model of `o`.
 Model streamed_fit(const std::vector<double>& x, int64_t p, std::initializer_list<int64_t> lengths, int64_t split,
                    const ellipsa_fit_options* o) {
-  auto a = make(p), b = make(p);
+  auto a = make_accumulator(p), b = make_accumulator(p);
   int64_t start = 0;
   for (int64_t len : lengths) {
     ellipsa_matrix chunk = ellipsa_matrix_row_major(x.data() + start * p, len, p);
@@ -91,7 +82,7 @@ TEST(Accumulator, ShrinkageFromChunksEqualsOneFit) {
     EXPECT_EQ(got, method);
   }
   // Fewer than 2 rows: a shrinkage fit cannot be made.
-  auto one = make(p);
+  auto one = make_accumulator(p);
   ellipsa_matrix row = ellipsa_matrix_row_major(x.data(), 1, p);
   ASSERT_EQ(ellipsa_accumulator_add(one.get(), &row), ELLIPSA_OK);
   ellipsa_model* m = nullptr;
@@ -103,7 +94,7 @@ TEST(Accumulator, MissingRowsAreSkippedAndCountedInfinityRefused) {
   const int64_t n = 50, p = 3;
   auto x = correlated_rows(n, p, 32);
   x[7 * p + 1] = std::nan("");
-  auto acc = make(p);
+  auto acc = make_accumulator(p);
   ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
   ASSERT_EQ(ellipsa_accumulator_add(acc.get(), &v), ELLIPSA_OK);
   int64_t added = 0, skipped = 0;
@@ -149,7 +140,7 @@ TEST(Accumulator, StatusPaths) {
   EXPECT_EQ(ellipsa_accumulator_create(nullptr, 3), ELLIPSA_ERR_NULL);
   EXPECT_EQ(ellipsa_accumulator_create(&a, 0), ELLIPSA_ERR_ARGUMENT);
   EXPECT_EQ(ellipsa_accumulator_create(&a, -2), ELLIPSA_ERR_ARGUMENT);
-  auto acc = make(3), other = make(2);
+  auto acc = make_accumulator(3), other = make_accumulator(2);
   std::vector<double> x = correlated_rows(3, 3, 33);
   ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), 3, 3);
   ellipsa_matrix narrow = ellipsa_matrix_row_major(x.data(), 4, 2);
@@ -170,7 +161,7 @@ TEST(Accumulator, StatusPaths) {
   EXPECT_EQ(ellipsa_model_from_accumulator(nullptr, acc.get(), o.get()), ELLIPSA_ERR_NULL);
   EXPECT_EQ(m, nullptr);
   // A constant column is named.
-  auto c = make(2);
+  auto c = make_accumulator(2);
   std::vector<double> constant = {1, 5, 2, 5, 3, 5, 4, 5};
   ellipsa_matrix vc = ellipsa_matrix_row_major(constant.data(), 4, 2);
   ASSERT_EQ(ellipsa_accumulator_add(c.get(), &vc), ELLIPSA_OK);

@@ -1,15 +1,19 @@
-// The threading promise of ellipsa.h, tested through the shared library:
-// "no global mutable state; a handle is used by one thread at a time; a fitted
-// model is read-only and may be shared by any number of threads". Concretely:
+// The threading promise of ellipsa.h ("Threads and reproducibility"), tested
+// through the shared library: no global mutable state; handles passed through
+// const pointers (models, fit options given to a fit) may be shared; a
+// progress callback runs only on the thread that made the call. Concretely:
 // fits and scores running at once on many threads give bit-for-bit the results
-// of the same calls made one after another, and ellipsa_last_error() belongs to
-// the calling thread. Built under ThreadSanitizer by scripts/run-tsan.sh, where
+// of the same calls made one after another, a shared options handle calls its
+// callback on each fitting thread and nowhere else, and ellipsa_last_error()
+// belongs to the calling thread. Built under ThreadSanitizer by scripts/run-tsan.sh, where
 // a data race fails the run even when the numbers happen to agree.
 //
 // Threads never call gtest assertions: they record what they saw, and the main
 // thread compares after join().
 #include <gtest/gtest.h>
 
+#include <array>
+#include <atomic>
 #include <barrier>
 #include <cmath>
 #include <cstring>
@@ -80,8 +84,8 @@ void append_bytes(std::vector<unsigned char>& out, const std::vector<T>& v) {
   out.insert(out.end(), b, b + v.size() * sizeof(T));
 }
 
-// Everything observable about one model: its file (17 significant digits, so
-// equal text means equal doubles), its estimates and every score buffer, as
+// Everything observable about one model: its file (shortest round-trip
+// numbers, so equal text means equal doubles), its estimates and every score buffer, as
 // raw bytes so that NaN compares equal to the same NaN and -0 differs from +0.
 struct Outcome {
   ellipsa_status fit_status = -1;
@@ -200,6 +204,73 @@ TEST(Concurrency, FitsOnManyThreadsMatchSerialRunsBitForBit) {
       EXPECT_EQ(seen[t][c].model_text, ref[c].model_text) << kConfigs[c].label << " thread " << t;
       EXPECT_TRUE(seen[t][c].bytes == ref[c].bytes) << kConfigs[c].label << " thread " << t;
     }
+}
+
+namespace {
+// Which test thread is inside a fit (-1: none of ours), for the callback below.
+thread_local int t_fitting_thread = -1;
+
+struct ProgressLog {
+  std::atomic<int> off_thread{0};                 // calls on a thread not inside one of our fits
+  std::array<std::atomic<int>, kThreads> by_thread{};  // calls per fitting thread
+  std::atomic<int> serial{0};                     // calls during the serial reference
+};
+
+int log_progress(const char*, double, void* user) {
+  auto* log = static_cast<ProgressLog*>(user);
+  if (t_fitting_thread == kThreads) log->serial.fetch_add(1);
+  else if (t_fitting_thread < 0) log->off_thread.fetch_add(1);
+  else log->by_thread[static_cast<size_t>(t_fitting_thread)].fetch_add(1);
+  return 0;
+}
+}  // namespace
+
+TEST(Concurrency, SharedOptionsCallTheirProgressCallbackOnEachFittingThread) {
+  // The header ("Threads and reproducibility"): fit options passed to
+  // ellipsa_model_fit() may be shared by concurrent fits; a progress callback
+  // is called only on the thread that made the call, so shared options call
+  // theirs from every fitting thread, and the results are those of serial fits.
+  const auto fit_rows = fitting_rows();
+  const auto score_rows = scoring_rows();
+  ProgressLog log;
+  std::vector<Options> shared;
+  for (const Config& c : kConfigs) {
+    shared.push_back(make_options(c));
+    ASSERT_TRUE(shared.back()) << ellipsa_last_error();
+    ASSERT_EQ(ellipsa_fit_options_set_progress(shared.back().get(), log_progress, &log), ELLIPSA_OK);
+  }
+  // Serial reference with the same shared handles (marked as thread kThreads).
+  std::vector<Outcome> ref;
+  t_fitting_thread = kThreads;
+  for (int c = 0; c < kConfigCount; ++c) ref.push_back(fit_and_observe(shared[c].get(), fit_rows, score_rows));
+  t_fitting_thread = -1;
+  const int serial_calls = log.serial.load();
+  ASSERT_GT(serial_calls, kConfigCount);  // the robust fits and the mixture report progress
+
+  std::vector<std::vector<Outcome>> seen(kThreads, std::vector<Outcome>(kConfigCount));
+  std::barrier start(kThreads);
+  std::vector<std::thread> threads;
+  for (int t = 0; t < kThreads; ++t)
+    threads.emplace_back([&, t] {
+      start.arrive_and_wait();
+      for (int r = 0; r < kConfigCount; ++r) {
+        const int c = (t + r) % kConfigCount;
+        t_fitting_thread = t;
+        seen[t][c] = fit_and_observe(shared[c].get(), fit_rows, score_rows);
+        t_fitting_thread = -1;
+      }
+    });
+  for (auto& th : threads) th.join();
+
+  EXPECT_EQ(log.off_thread.load(), 0);  // never on a thread of the library's own
+  for (int t = 0; t < kThreads; ++t) {
+    // Each thread ran every configuration once: as many calls as the serial run.
+    EXPECT_EQ(log.by_thread[static_cast<size_t>(t)].load(), serial_calls) << "thread " << t;
+    for (int c = 0; c < kConfigCount; ++c) {
+      EXPECT_EQ(seen[t][c].model_text, ref[c].model_text) << kConfigs[c].label << " thread " << t;
+      EXPECT_TRUE(seen[t][c].bytes == ref[c].bytes) << kConfigs[c].label << " thread " << t;
+    }
+  }
 }
 
 TEST(Concurrency, OneFittedModelScoredByManyThreadsMatchesSerialScoring) {

@@ -150,3 +150,21 @@ TEST(CholeskyFailures, ReportedNotAsserted) {
   EXPECT_NEAR(chol.log_determinant(), 3.0 * std::log(4.0), 1e-15);
   EXPECT_EQ(chol.pivot_ratio(), 1.0);
 }
+
+// The residual fraction L_jj^2 / S_jj is 1 - R^2 of column j on the columns
+// before it (algebra of the Cholesky factor: S_jj = sum_k L_jk^2). For a 2 x 2
+// covariance [[a, c], [c, b]] the second column's fraction is 1 - c^2 / (a b),
+// the first column's is 1; the value does not change when columns are rescaled.
+TEST(Cholesky, SmallestResidualFractionIsOneMinusSquaredCorrelationAndUnitFree) {
+  CholeskyFactor chol;
+  Eigen::Matrix2d s;
+  s << 4.0, 1.2, 1.2, 1.0;  // r = 1.2 / 2 = 0.6
+  ASSERT_TRUE(chol.compute(s));
+  EXPECT_NEAR(chol.smallest_residual_fraction(), 1.0 - 0.36, 1e-15);
+  // Rescale column 1 by 1e6 (a variance of 4e12): same fraction, far smaller pivot ratio.
+  const Eigen::Matrix2d scale = Eigen::Vector2d(1e6, 1.0).asDiagonal();
+  ASSERT_TRUE(chol.compute(scale * s * scale));
+  EXPECT_NEAR(chol.smallest_residual_fraction(), 0.64, 1e-14);
+  EXPECT_LT(chol.pivot_ratio(), 1e-12);
+  EXPECT_EQ(CholeskyFactor().smallest_residual_fraction(), 0.0);
+}

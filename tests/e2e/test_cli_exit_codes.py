@@ -61,6 +61,35 @@ few = write(os.path.join(tmp, "few.csv"), "a,b,c\n1,2,3\n")
 expect(["fit", few], 3, "rows")
 const = write(os.path.join(tmp, "const.csv"), "a,b\n1,5\n2,5\n3,5\n4,5\n")
 expect(["fit", const], 3, "constant")
+# An infinite cell ("inf", or a number beyond double range) is refused on
+# every reading path (whole table, streaming fit, streaming score) with the
+# file, the line and the column, before the library sees it.
+inf_rows = "a,b,c\n" + "".join(f"{i},{(i * 7) % 11},{(i * 3) % 5}\n" for i in range(1, 30))
+inf_cell = write(os.path.join(tmp, "inf.csv"), inf_rows.replace("\n4,6,2\n", "\n4,inf,2\n"))
+huge_cell = write(os.path.join(tmp, "huge.csv"), inf_rows.replace("\n4,6,2\n", "\n4,1e999,2\n"))
+where = 'inf.csv:5: column 2 ("b"): the number is infinite or beyond the range of double precision'
+expect(["fit", "--method", "mcd", inf_cell], 3, where)         # whole table
+expect(["fit", "--method", "classical", inf_cell], 3, where)   # streamed
+expect(["screen", inf_cell], 3, where)
+expect(["fit", "--method", "classical", huge_cell], 3, where.replace("inf.csv", "huge.csv"))
+clean = write(os.path.join(tmp, "clean.csv"), inf_rows)
+abc_model = os.path.join(tmp, "abc.json")
+expect(["fit", "--method", "classical", "--quiet", clean, "-o", abc_model], 0)
+expect(["score", abc_model, inf_cell, "-o", os.path.join(tmp, "s_inf.csv")], 3, where)   # streamed
+finite_model = os.path.join(tmp, "finite.json")
+expect(["fit", "--method", "classical", "--quiet", good, "-o", finite_model], 0)
+
+# --verbose exists where it does something (fit: the columns left out) and
+# nowhere else.
+mixed = write(os.path.join(tmp, "mixed.csv"), "id,a,b\n" + "".join(f"r{i},{i},{(i * 7) % 11}\n" for i in range(1, 30)))
+_, err = expect(["fit", "--method", "classical", "--verbose", mixed, "-o", os.path.join(tmp, "v.json")], 0)
+if "skipped column id" not in err:
+    failures.append("fit --verbose lists the skipped column: " + err)
+for args in (["score", finite_model, good], ["screen", good], ["cluster", good],
+             ["report", finite_model, good, "-o", os.path.join(tmp, "r.html")], ["inspect", finite_model],
+             ["compare", good, good]):
+    expect([args[0], "--verbose"] + args[1:], 2, "--verbose")
+
 bad_model = write(os.path.join(tmp, "bad.json"), '{"format": "ellipsa-model", "format_version": 99}')
 expect(["score", bad_model, good], 3, "format_version")
 expect(["inspect", bad_model], 3, "format_version")

@@ -28,9 +28,6 @@ KIND_GAUSSIAN = 1
 KIND_MIXTURE = 2
 
 DIVISORS = {"n": 1, "n-1": 2}
-MISSING_POLICIES = {"drop": 1, "refuse": 2, "em": 3}
-STRUCTURES = {"full": 1, "diagonal": 2, "tied": 3, "spherical": 4, "all": 5}
-STRUCTURE_NAMES = {v: k for k, v in STRUCTURES.items()}
 ROW_SETS = {"h_subset": 1, "outliers": 2, "dropped": 3}
 PHASES = {1: 1, 2: 2, "I": 1, "II": 2}
 
@@ -204,6 +201,10 @@ _SIGNATURES = {
     "ellipsa_fit_options_destroy": (None, [_vp]),
     "ellipsa_method_from_name": (_status, [_i32p, _c.c_char_p]),
     "ellipsa_method_name": (_c.c_char_p, [_c.c_int32]),
+    "ellipsa_structure_from_name": (_status, [_i32p, _c.c_char_p]),
+    "ellipsa_structure_name": (_c.c_char_p, [_c.c_int32]),
+    "ellipsa_missing_from_name": (_status, [_i32p, _c.c_char_p]),
+    "ellipsa_missing_name": (_c.c_char_p, [_c.c_int32]),
     "ellipsa_fit_options_set_divisor": (_status, [_vp, _c.c_int32]),
     "ellipsa_fit_options_set_missing": (_status, [_vp, _c.c_int32]),
     "ellipsa_fit_options_set_column_names": (_status, [_vp, _c.POINTER(_c.c_char_p), _c.c_int64]),

@@ -21,6 +21,17 @@ def _method_code(method):
     return code.value
 
 
+def _named_code(from_name, value):
+    # Names are the library's own (ellipsa_structure_from_name, ...); an
+    # unknown one is a ValueError with the library's message.
+    if isinstance(value, numbers.Integral):
+        return int(value)
+    code = _c.c_int32()
+    if from_name(_c.byref(code), str(value).lower().encode("utf-8")) != 0:
+        raise ValueError(_lib._text(lib.ellipsa_last_error()))
+    return code.value
+
+
 def _lookup(table, value, what):
     if isinstance(value, numbers.Integral):
         return int(value)
@@ -44,15 +55,15 @@ def _set_options(options, p, columns, alpha, seed, components, structure, restar
         kmin, kmax = (components, components) if isinstance(components, numbers.Integral) else components
         check(lib.ellipsa_fit_options_set_components(options, int(kmin), int(kmax)))
     if structure is not None:
-        check(lib.ellipsa_fit_options_set_structure(options, _lookup(_lib.STRUCTURES, structure,
-                                                                     "structure")))
+        check(lib.ellipsa_fit_options_set_structure(options, _named_code(lib.ellipsa_structure_from_name,
+                                                                         structure)))
     if restarts is not None:
         check(lib.ellipsa_fit_options_set_restarts(options, int(restarts)))
     if divisor is not None:
         check(lib.ellipsa_fit_options_set_divisor(options, _lookup(_lib.DIVISORS, divisor, "divisor")))
     if missing is not None:
-        check(lib.ellipsa_fit_options_set_missing(options, _lookup(_lib.MISSING_POLICIES, missing,
-                                                                   "missing policy")))
+        check(lib.ellipsa_fit_options_set_missing(options, _named_code(lib.ellipsa_missing_from_name,
+                                                                       missing)))
     if iterations is not None:
         cap, tolerance = (iterations, 1e-6) if isinstance(iterations, numbers.Integral) else iterations
         check(lib.ellipsa_fit_options_set_iterations(options, int(cap), float(tolerance)))
@@ -344,7 +355,7 @@ class Model(object):
         check(lib.ellipsa_model_selection(table, count.value, _c.byref(count), self._h()))
         return [{
             "components": e.components,
-            "structure": _lib.STRUCTURE_NAMES.get(e.structure, e.structure),
+            "structure": _lib._text(lib.ellipsa_structure_name(e.structure)),
             "log_likelihood": e.log_likelihood,
             "parameters": e.parameters,
             "bic": e.bic,

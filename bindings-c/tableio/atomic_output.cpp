@@ -116,7 +116,18 @@ AtomicOutput::AtomicOutput(const std::string& path) : path_(path) {
     std::snprintf(suffix, sizeof suffix, ".tmp-%ld-%016llx", static_cast<long>(::getpid()),
                   static_cast<unsigned long long>(r));
     temp_path_ = folder + "." + name + suffix;
+    // Registered before the file exists: a signal between the open and a later
+    // registration would leave the file behind (seen under AddressSanitizer,
+    // whose slower start widens that window). The name holds our pid and 64
+    // random bits, so the handler cannot remove anyone else's file.
+    slot_ = register_temp(temp_path_);
     fd = ::open(temp_path_.c_str(), O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0666);
+    if (fd < 0) {
+      const int open_errno = errno;
+      unregister_temp(slot_);
+      slot_ = -1;
+      errno = open_errno;
+    }
     if (fd < 0 && errno != EEXIST) break;
   }
   if (fd < 0) {
@@ -124,7 +135,6 @@ AtomicOutput::AtomicOutput(const std::string& path) : path_(path) {
     temp_path_.clear();
     throw OutputError(message);
   }
-  slot_ = register_temp(temp_path_);
   if (target_exists) (void)::fchmod(fd, target_stat.st_mode & 07777);
   file_ = ::fdopen(fd, "wb");
   if (file_ == nullptr) {

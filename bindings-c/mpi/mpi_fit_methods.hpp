@@ -1,0 +1,22 @@
+// The distributed fits, one per estimator family, and the report they fill.
+#pragma once
+#include <string>
+#include <vector>
+
+#include "driver.hpp"
+
+namespace ellipsa::mpi {
+
+struct FitReport {
+  cli::ModelPtr model;       // rank 0
+  int64_t rows_read = 0;     // this rank's, then (run_fit) the sum over ranks
+  int64_t reductions = 0;    // tree reductions (1 for a streaming fit; one per EM iteration or C-step)
+  int64_t bytes_per_reduction = 0;  // bytes sent by all ranks in one reduction (+ its broadcast)
+  double read_seconds = 0.0, reduce_seconds = 0.0, fit_seconds = 0.0, total_seconds = 0.0;
+};
+
+void fit_streaming(Comm& comm, const FitArgs& a, const std::vector<std::string>& columns, FitReport& report);
+void emit_fit_summary(const Comm& comm, const FitArgs& a, const std::vector<std::string>& columns,
+                      const FitReport& report);
+
+}  // namespace ellipsa::mpi
