@@ -445,15 +445,18 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
   return r;
 }
 
-RobustFit exact_fit_result(DataView x, const Standardised& s, const SubsetFit& subset, Index h) {
-  const Index n = x.rows(), p = x.cols();
-  Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(subset.cov);
-  const Eigen::VectorXd a = es.eigenvectors().col(0);
-  const double lambda_max = std::max(es.eigenvalues()(p - 1), 0.0);
+namespace {
+// The exact fit on the plane a'(z - t) = 0, a the unit normal in standardised
+// units and t the subset's mean; lambda_max (the subset's largest eigenvalue)
+// sets the scale of the on-plane tolerance. Callers choose the normal: the
+// eigenvector of the smallest eigenvalue, or a constant column's axis.
+RobustFit plane_fit_result(DataView x, const Standardised& s, const SubsetFit& subset, const Eigen::VectorXd& a,
+                           double lambda_max, Index h) {
+  const Index n = x.rows();
   // Residuals in standardised units, then the plane in original units:
   // a'(z - t) = (a./scale)'(x - T), so normal = (a./scale)/|a./scale|.
   Eigen::VectorXd rz = (s.z.rowwise() - subset.mean.transpose()) * a;
-  double tol = 1e-9 * std::sqrt(lambda_max);
+  double tol = 1e-9 * std::sqrt(std::max(lambda_max, 0.0));
   for (Index i : subset.rows) tol = std::max(tol, std::abs(rz(i)));
   const Eigen::VectorXd g = a.cwiseQuotient(s.scale);
   const double gnorm = g.norm();
@@ -483,20 +486,26 @@ RobustFit exact_fit_result(DataView x, const Standardised& s, const SubsetFit& s
   r.scatter = scale_both_sides(all_on.cov, s.scale);
   return r;
 }
+}  // namespace
+
+RobustFit exact_fit_result(DataView x, const Standardised& s, const SubsetFit& subset, Index h) {
+  const Index p = x.cols();
+  Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(subset.cov);
+  return plane_fit_result(x, s, subset, es.eigenvectors().col(0), es.eigenvalues()(p - 1), h);
+}
 
 RobustFit constant_column_result(DataView x, const Standardised& s, Index h) {
   std::vector<Index> rows(static_cast<std::size_t>(h));
   for (Index i = 0; i < h; ++i) rows[static_cast<std::size_t>(i)] = i;
-  SubsetFit f = fit_subset(s.z, std::move(rows));
-  // Force the constant column's direction as the normal (other zero
-  // eigenvalues could otherwise be picked in a doubly degenerate case).
+  const SubsetFit f = fit_subset(s.z, std::move(rows));
+  // The constant column's axis is the normal, given directly: with other zero
+  // eigenvalues (a doubly degenerate subset) an eigensolver could return any
+  // vector of the null space. The column's standardised values are exactly 0
+  // (standardise() gives it centre = the value, scale 1), so its row and
+  // column of the scatter are exactly 0 too.
   const Index j = s.constant_column;
-  f.cov.row(j).setZero();
-  f.cov.col(j).setZero();
-  f.cov(j, j) = -1.0;  // smallest eigenvalue, eigenvector e_j
-  RobustFit r = exact_fit_result(x, s, f, h);
-  r.raw_scatter(j, j) = 0.0;
-  return r;
+  Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(f.cov, Eigen::EigenvaluesOnly);
+  return plane_fit_result(x, s, f, Eigen::VectorXd::Unit(x.cols(), j), es.eigenvalues()(x.cols() - 1), h);
 }
 
 }  // namespace mcd_detail

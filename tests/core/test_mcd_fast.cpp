@@ -7,6 +7,7 @@
 #include <cmath>
 
 #include "core/error.hpp"
+#include "core/mcd_deterministic.hpp"
 #include "core/mcd_fast.hpp"
 #include "core/moments.hpp"
 #include "test_mcd_common.hpp"
@@ -200,6 +201,24 @@ TEST(FastMcd, ConstantColumnIsAnExactFit) {
   EXPECT_EQ(f.hyperplane.rows_on, 30);
   EXPECT_NEAR(std::abs(f.hyperplane.normal(1)), 1.0, 1e-15);
   EXPECT_NEAR(f.hyperplane.offset * f.hyperplane.normal(1), -2.5, 1e-12);
+}
+
+// Two constant columns leave a two-dimensional null space: the normal is the
+// first constant column's axis exactly (given, not chosen by an eigensolver),
+// and the plane is that column's value. Exact by construction (core/mcd_common.cpp).
+TEST(FastMcd, TwoConstantColumnsTakeTheFirstAsNormal) {
+  Eigen::MatrixXd x = mcd_test::normal_data(30, 4, 5);
+  x.col(1).setConstant(-2.5);
+  x.col(3).setConstant(4.0);
+  for (const bool deterministic : {false, true}) {
+    const RobustFit f = deterministic ? det_mcd(make_view(x)) : fast_mcd(make_view(x));
+    ASSERT_TRUE(f.exact_fit);
+    EXPECT_EQ(f.hyperplane.rows_on, 30);
+    EXPECT_EQ(f.hyperplane.normal, Eigen::Vector4d::Unit(1));
+    EXPECT_EQ(f.hyperplane.offset, -2.5);
+    EXPECT_EQ(f.raw_scatter(1, 1), 0.0);
+    EXPECT_EQ(f.raw_scatter(3, 3), 0.0);
+  }
 }
 
 TEST(FastMcd, NestedSchemeFindsOutliers) {
