@@ -1,6 +1,7 @@
 #include "missing.hpp"
 
 #include <cmath>
+#include <map>
 #include <numeric>
 #include <string>
 
@@ -115,6 +116,43 @@ void require_finite(DataView x, const char* what) {
   for (Index j = 0; j < x.cols(); ++j)
     for (Index i = 0; i < x.rows(); ++i)
       if (!std::isfinite(x(i, j))) throw_non_finite(i, j, x(i, j), what);
+}
+
+MissingLayout group_missing_patterns(DataView x, const std::vector<Index>& rows, const char* what) {
+  const Index p = x.cols();
+  MissingLayout layout;
+  std::map<std::vector<char>, std::size_t> index_of;  // ordered: a deterministic layout
+  std::vector<char> key(static_cast<std::size_t>(p));
+  for (Index i : rows) {
+    Index observed = 0;
+    for (Index j = 0; j < p; ++j) {
+      const double v = x(i, j);
+      if (std::isinf(v)) throw_infinite_cell(what, i, j, v);
+      const bool seen = !std::isnan(v);
+      key[static_cast<std::size_t>(j)] = seen ? 1 : 0;
+      observed += seen ? 1 : 0;
+    }
+    if (observed < p) ++layout.incomplete_rows;
+    if (observed == 0) {
+      layout.all_missing_rows.push_back(i);
+      continue;
+    }
+    auto [it, fresh] = index_of.try_emplace(key, layout.patterns.size());
+    if (fresh) {
+      MissingPattern pat;
+      for (Index j = 0; j < p; ++j)
+        (key[static_cast<std::size_t>(j)] ? pat.observed : pat.missing).push_back(j);
+      layout.patterns.push_back(std::move(pat));
+    }
+    layout.patterns[it->second].rows.push_back(i);
+  }
+  return layout;
+}
+
+MissingLayout group_missing_patterns(DataView x, const char* what) {
+  std::vector<Index> all(static_cast<std::size_t>(x.rows()));
+  std::iota(all.begin(), all.end(), Index{0});
+  return group_missing_patterns(x, all, what);
 }
 
 }  // namespace ellipsa::core

@@ -39,4 +39,26 @@ void require_finite(DataView x, const char* what);
 // Inf is not accepted").
 [[noreturn]] void throw_infinite_cell(const char* what, Index row, Index col, double v);
 
+// Rows that share the same set of observed coordinates.
+struct MissingPattern {
+  std::vector<Index> observed;  // column indices, increasing
+  std::vector<Index> missing;   // column indices, increasing
+  std::vector<Index> rows;      // row indices, in the order scanned
+};
+
+struct MissingLayout {
+  std::vector<MissingPattern> patterns;  // every scanned row with at least one observed value
+  std::vector<Index> all_missing_rows;   // scanned rows with no observed value
+  Index incomplete_rows = 0;             // scanned rows with at least one NaN (incl. all-missing)
+};
+
+// Groups the rows of x by their missing pattern (NaN = missing), the one
+// grouping the mixture fit, mixture scoring and the single-profile scorer
+// share. Patterns come in the order of the pattern (not of the rows), so the
+// layout is the same on every run. Throws LocatedError(Data) at the first +-Inf
+// (throw_infinite_cell with `what`).
+MissingLayout group_missing_patterns(DataView x, const char* what);
+// The same over the listed rows only (each row index in 0..n-1).
+MissingLayout group_missing_patterns(DataView x, const std::vector<Index>& rows, const char* what);
+
 }  // namespace ellipsa::core

@@ -165,7 +165,7 @@ class CompleteData final : public EmData {
 
 class IncompleteData final : public EmData {
  public:
-  explicit IncompleteData(DataView x) : x_(x), layout_(group_missing_patterns(x)) {}
+  explicit IncompleteData(DataView x) : x_(x), layout_(group_missing_patterns(x, "mixture")) {}
   Index rows() const override { return x_.rows(); }
   Eigen::MatrixXd log_joint(const MixtureModel& m, const std::vector<CholeskyFactor>&) const override {
     return observed_weighted_log_densities(m, layout_, x_);
@@ -447,7 +447,7 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
   const Index k_count = o.components;
 
   // Which rows take part.
-  const MissingLayout layout = group_missing_patterns(x);  // rejects infinite values
+  const MissingLayout layout = group_missing_patterns(x, "mixture");  // rejects infinite values
   const bool em_missing = o.missing == MissingHandling::EmOverMissing;
   if (em_missing && !layout.all_missing_rows.empty())
     throw Error(ErrorKind::Data, "mixture: row " + std::to_string(layout.all_missing_rows.front()) +

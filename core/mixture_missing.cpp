@@ -1,7 +1,6 @@
 #include "mixture_missing.hpp"
 
 #include <cmath>
-#include <map>
 #include <numbers>
 #include <string>
 
@@ -11,14 +10,6 @@
 
 namespace ellipsa::core {
 namespace {
-
-Eigen::MatrixXd gather(DataView x, const std::vector<Index>& rows, const std::vector<Index>& cols) {
-  Eigen::MatrixXd out(static_cast<Index>(rows.size()), static_cast<Index>(cols.size()));
-  for (std::size_t j = 0; j < cols.size(); ++j)
-    for (std::size_t i = 0; i < rows.size(); ++i)
-      out(static_cast<Index>(i), static_cast<Index>(j)) = x(rows[i], cols[j]);
-  return out;
-}
 
 Eigen::MatrixXd sub_matrix(const Eigen::MatrixXd& s, const std::vector<Index>& r,
                            const std::vector<Index>& c) {
@@ -44,40 +35,6 @@ CholeskyFactor factor_or_throw(const Eigen::MatrixXd& s, Index k) {
 }
 
 }  // namespace
-
-MissingLayout group_missing_patterns(DataView x) {
-  const Index n = x.rows();
-  const Index p = x.cols();
-  MissingLayout layout;
-  std::map<std::vector<char>, std::size_t> index_of;  // ordered: a deterministic layout
-  std::vector<char> key(static_cast<std::size_t>(p));
-  for (Index i = 0; i < n; ++i) {
-    Index observed = 0;
-    for (Index j = 0; j < p; ++j) {
-      const double v = x(i, j);
-      if (std::isinf(v))
-        throw Error(ErrorKind::Data, "row " + std::to_string(i) + ", column " + std::to_string(j) +
-                                         " holds an infinite value (NaN marks a missing value)");
-      const bool seen = !std::isnan(v);
-      key[static_cast<std::size_t>(j)] = seen ? 1 : 0;
-      observed += seen ? 1 : 0;
-    }
-    if (observed < p) ++layout.incomplete_rows;
-    if (observed == 0) {
-      layout.all_missing_rows.push_back(i);
-      continue;
-    }
-    auto [it, fresh] = index_of.try_emplace(key, layout.patterns.size());
-    if (fresh) {
-      MissingPattern pat;
-      for (Index j = 0; j < p; ++j)
-        (key[static_cast<std::size_t>(j)] ? pat.observed : pat.missing).push_back(j);
-      layout.patterns.push_back(std::move(pat));
-    }
-    layout.patterns[it->second].rows.push_back(i);
-  }
-  return layout;
-}
 
 Eigen::MatrixXd observed_weighted_log_densities(const MixtureModel& model,
                                                 const MissingLayout& layout, DataView x) {

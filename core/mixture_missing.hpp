@@ -6,26 +6,10 @@
 #include <vector>
 
 #include "data_view.hpp"
+#include "missing.hpp"
 #include "mixture_em.hpp"
 
 namespace ellipsa::core {
-
-// Rows that share the same set of observed coordinates.
-struct MissingPattern {
-  std::vector<Index> observed;  // column indices, increasing
-  std::vector<Index> missing;   // column indices, increasing
-  std::vector<Index> rows;      // row indices, increasing
-};
-
-struct MissingLayout {
-  std::vector<MissingPattern> patterns;  // every row with at least one observed value
-  std::vector<Index> all_missing_rows;   // rows with no observed value
-  Index incomplete_rows = 0;             // rows with at least one NaN (incl. all-missing)
-};
-
-// Groups the rows of x by their missing pattern (NaN = missing). Throws
-// Error(Data) naming the first infinite value.
-MissingLayout group_missing_patterns(DataView x);
 
 // log pi_k + log phi(x_O; mu_O, Sigma_OO) for every row and component, from the
 // marginal Gaussian of each row's observed coordinates O: n x K. Rows without an

@@ -118,7 +118,7 @@ MixtureScores score_mixture(const MixtureModel& model, DataView x) {
   if (x.cols() != model.dimension())
     throw Error(ErrorKind::Shape, "mixture scoring: the data have " + std::to_string(x.cols()) +
                                       " columns, the model " + std::to_string(model.dimension()));
-  const MissingLayout layout = group_missing_patterns(x);  // also rejects infinite values
+  const MissingLayout layout = group_missing_patterns(x, "mixture scoring");  // also rejects infinite values
   Eigen::MatrixXd lj = observed_weighted_log_densities(model, layout, x);
   MixtureScores s;
   // Rows without any observed value stay NaN through the normalisation.

@@ -5,7 +5,6 @@
 #include <limits>
 #include <numbers>
 #include <string>
-#include <unordered_map>
 #include <utility>
 #include <vector>
 
@@ -124,7 +123,7 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
     std::vector<Index> rows;
   };
   std::vector<Scratch> scratch(static_cast<std::size_t>(parallel_workers(opt.threads, chunks)));
-  std::vector<std::vector<std::pair<std::vector<bool>, Index>>> set_aside(static_cast<std::size_t>(chunks));
+  std::vector<std::vector<Index>> set_aside(static_cast<std::size_t>(chunks));  // incomplete rows per chunk
   parallel_for(opt.threads, chunks, [&](Index c, int worker) {
     Scratch& s = scratch[static_cast<std::size_t>(worker)];
     if (s.block.rows() == 0) {
@@ -145,37 +144,29 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
         s.rows[static_cast<std::size_t>(kept++)] = i;
         continue;
       }
-      std::vector<bool> missing(static_cast<std::size_t>(p));
-      for (Index j = 0; j < p; ++j) {
-        const double v = block(k, j);
-        if (std::isinf(v)) throw_infinite(i, j, v);
-        missing[static_cast<std::size_t>(j)] = std::isnan(v);
-      }
-      aside.emplace_back(std::move(missing), i);
+      for (Index j = 0; j < p; ++j)
+        if (std::isinf(block(k, j))) throw_infinite(i, j, block(k, j));
+      aside.push_back(i);
     }
     if (kept == 0) return;
     block.topRows(kept).rowwise() -= location_.transpose();
     score_block(full, block.topRows(kept), s.work, s.rows.data(), opt, out);
   });
-  std::unordered_map<std::vector<bool>, std::vector<Index>> patterns;
-  for (auto& aside : set_aside)
-    for (auto& [missing, i] : aside) patterns[std::move(missing)].push_back(i);
+  std::vector<Index> incomplete;
+  for (const auto& aside : set_aside) incomplete.insert(incomplete.end(), aside.begin(), aside.end());
+  const MissingLayout layout = group_missing_patterns(x, incomplete, "scoring");
+  for (Index i : layout.all_missing_rows) {
+    out.d2(i) = kNaN;
+    out.df(i) = 0;
+    if (opt.log_densities) log_det(i) = kNaN;
+  }
 
   // One factorisation per missingness pattern: the marginal of the observed
   // coordinates o is N(T_o, S_oo).
-  for (const auto& [missing, members] : patterns) {
-    std::vector<Index> observed;
-    for (Index j = 0; j < p; ++j)
-      if (!missing[static_cast<std::size_t>(j)]) observed.push_back(j);
+  for (const MissingPattern& pattern : layout.patterns) {
+    const std::vector<Index>& observed = pattern.observed;
+    const std::vector<Index>& members = pattern.rows;
     const Index q = static_cast<Index>(observed.size());
-    if (q == 0) {
-      for (Index i : members) {
-        out.d2(i) = kNaN;
-        out.df(i) = 0;
-        if (opt.log_densities) log_det(i) = kNaN;
-      }
-      continue;
-    }
     ++out.missing_patterns;
     Eigen::MatrixXd sub(q, q);
     for (Index b = 0; b < q; ++b)

@@ -98,6 +98,23 @@ TEST(Messages, ScoringNamesTheCellWithTheModelsColumnNames) {
                     "value, Inf is not accepted");
 }
 
+TEST(Messages, MixtureScoringNamesTheCellLikeTheSingleProfile) {
+  Named d;
+  Options o = named_options(ELLIPSA_METHOD_MIXTURE);
+  ASSERT_EQ(ellipsa_fit_options_set_components(o.get(), 1, 2), ELLIPSA_OK);
+  ellipsa_model* raw = nullptr;
+  const ellipsa_matrix v = d.view();
+  ASSERT_EQ(ellipsa_model_fit(&raw, &v, o.get()), ELLIPSA_OK);
+  Model m(raw);
+  std::vector<double> rows = correlated_rows(4, 3, 43);
+  rows[1 * 3 + 0] = NAN;        // an incomplete row before it is scored on its pattern
+  rows[2 * 3 + 2] = INFINITY;   // data row 3, "mass"
+  const ellipsa_matrix s = ellipsa_matrix_row_major(rows.data(), 4, 3);
+  ScoreBuffers b(4, 3);
+  EXPECT_EQ(ellipsa_model_score(&b.scores, m.get(), &s, 0.975), ELLIPSA_ERR_DATA);
+  EXPECT_EQ(last(), std::string("ellipsa_model_score: data row 3, column \"mass\" ") + kInfinite);
+}
+
 TEST(Messages, AccumulatorNamesTheCellOfTheChunkPassed) {
   ellipsa_accumulator* acc = nullptr;
   ASSERT_EQ(ellipsa_accumulator_create(&acc, 3), ELLIPSA_OK);
