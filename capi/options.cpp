@@ -7,73 +7,45 @@
 #include <new>
 
 #include "boundary.hpp"
+#include "name_table.hpp"
 
 using ellipsa::capi::guard;
 using ellipsa::capi::Misuse;
 using ellipsa::capi::require_not_null;
 
 namespace ellipsa::capi {
-const char* method_name(ellipsa_method m);
 namespace {
-struct MethodName {
-  ellipsa_method method;
-  const char* name;
-};
-constexpr MethodName kMethodNames[] = {
+constexpr Named<ellipsa_method> kMethodNames[] = {
     {ELLIPSA_METHOD_CLASSICAL, "classical"}, {ELLIPSA_METHOD_LEDOIT_WOLF, "ledoit-wolf"},
     {ELLIPSA_METHOD_OAS, "oas"},             {ELLIPSA_METHOD_MCD, "mcd"},
     {ELLIPSA_METHOD_DETMCD, "detmcd"},       {ELLIPSA_METHOD_MRCD, "mrcd"},
     {ELLIPSA_METHOD_MIXTURE, "mixture"}};
+// The structures a single fit uses; ALL ("try each") is a selection setting
+// only, accepted where allow_all says so.
+constexpr Named<int32_t> kStructureNames[] = {{ELLIPSA_STRUCTURE_FULL, "full"},
+                                              {ELLIPSA_STRUCTURE_DIAGONAL, "diagonal"},
+                                              {ELLIPSA_STRUCTURE_TIED, "tied"},
+                                              {ELLIPSA_STRUCTURE_SPHERICAL, "spherical"},
+                                              {ELLIPSA_STRUCTURE_ALL, "all"}};
+constexpr Named<int32_t> kMissingNames[] = {
+    {ELLIPSA_MISSING_DROP_ROWS, "drop"}, {ELLIPSA_MISSING_REFUSE, "refuse"}, {ELLIPSA_MISSING_EM, "em"}};
 }  // namespace
 
-bool is_known_method(ellipsa_method m) {
-  for (const auto& e : kMethodNames)
-    if (e.method == m) return true;
-  return false;
-}
+bool is_known_method(ellipsa_method m) { return has_value(kMethodNames, m); }
 
-const char* method_name(ellipsa_method m) {
-  for (const auto& e : kMethodNames)
-    if (e.method == m) return e.name;
-  return "unknown";
-}
+const char* method_name(ellipsa_method m) { return name_in(kMethodNames, m); }
 
-bool method_from_name(const char* name, ellipsa_method* out) {
-  for (const auto& e : kMethodNames)
-    if (std::strcmp(e.name, name) == 0) {
-      *out = e.method;
-      return true;
-    }
-  return false;
-}
-// The one spelling of each structure and missing-value policy: the model
-// file, the sheet functions, the batch tool and the bindings use these.
-const char* structure_name(int32_t structure) {
-  switch (structure) {
-    case ELLIPSA_STRUCTURE_FULL: return "full";
-    case ELLIPSA_STRUCTURE_DIAGONAL: return "diagonal";
-    case ELLIPSA_STRUCTURE_TIED: return "tied";
-    case ELLIPSA_STRUCTURE_SPHERICAL: return "spherical";
-    case ELLIPSA_STRUCTURE_ALL: return "all";
-  }
-  return "unknown";
-}
+bool method_from_name(const char* name, ellipsa_method* out) { return value_in(kMethodNames, name, out); }
+
+const char* structure_name(int32_t structure) { return name_in(kStructureNames, structure); }
 
 int32_t structure_from_name(const std::string& name, bool allow_all) {
-  const int32_t last = allow_all ? ELLIPSA_STRUCTURE_ALL : ELLIPSA_STRUCTURE_SPHERICAL;
-  for (int32_t v = ELLIPSA_STRUCTURE_FULL; v <= last; ++v)
-    if (name == structure_name(v)) return v;
-  return 0;
+  int32_t v = 0;
+  if (!value_in(kStructureNames, name.c_str(), &v) || (v == ELLIPSA_STRUCTURE_ALL && !allow_all)) return 0;
+  return v;
 }
 
-const char* missing_name(int32_t policy) {
-  switch (policy) {
-    case ELLIPSA_MISSING_DROP_ROWS: return "drop";
-    case ELLIPSA_MISSING_REFUSE: return "refuse";
-    case ELLIPSA_MISSING_EM: return "em";
-  }
-  return "unknown";
-}
+const char* missing_name(int32_t policy) { return name_in(kMissingNames, policy); }
 
 }  // namespace ellipsa::capi
 
@@ -125,9 +97,8 @@ ELLIPSA_API ellipsa_status ellipsa_method_from_name(ellipsa_method* out, const c
     require_not_null(name, "name");
     ellipsa_method m{};
     if (!ellipsa::capi::method_from_name(name, &m))
-      throw Misuse{ELLIPSA_ERR_ARGUMENT,
-                   std::string("unknown method '") + name +
-                       "' (known: classical, ledoit-wolf, oas, mcd, detmcd, mrcd, mixture)"};
+      throw Misuse{ELLIPSA_ERR_ARGUMENT, std::string("unknown method '") + name + "' (known: " +
+                                             ellipsa::capi::known_names(ellipsa::capi::kMethodNames) + ")"};
     *out = m;
     return ELLIPSA_OK;
   });
@@ -147,8 +118,8 @@ ELLIPSA_API ellipsa_status ellipsa_structure_from_name(int32_t* out, const char*
     require_not_null(name, "name");
     const int32_t s = ellipsa::capi::structure_from_name(name, true);
     if (s == 0)
-      throw Misuse{ELLIPSA_ERR_ARGUMENT, std::string("unknown covariance structure '") + name +
-                                             "' (known: full, diagonal, tied, spherical, all)"};
+      throw Misuse{ELLIPSA_ERR_ARGUMENT, std::string("unknown covariance structure '") + name + "' (known: " +
+                                             ellipsa::capi::known_names(ellipsa::capi::kStructureNames) + ")"};
     *out = s;
     return ELLIPSA_OK;
   });
@@ -160,13 +131,9 @@ ELLIPSA_API ellipsa_status ellipsa_missing_from_name(int32_t* out, const char* n
   return guard("ellipsa_missing_from_name", [&] {
     require_not_null(out, "out");
     require_not_null(name, "name");
-    for (int32_t p : {ELLIPSA_MISSING_DROP_ROWS, ELLIPSA_MISSING_REFUSE, ELLIPSA_MISSING_EM})
-      if (std::strcmp(name, ellipsa::capi::missing_name(p)) == 0) {
-        *out = p;
-        return ELLIPSA_OK;
-      }
-    throw Misuse{ELLIPSA_ERR_ARGUMENT,
-                 std::string("unknown missing-value policy '") + name + "' (known: drop, refuse, em)"};
+    if (ellipsa::capi::value_in(ellipsa::capi::kMissingNames, name, out)) return ELLIPSA_OK;
+    throw Misuse{ELLIPSA_ERR_ARGUMENT, std::string("unknown missing-value policy '") + name + "' (known: " +
+                                           ellipsa::capi::known_names(ellipsa::capi::kMissingNames) + ")"};
   });
 }
 

@@ -10,6 +10,7 @@
 #include <string>
 
 #include "boundary.hpp"
+#include "name_table.hpp"
 #include "core/error.hpp"
 #include "core/mcd_common.hpp"
 #include "core/mcd_small_sample.hpp"
@@ -23,14 +24,10 @@ namespace core = ellipsa::core;
 namespace ellipsa::capi {
 namespace {
 
-struct ReferenceName {
-  int32_t reference;
-  const char* name;
-};
-constexpr ReferenceName kReferenceNames[] = {{ELLIPSA_REFERENCE_MODEL, "model"},
-                                             {ELLIPSA_REFERENCE_CHI2, "chi2"},
-                                             {ELLIPSA_REFERENCE_NEW_ROWS, "new-rows"},
-                                             {ELLIPSA_REFERENCE_FITTING_ROWS, "fitting-rows"}};
+constexpr Named<int32_t> kReferenceNames[] = {{ELLIPSA_REFERENCE_MODEL, "model"},
+                                              {ELLIPSA_REFERENCE_CHI2, "chi2"},
+                                              {ELLIPSA_REFERENCE_NEW_ROWS, "new-rows"},
+                                              {ELLIPSA_REFERENCE_FITTING_ROWS, "fitting-rows"}};
 
 bool is_robust(const ellipsa_model& m) {
   return m.method == ELLIPSA_METHOD_MCD || m.method == ELLIPSA_METHOD_DETMCD || m.method == ELLIPSA_METHOD_MRCD;
@@ -102,20 +99,9 @@ ReferenceRows reference_rows_of(const ellipsa_model& m) {
   return {kept, kept};
 }
 
-const char* reference_name(int32_t reference) {
-  for (const auto& e : kReferenceNames)
-    if (e.reference == reference) return e.name;
-  return "unknown";
-}
+const char* reference_name(int32_t reference) { return name_in(kReferenceNames, reference); }
 
-bool reference_from_name(const char* name, int32_t* out) {
-  for (const auto& e : kReferenceNames)
-    if (std::strcmp(e.name, name) == 0) {
-      *out = e.reference;
-      return true;
-    }
-  return false;
-}
+bool reference_from_name(const char* name, int32_t* out) { return value_in(kReferenceNames, name, out); }
 
 void record_reference(ellipsa_model& m, const ellipsa_fit_options& o) {
   const ReferenceRows rows = reference_rows_of(m);
@@ -186,7 +172,8 @@ ELLIPSA_API ellipsa_status ellipsa_reference_from_name(int32_t* out, const char*
     int32_t r = 0;
     if (!ellipsa::capi::reference_from_name(name, &r))
       throw Misuse{ELLIPSA_ERR_ARGUMENT,
-                   std::string("unknown scoring reference '") + name + "' (known: model, chi2, new-rows, fitting-rows)"};
+                   std::string("unknown scoring reference '") + name + "' (known: " +
+                       ellipsa::capi::known_names(ellipsa::capi::kReferenceNames) + ")"};
     *out = r;
     return ELLIPSA_OK;
   });
