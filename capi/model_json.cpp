@@ -29,6 +29,8 @@ constexpr int kFormatVersion = 2;
 constexpr int64_t kMaxBytes = int64_t{1} << 30;
 constexpr int kMaxDepth = 16;
 constexpr int64_t kMaxDimension = 100000;
+// Row numbers and counts: far beyond any table, far from overflow in sums.
+constexpr int64_t kRowLimit = INT64_MAX / 2;
 
 int32_t structure_from_name(const std::string& s) { return ellipsa::capi::structure_from_name(s, false); }
 using ellipsa::capi::structure_name;
@@ -231,7 +233,11 @@ std::string model_to_json(const ellipsa_model& m) {
   return j.dump(1) + "\n";
 }
 
-ellipsa_model model_from_json(const char* text, int64_t length) {
+namespace {
+
+// Parses the text with the depth guard and checks the format and version:
+// the JSON object, or a format error.
+json parse_model_text(const char* text, int64_t length, int64_t* version) {
   json j;
   try {
     // Refuse deep nesting before it can exhaust the stack.
@@ -247,12 +253,15 @@ ellipsa_model model_from_json(const char* text, int64_t length) {
   if (!j.is_object()) format_error("the top level must be a JSON object");
   if (!field(j, "format").is_string() || field(j, "format").get<std::string>() != "ellipsa-model")
     format_error("\"format\" must be \"ellipsa-model\"");
-  const int64_t version = integer(field(j, "format_version"), "format_version", 1, 1000000);
-  if (version < 1 || version > kFormatVersion)
-    format_error("format_version " + std::to_string(version) + " is not supported (this library reads 1 to " +
+  *version = integer(field(j, "format_version"), "format_version", 1, 1000000);
+  if (*version < 1 || *version > kFormatVersion)
+    format_error("format_version " + std::to_string(*version) + " is not supported (this library reads 1 to " +
                  std::to_string(kFormatVersion) + ")");
+  return j;
+}
 
-  ellipsa_model m;
+// What every model has: kind, method, columns, the rows used and dropped.
+void read_identity(const json& j, ellipsa_model& m) {
   const auto& kind = field(j, "kind");
   if (!kind.is_string()) format_error("\"kind\" must be a string");
   if (kind == "gaussian") m.kind = ELLIPSA_KIND_GAUSSIAN;
@@ -272,137 +281,162 @@ ellipsa_model model_from_json(const char* text, int64_t length) {
     if (!c.is_string()) format_error("every column name must be a string");
     m.columns.push_back(c.get<std::string>());
   }
-  const int64_t p = m.dimension();
-  m.rows_used = integer(field(j, "n_rows_used"), "n_rows_used", 1, INT64_MAX / 2);
-  const int64_t row_limit = INT64_MAX / 2;
-  if (j.contains("dropped_rows")) m.dropped_rows = read_rows(j["dropped_rows"], row_limit, "dropped_rows");
-  m.rows_dropped = j.contains("n_rows_dropped")
-                       ? integer(j["n_rows_dropped"], "n_rows_dropped", 0, INT64_MAX / 2)
-                       : static_cast<int64_t>(m.dropped_rows.size());
+  m.rows_used = integer(field(j, "n_rows_used"), "n_rows_used", 1, kRowLimit);
+  if (j.contains("dropped_rows")) m.dropped_rows = read_rows(j["dropped_rows"], kRowLimit, "dropped_rows");
+  m.rows_dropped = j.contains("n_rows_dropped") ? integer(j["n_rows_dropped"], "n_rows_dropped", 0, kRowLimit)
+                                                : static_cast<int64_t>(m.dropped_rows.size());
   if (m.rows_dropped < static_cast<int64_t>(m.dropped_rows.size()))
     format_error("n_rows_dropped is smaller than the number of dropped_rows");
+}
 
-  if (m.kind == ELLIPSA_KIND_GAUSSIAN) {
-    ellipsa::capi::Component c;
-    c.location = read_vector(field(j, "location"), p, "location");
-    c.scatter = read_scatter(field(j, "scatter"), p, "scatter");
-    m.components.push_back(std::move(c));
-    if (m.method == ELLIPSA_METHOD_CLASSICAL) {
-      const auto& norm = field(j, "normalisation");
-      if (norm == "n") m.divisor = ELLIPSA_DIVISOR_N;
-      else if (norm == "n-1") m.divisor = ELLIPSA_DIVISOR_N_MINUS_1;
-      else format_error("\"normalisation\" must be \"n\" or \"n-1\"");
-    }
-    if (m.method == ELLIPSA_METHOD_LEDOIT_WOLF || m.method == ELLIPSA_METHOD_OAS) {
-      const double s = number(field(j, "shrinkage_intensity"), "shrinkage_intensity");
-      if (s < 0.0 || s > 1.0) format_error("shrinkage_intensity must lie in [0, 1]");
-      m.shrinkage_intensity = s;
-    }
-    if (m.method == ELLIPSA_METHOD_MCD || m.method == ELLIPSA_METHOD_DETMCD ||
-        m.method == ELLIPSA_METHOD_MRCD) {
-      ellipsa::capi::RobustPart r;
-      r.h = integer(field(j, "h"), "h", 1, row_limit);
-      r.raw_location = read_vector(field(j, "raw_location"), p, "raw_location");
-      r.raw_scatter = read_scatter(field(j, "raw_scatter"), p, "raw_scatter");
-      r.h_subset_rows = read_rows(field(j, "h_subset_rows"), row_limit, "h_subset_rows");
-      r.outlier_rows = read_rows(field(j, "outlier_rows"), row_limit, "outlier_rows");
-      r.consistency_factor = number(field(j, "consistency_factor"), "consistency_factor");
-      if (j.contains("consistency_rule")) {
-        const auto& rule = j["consistency_rule"];
-        if (!rule.is_string() || (rule.get<std::string>() != "median" && rule.get<std::string>() != "normal"))
-          format_error("\"consistency_rule\" must be \"normal\" or \"median\"");
-        r.consistency_rule = rule.get<std::string>() == "median" ? ELLIPSA_CONSISTENCY_MEDIAN : ELLIPSA_CONSISTENCY_NORMAL;
-      }
-      r.reweight_factor = number(field(j, "reweight_factor"), "reweight_factor");
-      r.raw_log_det = number(field(j, "raw_log_det"), "raw_log_det");
-      if (version >= 2 && (m.method == ELLIPSA_METHOD_MCD || m.method == ELLIPSA_METHOD_DETMCD)) {
-        const auto& f = field(j, "small_sample_factors");
-        if (!f.is_object()) format_error("\"small_sample_factors\" must be an object");
-        r.small_sample_raw = number(field(f, "raw"), "small_sample_factors.raw");
-        r.small_sample_reweighted = number(field(f, "reweighted"), "small_sample_factors.reweighted");
-        if (!(r.small_sample_raw > 0.0) || !(r.small_sample_reweighted > 0.0))
-          format_error("small_sample_factors must be positive");
-      }
-      if (j.contains("regularisation")) {
-        const auto& reg = j["regularisation"];
-        if (!reg.is_object()) format_error("\"regularisation\" must be an object");
-        r.regularisation = number(field(reg, "rho"), "regularisation.rho");
-        if (!field(reg, "target").is_string()) format_error("regularisation.target must be a string");
-        r.regularisation_target = reg["target"].get<std::string>();
-        m.shrinkage_intensity = r.regularisation;
-      }
-      m.robust = std::move(r);
-    }
-    if (version >= 2) read_reference(j, m);
-    else {  // format 1: chi-square, other references on request
-      const ReferenceRows rows = reference_rows_of(m);
-      m.reference_rows = rows.new_rows;
-      m.fitting_reference_rows = rows.fitting_rows;
-    }
-  } else {
-    ellipsa::capi::MixturePart x;
-    const auto& st = field(j, "structure");
-    x.structure = st.is_string() ? structure_from_name(st.get<std::string>()) : 0;
-    if (x.structure == 0) format_error("unknown \"structure\"");
-    const auto& comps = field(j, "components");
-    if (!comps.is_array() || comps.empty() || comps.size() > 100)
-      format_error("\"components\" must be an array of 1 to 100 components");
-    double total = 0.0;
-    for (size_t k = 0; k < comps.size(); ++k) {
-      const std::string where = "components[" + std::to_string(k) + "]";
-      if (!comps[k].is_object()) format_error(where + " must be an object");
-      ellipsa::capi::Component c;
-      c.weight = number(field(comps[k], "weight"), where + ".weight");
-      if (!(c.weight > 0.0 && c.weight <= 1.0)) format_error(where + ".weight must lie in (0, 1]");
-      total += c.weight;
-      c.location = read_vector(field(comps[k], "location"), p, where + ".location");
-      c.scatter = read_scatter(field(comps[k], "scatter"), p, where + ".scatter");
-      m.components.push_back(std::move(c));
-    }
-    if (std::abs(total - 1.0) > 1e-9) format_error("component weights must sum to 1");
-    x.log_likelihood = number(field(j, "log_likelihood"), "log_likelihood");
-    x.parameters = integer(field(j, "parameters"), "parameters", 1, INT64_MAX / 2);
-    x.bic = number(field(j, "bic"), "bic");
-    x.icl = number(field(j, "icl"), "icl");
-    if (!field(j, "converged").is_boolean()) format_error("\"converged\" must be true or false");
-    x.converged = j["converged"].get<bool>();
-    x.iterations = integer(field(j, "iterations"), "iterations", 0, INT64_MAX / 2);
-    x.log_density_cutoff = number(field(j, "log_density_cutoff"), "log_density_cutoff");
-    x.cutoff_level = number(field(j, "cutoff_level"), "cutoff_level");
-    if (!(x.cutoff_level > 0.0 && x.cutoff_level < 1.0)) format_error("cutoff_level must lie in (0, 1)");
-    if (j.contains("selection")) {
-      const auto& table = j["selection"];
-      if (!table.is_array() || table.size() > 10000) format_error("\"selection\" must be an array");
-      for (size_t i = 0; i < table.size(); ++i) {
-        const std::string where = "selection[" + std::to_string(i) + "]";
-        const auto& e = table[i];
-        if (!e.is_object()) format_error(where + " must be an object");
-        ellipsa::capi::Candidate c;
-        c.components = static_cast<int32_t>(integer(field(e, "components"), where + ".components", 1, 100));
-        c.structure = field(e, "structure").is_string() ? structure_from_name(e["structure"].get<std::string>()) : 0;
-        if (c.structure == 0) format_error(where + ".structure is unknown");
-        auto opt = [&](const char* key) {
-          const auto& v = field(e, key);
-          return v.is_null() ? std::nan("") : number(v, where + "." + key);
-        };
-        c.log_likelihood = opt("log_likelihood");
-        c.parameters = integer(field(e, "parameters"), where + ".parameters", 1, INT64_MAX / 2);
-        c.bic = opt("bic");
-        c.icl = opt("icl");
-        if (!field(e, "converged").is_boolean() || !field(e, "chosen").is_boolean())
-          format_error(where + ": converged and chosen must be true or false");
-        c.converged = e["converged"].get<bool>();
-        c.chosen = e["chosen"].get<bool>();
-        if (e.contains("reason")) {  // optional (files before it was stored have none)
-          if (!e["reason"].is_string()) format_error(where + ".reason must be a string");
-          c.reason = e["reason"].get<std::string>();
-          if (c.reason.size() > 4096) format_error(where + ".reason is longer than 4096 bytes");
-        }
-        x.selection.push_back(c);
-      }
-    }
-    m.mixture = std::move(x);
+// The robust part of an MCD-family model: h, the raw estimate, the subsets,
+// the factors and (MRCD) the regularisation.
+RobustPart read_robust_part(const json& j, int64_t version, ellipsa_model& m) {
+  const int64_t p = m.dimension();
+  RobustPart r;
+  r.h = integer(field(j, "h"), "h", 1, kRowLimit);
+  r.raw_location = read_vector(field(j, "raw_location"), p, "raw_location");
+  r.raw_scatter = read_scatter(field(j, "raw_scatter"), p, "raw_scatter");
+  r.h_subset_rows = read_rows(field(j, "h_subset_rows"), kRowLimit, "h_subset_rows");
+  r.outlier_rows = read_rows(field(j, "outlier_rows"), kRowLimit, "outlier_rows");
+  r.consistency_factor = number(field(j, "consistency_factor"), "consistency_factor");
+  if (j.contains("consistency_rule")) {
+    const auto& rule = j["consistency_rule"];
+    if (!rule.is_string() || (rule.get<std::string>() != "median" && rule.get<std::string>() != "normal"))
+      format_error("\"consistency_rule\" must be \"normal\" or \"median\"");
+    r.consistency_rule = rule.get<std::string>() == "median" ? ELLIPSA_CONSISTENCY_MEDIAN : ELLIPSA_CONSISTENCY_NORMAL;
   }
+  r.reweight_factor = number(field(j, "reweight_factor"), "reweight_factor");
+  r.raw_log_det = number(field(j, "raw_log_det"), "raw_log_det");
+  if (version >= 2 && (m.method == ELLIPSA_METHOD_MCD || m.method == ELLIPSA_METHOD_DETMCD)) {
+    const auto& f = field(j, "small_sample_factors");
+    if (!f.is_object()) format_error("\"small_sample_factors\" must be an object");
+    r.small_sample_raw = number(field(f, "raw"), "small_sample_factors.raw");
+    r.small_sample_reweighted = number(field(f, "reweighted"), "small_sample_factors.reweighted");
+    if (!(r.small_sample_raw > 0.0) || !(r.small_sample_reweighted > 0.0))
+      format_error("small_sample_factors must be positive");
+  }
+  if (j.contains("regularisation")) {
+    const auto& reg = j["regularisation"];
+    if (!reg.is_object()) format_error("\"regularisation\" must be an object");
+    r.regularisation = number(field(reg, "rho"), "regularisation.rho");
+    if (!field(reg, "target").is_string()) format_error("regularisation.target must be a string");
+    r.regularisation_target = reg["target"].get<std::string>();
+    m.shrinkage_intensity = r.regularisation;
+  }
+  return r;
+}
+
+// The single-Gaussian part: location, scatter, what each method adds, and the
+// scoring reference.
+void read_gaussian_part(const json& j, int64_t version, ellipsa_model& m) {
+  const int64_t p = m.dimension();
+  ellipsa::capi::Component c;
+  c.location = read_vector(field(j, "location"), p, "location");
+  c.scatter = read_scatter(field(j, "scatter"), p, "scatter");
+  m.components.push_back(std::move(c));
+  if (m.method == ELLIPSA_METHOD_CLASSICAL) {
+    const auto& norm = field(j, "normalisation");
+    if (norm == "n") m.divisor = ELLIPSA_DIVISOR_N;
+    else if (norm == "n-1") m.divisor = ELLIPSA_DIVISOR_N_MINUS_1;
+    else format_error("\"normalisation\" must be \"n\" or \"n-1\"");
+  }
+  if (m.method == ELLIPSA_METHOD_LEDOIT_WOLF || m.method == ELLIPSA_METHOD_OAS) {
+    const double s = number(field(j, "shrinkage_intensity"), "shrinkage_intensity");
+    if (s < 0.0 || s > 1.0) format_error("shrinkage_intensity must lie in [0, 1]");
+    m.shrinkage_intensity = s;
+  }
+  if (m.method == ELLIPSA_METHOD_MCD || m.method == ELLIPSA_METHOD_DETMCD || m.method == ELLIPSA_METHOD_MRCD)
+    m.robust = read_robust_part(j, version, m);
+  if (version >= 2) {
+    read_reference(j, m);
+  } else {  // format 1: chi-square, other references on request
+    const ReferenceRows rows = reference_rows_of(m);
+    m.reference_rows = rows.new_rows;
+    m.fitting_reference_rows = rows.fitting_rows;
+  }
+}
+
+// A mixture model's selection table: one entry per candidate (K, structure).
+std::vector<Candidate> read_selection(const json& table) {
+  if (!table.is_array() || table.size() > 10000) format_error("\"selection\" must be an array");
+  std::vector<Candidate> out;
+  for (size_t i = 0; i < table.size(); ++i) {
+    const std::string where = "selection[" + std::to_string(i) + "]";
+    const auto& e = table[i];
+    if (!e.is_object()) format_error(where + " must be an object");
+    Candidate c;
+    c.components = static_cast<int32_t>(integer(field(e, "components"), where + ".components", 1, 100));
+    c.structure = field(e, "structure").is_string() ? structure_from_name(e["structure"].get<std::string>()) : 0;
+    if (c.structure == 0) format_error(where + ".structure is unknown");
+    auto opt = [&](const char* key) {
+      const auto& v = field(e, key);
+      return v.is_null() ? std::nan("") : number(v, where + "." + key);
+    };
+    c.log_likelihood = opt("log_likelihood");
+    c.parameters = integer(field(e, "parameters"), where + ".parameters", 1, kRowLimit);
+    c.bic = opt("bic");
+    c.icl = opt("icl");
+    if (!field(e, "converged").is_boolean() || !field(e, "chosen").is_boolean())
+      format_error(where + ": converged and chosen must be true or false");
+    c.converged = e["converged"].get<bool>();
+    c.chosen = e["chosen"].get<bool>();
+    if (e.contains("reason")) {  // optional (files before it was stored have none)
+      if (!e["reason"].is_string()) format_error(where + ".reason must be a string");
+      c.reason = e["reason"].get<std::string>();
+      if (c.reason.size() > 4096) format_error(where + ".reason is longer than 4096 bytes");
+    }
+    out.push_back(c);
+  }
+  return out;
+}
+
+// The mixture part: structure, components, the fit's summary and selection.
+void read_mixture_part(const json& j, ellipsa_model& m) {
+  const int64_t p = m.dimension();
+  ellipsa::capi::MixturePart x;
+  const auto& st = field(j, "structure");
+  x.structure = st.is_string() ? structure_from_name(st.get<std::string>()) : 0;
+  if (x.structure == 0) format_error("unknown \"structure\"");
+  const auto& comps = field(j, "components");
+  if (!comps.is_array() || comps.empty() || comps.size() > 100)
+    format_error("\"components\" must be an array of 1 to 100 components");
+  double total = 0.0;
+  for (size_t k = 0; k < comps.size(); ++k) {
+    const std::string where = "components[" + std::to_string(k) + "]";
+    if (!comps[k].is_object()) format_error(where + " must be an object");
+    ellipsa::capi::Component c;
+    c.weight = number(field(comps[k], "weight"), where + ".weight");
+    if (!(c.weight > 0.0 && c.weight <= 1.0)) format_error(where + ".weight must lie in (0, 1]");
+    total += c.weight;
+    c.location = read_vector(field(comps[k], "location"), p, where + ".location");
+    c.scatter = read_scatter(field(comps[k], "scatter"), p, where + ".scatter");
+    m.components.push_back(std::move(c));
+  }
+  if (std::abs(total - 1.0) > 1e-9) format_error("component weights must sum to 1");
+  x.log_likelihood = number(field(j, "log_likelihood"), "log_likelihood");
+  x.parameters = integer(field(j, "parameters"), "parameters", 1, kRowLimit);
+  x.bic = number(field(j, "bic"), "bic");
+  x.icl = number(field(j, "icl"), "icl");
+  if (!field(j, "converged").is_boolean()) format_error("\"converged\" must be true or false");
+  x.converged = j["converged"].get<bool>();
+  x.iterations = integer(field(j, "iterations"), "iterations", 0, kRowLimit);
+  x.log_density_cutoff = number(field(j, "log_density_cutoff"), "log_density_cutoff");
+  x.cutoff_level = number(field(j, "cutoff_level"), "cutoff_level");
+  if (!(x.cutoff_level > 0.0 && x.cutoff_level < 1.0)) format_error("cutoff_level must lie in (0, 1)");
+  if (j.contains("selection")) x.selection = read_selection(j["selection"]);
+  m.mixture = std::move(x);
+}
+
+}  // namespace
+
+ellipsa_model model_from_json(const char* text, int64_t length) {
+  int64_t version = 0;
+  const json j = parse_model_text(text, length, &version);
+  ellipsa_model m;
+  read_identity(j, m);
+  if (m.kind == ELLIPSA_KIND_GAUSSIAN) read_gaussian_part(j, version, m);
+  else read_mixture_part(j, m);
   finalise(m);
   return m;
 }
