@@ -246,6 +246,108 @@ struct SplitMix64 {
   }
 };
 
+// Stratified sample of the candidates in the windows: one random candidate
+// from each of s equal runs of the candidates in row order (run q is
+// [size q/s, size (q+1)/s)), located by one sweep over the rows' window widths.
+void draw_stratified_sample(const PairWindows& w, long long sample_size, SplitMix64& engine,
+                            std::vector<double>& sample) {
+  sample.resize(static_cast<std::size_t>(sample_size));
+  const long long run_base = w.size / sample_size, run_rest = w.size % sample_size;
+  std::size_t row = 0;
+  long long row_start = 0;  // position of the first candidate of `row`
+  long long run_start = 0;
+  for (long long q = 0; q < sample_size; ++q) {
+    // run_end = floor(size (q+1) / s) without overflow.
+    const long long run_end = run_base * (q + 1) + run_rest * (q + 1) / sample_size;
+    const long long width = run_end - run_start;  // >= 1: size >= 4 s here
+    const double fraction = static_cast<double>(engine() >> 11) * 0x1.0p-53;  // in [0, 1)
+    const long long u = run_start + std::min(width - 1, static_cast<long long>(fraction * static_cast<double>(width)));
+    run_start = run_end;
+    while (u >= row_start + (w.hi[row] - w.lo[row])) {
+      row_start += w.hi[row] - w.lo[row];
+      ++row;
+    }
+    const Index col = w.lo[row] + static_cast<Index>(u - row_start);
+    sample[static_cast<std::size_t>(q)] = w.y[col] - w.y[row];
+  }
+}
+
+// Two trial values bracketing the target: the sample's order statistics at
+// the target's expected place +- 3.5 standard deviations. Without a lower
+// (upper) one the cut is at -inf (+inf): nothing lies below it (everything
+// lies at or below it). `centre` is the expected place itself.
+struct TrialValues {
+  double lo = -std::numeric_limits<double>::infinity();
+  double hi = std::numeric_limits<double>::infinity();
+  double centre = 0.0;
+};
+
+TrialValues trial_values(std::vector<double>& sample, long long rank, long long candidates) {
+  const long long sample_size = static_cast<long long>(sample.size());
+  TrialValues t;
+  const double f = static_cast<double>(rank) / static_cast<double>(candidates);
+  t.centre = f * static_cast<double>(sample_size);
+  const double spread = 3.5 * std::sqrt(static_cast<double>(sample_size) * f * (1.0 - f)) + 2.0;
+  const long long s_lo = static_cast<long long>(std::floor(t.centre - spread));
+  const long long s_hi = static_cast<long long>(std::ceil(t.centre + spread));
+  const bool have_lo = s_lo >= 0, have_hi = s_hi < sample_size;
+  if (have_lo) {
+    std::nth_element(sample.begin(), sample.begin() + s_lo, sample.end());
+    t.lo = sample[static_cast<std::size_t>(s_lo)];
+  }
+  if (have_hi) {
+    // After the first selection everything from s_lo on is >= t.lo.
+    const auto from = sample.begin() + (have_lo ? s_lo : 0);
+    std::nth_element(from, sample.begin() + s_hi, sample.end());
+    t.hi = sample[static_cast<std::size_t>(s_hi)];
+  }
+  return t;
+}
+
+// One round: keeps the candidates on the target's side of the trial values.
+// Returns true, with *answer, when a tie split lands on the target exactly.
+bool narrow_windows(PairWindows& w, long long rank, const TrialValues& t, std::vector<double>& sample,
+                    std::vector<Index>& cut_lo, std::vector<Index>& cut_hi, double* answer) {
+  // below: candidates < t.lo; not_above: candidates <= t.hi.
+  const auto [below, not_above] = w.split(t.lo, t.hi, cut_lo, cut_hi);
+  if (rank <= below) {  // answer < t.lo: keep the candidates below t.lo
+    w.hi.swap(cut_lo);
+    w.size = below;
+  } else if (rank > not_above) {  // answer > t.hi: keep those above t.hi
+    w.lo.swap(cut_hi);
+    w.left_of_windows += not_above;
+    w.size -= not_above;
+  } else if (not_above - below < w.size) {  // t.lo <= answer <= t.hi: keep those between
+    w.hi.swap(cut_hi);
+    w.lo.swap(cut_lo);
+    w.left_of_windows += below;
+    w.size = not_above - below;
+  } else {
+    // No progress: every candidate lies in [t.lo, t.hi], which happens with
+    // heavy ties. Split at one sampled value v instead: the answer is below
+    // v, equal to v, or above it, and either case removes every copy of v.
+    const long long sample_size = static_cast<long long>(sample.size());
+    const std::size_t mid =
+        static_cast<std::size_t>(std::clamp<long long>(static_cast<long long>(t.centre), 0, sample_size - 1));
+    std::nth_element(sample.begin(), sample.begin() + static_cast<std::ptrdiff_t>(mid), sample.end());
+    const double v = sample[mid];
+    const auto [lt, le] = w.split(v, v, cut_lo, cut_hi);
+    if (rank > lt && rank <= le) {
+      *answer = v;
+      return true;
+    }
+    if (rank <= lt) {
+      w.hi.swap(cut_lo);
+      w.size = lt;
+    } else {
+      w.lo.swap(cut_hi);
+      w.left_of_windows += le;
+      w.size -= le;
+    }
+  }
+  return false;
+}
+
 }  // namespace
 
 // Selection of the k-th smallest pairwise difference in the implicit sorted
@@ -289,85 +391,11 @@ double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorX
   const long long sample_size = std::clamp<long long>(static_cast<long long>(n) / 8, 256, 8192);
   const long long enumerate_below = std::max<long long>(static_cast<long long>(n), 4 * sample_size);
   while (w.size > enumerate_below) {
-    // Stratified sample: candidate position u in run q = [size q/s, size (q+1)/s),
-    // located by one sweep over the rows' window widths.
-    sample.resize(static_cast<std::size_t>(sample_size));
-    {
-      const long long run_base = w.size / sample_size, run_rest = w.size % sample_size;
-      std::size_t row = 0;
-      long long row_start = 0;  // position of the first candidate of `row`
-      long long run_start = 0;
-      for (long long q = 0; q < sample_size; ++q) {
-        // run_end = floor(size (q+1) / s) without overflow.
-        const long long run_end = run_base * (q + 1) + run_rest * (q + 1) / sample_size;
-        const long long width = run_end - run_start;  // >= 1: size >= 4 s here
-        const double fraction = static_cast<double>(engine() >> 11) * 0x1.0p-53;  // in [0, 1)
-        const long long u =
-            run_start + std::min(width - 1, static_cast<long long>(fraction * static_cast<double>(width)));
-        run_start = run_end;
-        while (u >= row_start + (w.hi[row] - w.lo[row])) {
-          row_start += w.hi[row] - w.lo[row];
-          ++row;
-        }
-        const Index col = w.lo[row] + static_cast<Index>(u - row_start);
-        sample[static_cast<std::size_t>(q)] = y[static_cast<std::size_t>(col)] - y[row];
-      }
-    }
-    // Target rank among the candidates, and its expected place in the sample
-    // +- 3.5 standard deviations.
+    draw_stratified_sample(w, sample_size, engine, sample);
     const long long rank = k - w.left_of_windows;  // 1-based among the candidates
-    const double f = static_cast<double>(rank) / static_cast<double>(w.size);
-    const double centre = f * static_cast<double>(sample_size);
-    const double spread = 3.5 * std::sqrt(static_cast<double>(sample_size) * f * (1.0 - f)) + 2.0;
-    const long long s_lo = static_cast<long long>(std::floor(centre - spread));
-    const long long s_hi = static_cast<long long>(std::ceil(centre + spread));
-    const bool have_lo = s_lo >= 0, have_hi = s_hi < sample_size;
-    // Without a lower (upper) trial value the cut is at -inf (+inf): nothing
-    // lies below it (everything lies at or below it).
-    double t_lo = -std::numeric_limits<double>::infinity();
-    double t_hi = std::numeric_limits<double>::infinity();
-    if (have_lo) {
-      std::nth_element(sample.begin(), sample.begin() + s_lo, sample.end());
-      t_lo = sample[static_cast<std::size_t>(s_lo)];
-    }
-    if (have_hi) {
-      // After the first selection everything from s_lo on is >= t_lo.
-      const auto from = sample.begin() + (have_lo ? s_lo : 0);
-      std::nth_element(from, sample.begin() + s_hi, sample.end());
-      t_hi = sample[static_cast<std::size_t>(s_hi)];
-    }
-    // below: candidates < t_lo; not_above: candidates <= t_hi.
-    const auto [below, not_above] = w.split(t_lo, t_hi, cut_lo, cut_hi);
-    if (rank <= below) {  // answer < t_lo: keep the candidates below t_lo
-      w.hi.swap(cut_lo);
-      w.size = below;
-    } else if (rank > not_above) {  // answer > t_hi: keep those above t_hi
-      w.lo.swap(cut_hi);
-      w.left_of_windows += not_above;
-      w.size -= not_above;
-    } else if (not_above - below < w.size) {  // t_lo <= answer <= t_hi: keep those between
-      w.hi.swap(cut_hi);
-      w.lo.swap(cut_lo);
-      w.left_of_windows += below;
-      w.size = not_above - below;
-    } else {
-      // No progress: every candidate lies in [t_lo, t_hi], which happens with
-      // heavy ties. Split at one sampled value t instead: the answer is below
-      // t, equal to t, or above it, and either case removes every copy of t.
-      const std::size_t mid = static_cast<std::size_t>(std::clamp<long long>(static_cast<long long>(centre), 0, sample_size - 1));
-      std::nth_element(sample.begin(), sample.begin() + static_cast<std::ptrdiff_t>(mid), sample.end());
-      const double t = sample[mid];
-      const auto [lt, le] = w.split(t, t, cut_lo, cut_hi);
-      if (rank > lt && rank <= le) return t;
-      if (rank <= lt) {
-        w.hi.swap(cut_lo);
-        w.size = lt;
-      } else {
-        w.lo.swap(cut_hi);
-        w.left_of_windows += le;
-        w.size -= le;
-      }
-    }
+    double answer = 0.0;
+    if (narrow_windows(w, rank, trial_values(sample, rank, w.size), sample, cut_lo, cut_hi, &answer))
+      return answer;
   }
   // Few candidates left: everything left of the windows is smaller than the
   // answer, everything right of them larger.
