@@ -10,6 +10,7 @@ packages=(
   doxygen nlohmann-json3-dev libcli11-dev
   r-mathlib                      # reference distribution functions for the tests
   python3 python3-numpy          # Python binding and its smoke test
+  python3-pip python3-setuptools python3-wheel  # pip install of the Python binding (its install test)
   r-base-core                    # R binding and its smoke test
   mono-mcs mono-runtime          # C# binding and its smoke test
   gfortran                       # Fortran binding and its smoke test
