@@ -10,8 +10,10 @@ packages=(
   doxygen nlohmann-json3-dev libcli11-dev
   r-mathlib                      # reference distribution functions for the tests
   python3 python3-numpy          # Python binding and its smoke test
+  python3-pip python3-setuptools python3-wheel  # pip install of the Python binding (its install test)
   r-base-core                    # R binding and its smoke test
   mono-mcs mono-runtime          # C# binding and its smoke test
+  mono-xbuild                    # builds the C# binding's project file (Ellipsa.csproj; its install test)
   gfortran                       # Fortran binding and its smoke test
   clang libclang-rt-14-dev       # fuzz targets (libFuzzer)
   chromium                       # renders the HTML report in its end-to-end test

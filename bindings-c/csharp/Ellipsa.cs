@@ -492,6 +492,24 @@ namespace Ellipsa
         {
             int m; Native.Check(Native.ellipsa_method_from_name(out m, Native.Utf8z(name))); return (Method)m;
         }
+        /// <summary>The library's name of a covariance structure ("full", "diagonal", "tied", "spherical", "all");
+        /// "unknown" for a value the loaded library does not know.</summary>
+        public static string StructureName(Structure s) { return Native.Utf8(Native.ellipsa_structure_name((int)s)); }
+        /// <summary>The covariance structure of a name as StructureName writes it; an unknown name throws
+        /// EllipsaException (ErrArgument) whose message lists the names.</summary>
+        public static Structure StructureFromName(string name)
+        {
+            int s; Native.Check(Native.ellipsa_structure_from_name(out s, Native.Utf8z(name))); return (Structure)s;
+        }
+        /// <summary>The library's name of a missing-value policy ("drop", "refuse", "em");
+        /// "unknown" for a value the loaded library does not know.</summary>
+        public static string MissingName(MissingPolicy m) { return Native.Utf8(Native.ellipsa_missing_name((int)m)); }
+        /// <summary>The missing-value policy of a name as MissingName writes it; an unknown name throws
+        /// EllipsaException (ErrArgument) whose message lists the names.</summary>
+        public static MissingPolicy MissingFromName(string name)
+        {
+            int m; Native.Check(Native.ellipsa_missing_from_name(out m, Native.Utf8z(name))); return (MissingPolicy)m;
+        }
 
         public static double Chi2Quantile(double probability, double df) { double v; Native.Check(Native.ellipsa_chi2_quantile(out v, probability, df)); return v; }
         public static double Chi2Tail(double x, double df) { double v; Native.Check(Native.ellipsa_chi2_tail(out v, x, df)); return v; }
@@ -556,6 +574,10 @@ namespace Ellipsa
         [DllImport(Lib, CallingConvention = CallingConvention.Cdecl)] internal static extern void ellipsa_fit_options_destroy(IntPtr h);
         [DllImport(Lib, CallingConvention = CallingConvention.Cdecl)] internal static extern int ellipsa_method_from_name(out int method, byte[] name);
         [DllImport(Lib, CallingConvention = CallingConvention.Cdecl)] internal static extern IntPtr ellipsa_method_name(int method);
+        [DllImport(Lib, CallingConvention = CallingConvention.Cdecl)] internal static extern int ellipsa_structure_from_name(out int structure, byte[] name);
+        [DllImport(Lib, CallingConvention = CallingConvention.Cdecl)] internal static extern IntPtr ellipsa_structure_name(int structure);
+        [DllImport(Lib, CallingConvention = CallingConvention.Cdecl)] internal static extern int ellipsa_missing_from_name(out int policy, byte[] name);
+        [DllImport(Lib, CallingConvention = CallingConvention.Cdecl)] internal static extern IntPtr ellipsa_missing_name(int policy);
         [DllImport(Lib, CallingConvention = CallingConvention.Cdecl)] internal static extern int ellipsa_fit_options_set_divisor(FitOptionsHandle h, int divisor);
         [DllImport(Lib, CallingConvention = CallingConvention.Cdecl)] internal static extern int ellipsa_fit_options_set_missing(FitOptionsHandle h, int policy);
         [DllImport(Lib, CallingConvention = CallingConvention.Cdecl)] internal static extern int ellipsa_fit_options_set_column_names(FitOptionsHandle h, IntPtr[] names, long count);

@@ -34,7 +34,13 @@ module ellipsa
   integer, parameter, public :: ELLIPSA_REFERENCE_MODEL = 0, ELLIPSA_REFERENCE_CHI2 = 1, &
        ELLIPSA_REFERENCE_NEW_ROWS = 2, ELLIPSA_REFERENCE_FITTING_ROWS = 3
   integer, parameter, public :: ELLIPSA_DIVISOR_N = 1, ELLIPSA_DIVISOR_N_MINUS_1 = 2
-  integer, parameter, public :: ELLIPSA_MISSING_DROP_ROWS = 1, ELLIPSA_MISSING_REFUSE = 2
+  integer, parameter, public :: ELLIPSA_MISSING_DROP_ROWS = 1, ELLIPSA_MISSING_REFUSE = 2, &
+       ELLIPSA_MISSING_EM = 3
+  integer, parameter, public :: ELLIPSA_METHOD_CLASSICAL = 1, ELLIPSA_METHOD_LEDOIT_WOLF = 2, &
+       ELLIPSA_METHOD_OAS = 3, ELLIPSA_METHOD_MCD = 4, ELLIPSA_METHOD_DETMCD = 5, &
+       ELLIPSA_METHOD_MRCD = 6, ELLIPSA_METHOD_MIXTURE = 7
+  integer, parameter, public :: ELLIPSA_STRUCTURE_FULL = 1, ELLIPSA_STRUCTURE_DIAGONAL = 2, &
+       ELLIPSA_STRUCTURE_TIED = 3, ELLIPSA_STRUCTURE_SPHERICAL = 4, ELLIPSA_STRUCTURE_ALL = 5
 
   !> A fitted model. Free it with ellipsa_free (a freed or never-fitted model
   !> is refused by every query with ELLIPSA_ERR_NULL).
@@ -48,7 +54,9 @@ module ellipsa
        ellipsa_to_text, ellipsa_from_text, ellipsa_write_model, ellipsa_read_model, &
        ellipsa_chi2_quantile, ellipsa_chi2_tail, ellipsa_f_quantile, ellipsa_f_tail, &
        ellipsa_beta_quantile, ellipsa_beta_tail, ellipsa_hotelling_limit, &
-       ellipsa_last_error, ellipsa_status_name, ellipsa_library_version
+       ellipsa_last_error, ellipsa_status_name, ellipsa_library_version, &
+       ellipsa_method_name, ellipsa_method_from_name, ellipsa_structure_name, &
+       ellipsa_structure_from_name, ellipsa_missing_name, ellipsa_missing_from_name
 
 contains
 
@@ -118,6 +126,101 @@ contains
     character(len=:), allocatable :: s
     s = from_c(c_version())
   end function ellipsa_library_version
+
+  ! ---- names of methods, covariance structures, missing-value policies --------------
+  ! The library's own names (the model file, the batch tool and every binding
+  ! use them): "classical", "ledoit-wolf", ...; "full", "diagonal", "tied",
+  ! "spherical", "all"; "drop", "refuse", "em". A code the library does not
+  ! know is named "unknown"; an unknown name gives ELLIPSA_ERR_ARGUMENT with a
+  ! message that lists the names.
+
+  !> The name of an ELLIPSA_METHOD_ code.
+  function ellipsa_method_name(code) result(s)
+    integer, intent(in) :: code
+    character(len=:), allocatable :: s
+    s = from_c(c_method_name(int(code, c_int32_t)))
+  end function ellipsa_method_name
+
+  !> The name of an ELLIPSA_STRUCTURE_ code.
+  function ellipsa_structure_name(code) result(s)
+    integer, intent(in) :: code
+    character(len=:), allocatable :: s
+    s = from_c(c_structure_name(int(code, c_int32_t)))
+  end function ellipsa_structure_name
+
+  !> The name of an ELLIPSA_MISSING_ code.
+  function ellipsa_missing_name(code) result(s)
+    integer, intent(in) :: code
+    character(len=:), allocatable :: s
+    s = from_c(c_missing_name(int(code, c_int32_t)))
+  end function ellipsa_missing_name
+
+  !> Parses a name with the library's parser of `kind` (1 method, 2 structure,
+  !> 3 missing-value policy); code is 0 unless the status is ELLIPSA_OK.
+  integer function parse_name(kind, name, code) result(status)
+    integer, intent(in) :: kind
+    character(len=*), intent(in) :: name
+    integer, intent(out) :: code
+    character(kind=c_char), allocatable :: buffer(:)
+    integer(c_int32_t) :: c_code, c_status
+    logical :: ok
+    code = 0
+    call to_c(name, buffer, ok)
+    if (.not. ok) then
+       status = ELLIPSA_ERR_ARGUMENT
+       return
+    end if
+    c_code = 0
+    select case (kind)
+    case (1)
+       c_status = c_method_from_name(c_code, buffer)
+    case (2)
+       c_status = c_structure_from_name(c_code, buffer)
+    case default
+       c_status = c_missing_from_name(c_code, buffer)
+    end select
+    status = int(c_status)
+    if (status == ELLIPSA_OK) code = int(c_code)
+  end function parse_name
+
+  !> The ELLIPSA_METHOD_ code of a name (trailing blanks ignored).
+  subroutine ellipsa_method_from_name(name, code, status, message)
+    character(len=*), intent(in) :: name
+    integer, intent(out) :: code, status
+    character(len=:), allocatable, intent(out), optional :: message
+    status = parse_name(1, name, code)
+    if (present(message)) message = name_message(status, name)
+  end subroutine ellipsa_method_from_name
+
+  !> The ELLIPSA_STRUCTURE_ code of a name (trailing blanks ignored).
+  subroutine ellipsa_structure_from_name(name, code, status, message)
+    character(len=*), intent(in) :: name
+    integer, intent(out) :: code, status
+    character(len=:), allocatable, intent(out), optional :: message
+    status = parse_name(2, name, code)
+    if (present(message)) message = name_message(status, name)
+  end subroutine ellipsa_structure_from_name
+
+  !> The ELLIPSA_MISSING_ code of a name (trailing blanks ignored).
+  subroutine ellipsa_missing_from_name(name, code, status, message)
+    character(len=*), intent(in) :: name
+    integer, intent(out) :: code, status
+    character(len=:), allocatable, intent(out), optional :: message
+    status = parse_name(3, name, code)
+    if (present(message)) message = name_message(status, name)
+  end subroutine ellipsa_missing_from_name
+
+  !> The message after parse_name: the library's, or ours for a name holding a NUL.
+  function name_message(status, name) result(s)
+    integer, intent(in) :: status
+    character(len=*), intent(in) :: name
+    character(len=:), allocatable :: s
+    if (status /= ELLIPSA_OK .and. index(name, c_null_char) /= 0) then
+       s = "the name holds a NUL character"
+    else
+       s = call_message(status)
+    end if
+  end function name_message
 
   ! ---- views --------------------------------------------------------------------
   !> The address held by a C pointer, as an integer: how the strides of an

@@ -118,6 +118,28 @@ module ellipsa_c
        integer(c_int32_t), value :: method
        type(c_ptr) :: c_method_name
      end function c_method_name
+     function c_structure_from_name(out, name) bind(C, name="ellipsa_structure_from_name")
+       import :: c_int32_t, c_char
+       integer(c_int32_t), intent(out) :: out
+       character(kind=c_char), intent(in) :: name(*)
+       integer(c_int32_t) :: c_structure_from_name
+     end function c_structure_from_name
+     function c_structure_name(structure) bind(C, name="ellipsa_structure_name")
+       import :: c_ptr, c_int32_t
+       integer(c_int32_t), value :: structure
+       type(c_ptr) :: c_structure_name
+     end function c_structure_name
+     function c_missing_from_name(out, name) bind(C, name="ellipsa_missing_from_name")
+       import :: c_int32_t, c_char
+       integer(c_int32_t), intent(out) :: out
+       character(kind=c_char), intent(in) :: name(*)
+       integer(c_int32_t) :: c_missing_from_name
+     end function c_missing_from_name
+     function c_missing_name(policy) bind(C, name="ellipsa_missing_name")
+       import :: c_ptr, c_int32_t
+       integer(c_int32_t), value :: policy
+       type(c_ptr) :: c_missing_name
+     end function c_missing_name
      function c_set_divisor(options, divisor) bind(C, name="ellipsa_fit_options_set_divisor")
        import :: c_ptr, c_int32_t
        type(c_ptr), value :: options

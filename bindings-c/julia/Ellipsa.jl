@@ -17,7 +17,9 @@ module Ellipsa
 export EllipsaError, FitSettings, Model, fit, score, save, load, location, scatter,
        component, raw_estimate, diagnostic, rowset, selection, column_names,
        describe, rows_used_dropped, chi2_quantile, chi2_tail, f_quantile, f_tail,
-       beta_quantile, beta_tail, hotelling_limit, library_version
+       beta_quantile, beta_tail, hotelling_limit, library_version,
+       method_name, method_from_name, structure_name, structure_from_name,
+       missing_name, missing_from_name
 
 const libellipsa = get(ENV, "ELLIPSA_LIB", "libellipsa")
 
@@ -91,6 +93,41 @@ function check(status::Int32)
 end
 
 library_version() = unsafe_string(ccall((:ellipsa_version, libellipsa), Cstring, ()))
+
+# ---- names of methods, covariance structures, missing-value policies ------------------------
+# The library's own names (model file, batch tool, every binding): "classical", "ledoit-wolf", ...;
+# "full", "diagonal", "tied", "spherical", "all"; "drop", "refuse", "em". A code the library does
+# not know is named "unknown"; an unknown name throws EllipsaError (ELLIPSA_ERR_ARGUMENT) whose
+# message lists the names. Codes are the ELLIPSA_METHOD_, _STRUCTURE_ and _MISSING_ values.
+"""The library's name of a method code (ELLIPSA_METHOD_*)."""
+method_name(code::Integer) = unsafe_string(ccall((:ellipsa_method_name, libellipsa), Cstring, (Int32,), code))
+
+"""The method code (ELLIPSA_METHOD_*) of a name as `method_name` writes it."""
+function method_from_name(name::AbstractString)
+    out = Ref{Int32}(0)
+    check(ccall((:ellipsa_method_from_name, libellipsa), Int32, (Ref{Int32}, Cstring), out, name))
+    Int(out[])
+end
+
+"""The library's name of a covariance structure code (ELLIPSA_STRUCTURE_*)."""
+structure_name(code::Integer) = unsafe_string(ccall((:ellipsa_structure_name, libellipsa), Cstring, (Int32,), code))
+
+"""The covariance structure code (ELLIPSA_STRUCTURE_*) of a name as `structure_name` writes it."""
+function structure_from_name(name::AbstractString)
+    out = Ref{Int32}(0)
+    check(ccall((:ellipsa_structure_from_name, libellipsa), Int32, (Ref{Int32}, Cstring), out, name))
+    Int(out[])
+end
+
+"""The library's name of a missing-value policy code (ELLIPSA_MISSING_*)."""
+missing_name(code::Integer) = unsafe_string(ccall((:ellipsa_missing_name, libellipsa), Cstring, (Int32,), code))
+
+"""The missing-value policy code (ELLIPSA_MISSING_*) of a name as `missing_name` writes it."""
+function missing_from_name(name::AbstractString)
+    out = Ref{Int32}(0)
+    check(ccall((:ellipsa_missing_from_name, libellipsa), Int32, (Ref{Int32}, Cstring), out, name))
+    Int(out[])
+end
 
 # ---- distributions --------------------------------------------------------------------------
 # One literal ccall each: tests/bindings/check_julia_ccalls.py checks every ccall against ellipsa.h.

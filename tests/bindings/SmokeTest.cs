@@ -35,6 +35,7 @@ static class SmokeTest
             MixtureAndMissing();
             RoundTrip();
             Errors();
+            Names();
             Disposal();
             CrossLanguage();
         }
@@ -321,6 +322,37 @@ static class SmokeTest
         var watch = new FitSettings(Method.Mcd) { Seed = 1, Progress = (stage, f) => { monotone &= f >= last && f <= 1; last = f; return true; } };
         using (Model.Fit(data, watch)) { }
         Check(monotone && last >= 0, "progress fractions non-decreasing in [0, 1]");
+    }
+
+    // Names of methods, covariance structures and missing-value policies, from the library.
+    // Expected names and codes: the ELLIPSA_METHOD_, ELLIPSA_STRUCTURE_ and ELLIPSA_MISSING_
+    // macros and their documented names in capi/include/ellipsa.h.
+    static void Names()
+    {
+        string[] methods = { "classical", "ledoit-wolf", "oas", "mcd", "detmcd", "mrcd", "mixture" };
+        for (int i = 0; i < methods.Length; ++i)
+            Check(Library.MethodName((Method)(i + 1)) == methods[i] && (int)Library.MethodFromName(methods[i]) == i + 1,
+                  "method " + (i + 1) + " is named " + methods[i] + " both ways");
+        string[] structures = { "full", "diagonal", "tied", "spherical", "all" };
+        for (int i = 0; i < structures.Length; ++i)
+            Check(Library.StructureName((Structure)(i + 1)) == structures[i] &&
+                  (int)Library.StructureFromName(structures[i]) == i + 1,
+                  "structure " + (i + 1) + " is named " + structures[i] + " both ways");
+        string[] policies = { "drop", "refuse", "em" };
+        for (int i = 0; i < policies.Length; ++i)
+            Check(Library.MissingName((MissingPolicy)(i + 1)) == policies[i] &&
+                  (int)Library.MissingFromName(policies[i]) == i + 1,
+                  "missing-value policy " + (i + 1) + " is named " + policies[i] + " both ways");
+        Check(Library.StructureName((Structure)99) == "unknown" && Library.MissingName((MissingPolicy)0) == "unknown",
+              "codes the library does not know are named \"unknown\"");
+        try { Library.StructureFromName("banded"); Check(false, "an unknown structure name must fail"); }
+        catch (EllipsaException e)
+        {
+            Check(e.Status == Status.ErrArgument && structures.All(n => e.NativeMessage.Contains(n)),
+                  "unknown structure name: ELLIPSA_ERR_ARGUMENT, message lists the names");
+        }
+        try { Library.MissingFromName("impute"); Check(false, "an unknown missing-value policy must fail"); }
+        catch (EllipsaException e) { Check(e.Status == Status.ErrArgument, "unknown missing-value policy: ELLIPSA_ERR_ARGUMENT"); }
     }
 
     static void Disposal()

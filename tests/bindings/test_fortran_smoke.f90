@@ -34,11 +34,52 @@ program test_fortran_smoke
   call python_model()
   call distributions()
   call errors()
+  call names()
 
   write(*, '(i0,a,i0,a)') checks - failures, " of ", checks, " checks passed"
   if (failures /= 0) stop 1
 
 contains
+
+  ! Names of methods, covariance structures and missing-value policies, from the
+  ! library. Expected names and codes: the ELLIPSA_METHOD_, ELLIPSA_STRUCTURE_ and
+  ! ELLIPSA_MISSING_ macros and their documented names in capi/include/ellipsa.h.
+  subroutine names()
+    character(len=11), parameter :: methods(7) = [character(len=11) :: "classical", "ledoit-wolf", &
+         "oas", "mcd", "detmcd", "mrcd", "mixture"]
+    character(len=9), parameter :: structures(5) = [character(len=9) :: "full", "diagonal", "tied", &
+         "spherical", "all"]
+    character(len=6), parameter :: policies(3) = [character(len=6) :: "drop", "refuse", "em"]
+    character(len=:), allocatable :: message
+    integer :: i, code, status
+    do i = 1, 7
+       call ellipsa_method_from_name(methods(i), code, status, message)
+       call check(ellipsa_method_name(i) == trim(methods(i)) .and. status == ELLIPSA_OK .and. code == i &
+            .and. len(message) == 0, "method " // trim(methods(i)) // " named and parsed")
+    end do
+    call check(ellipsa_method_name(ELLIPSA_METHOD_MIXTURE) == "mixture", "ELLIPSA_METHOD_MIXTURE is mixture")
+    do i = 1, 5
+       call ellipsa_structure_from_name(structures(i), code, status)
+       call check(ellipsa_structure_name(i) == trim(structures(i)) .and. status == ELLIPSA_OK .and. code == i, &
+            "structure " // trim(structures(i)) // " named and parsed")
+    end do
+    call check(ellipsa_structure_name(ELLIPSA_STRUCTURE_TIED) == "tied", "ELLIPSA_STRUCTURE_TIED is tied")
+    do i = 1, 3
+       call ellipsa_missing_from_name(policies(i), code, status)
+       call check(ellipsa_missing_name(i) == trim(policies(i)) .and. status == ELLIPSA_OK .and. code == i, &
+            "missing-value policy " // trim(policies(i)) // " named and parsed")
+    end do
+    call check(ellipsa_missing_name(ELLIPSA_MISSING_EM) == "em", "ELLIPSA_MISSING_EM is em")
+    call check(ellipsa_structure_name(99) == "unknown" .and. ellipsa_missing_name(0) == "unknown" &
+         .and. ellipsa_method_name(-1) == "unknown", "codes the library does not know are named unknown")
+    call ellipsa_structure_from_name("banded", code, status, message)
+    call check(status == ELLIPSA_ERR_ARGUMENT .and. code == 0 .and. index(message, "spherical") > 0, &
+         "unknown structure name: ELLIPSA_ERR_ARGUMENT, message lists the names")
+    call ellipsa_missing_from_name("impute", code, status, message)
+    call check(status == ELLIPSA_ERR_ARGUMENT .and. len(message) > 0, "unknown missing-value policy")
+    call ellipsa_method_from_name("mcd" // achar(0) // "x", code, status, message)
+    call check(status == ELLIPSA_ERR_ARGUMENT .and. index(message, "NUL") > 0, "a name holding a NUL is refused")
+  end subroutine names
 
   subroutine check(ok, what)
     logical, intent(in) :: ok

@@ -3,6 +3,8 @@
 # Any failed check stops with a non-zero exit status.
 #
 # Environment (set by tests/bindings/r.cmake):
+#   ELLIPSA_R_LIBRARY    when set: use the package installed in this R library
+#                        instead (the four below are then not needed)
 #   ELLIPSA_INCLUDE_DIR  folder of ellipsa.h
 #   ELLIPSA_LIB_DIR      folder of libellipsa.so
 #   ELLIPSA_R_DIR        bindings-c/r
@@ -14,11 +16,23 @@ required <- function(name) {
   if (!nzchar(value)) stop("environment variable ", name, " is not set")
   value
 }
-r_dir <- required("ELLIPSA_R_DIR")
-for (f in sort(list.files(file.path(r_dir, "R"), pattern = "\\.R$", full.names = TRUE))) source(f)
-glue <- ellipsa_build_glue(r_dir, required("ELLIPSA_INCLUDE_DIR"), required("ELLIPSA_LIB_DIR"),
-                           required("ELLIPSA_R_SCRATCH"))
-versions <- ellipsa_load_library(glue)
+installed <- Sys.getenv("ELLIPSA_R_LIBRARY")
+if (nzchar(installed)) {
+  # The installed package (tests/install/test_r_package.py): nothing from the
+  # source tree, the glue it compiled against the installed libellipsa.
+  library(ellipsa, lib.loc = installed)
+  where <- normalizePath(find.package("ellipsa"))
+  if (!startsWith(where, normalizePath(installed)))
+    stop("package ellipsa loaded from ", where, ", not from ", installed)
+  versions <- ellipsa_version()
+  cat("installed package", where, "\n")
+} else {
+  r_dir <- required("ELLIPSA_R_DIR")
+  for (f in sort(list.files(file.path(r_dir, "R"), pattern = "\\.R$", full.names = TRUE))) source(f)
+  glue <- ellipsa_build_glue(r_dir, required("ELLIPSA_INCLUDE_DIR"), required("ELLIPSA_LIB_DIR"),
+                             required("ELLIPSA_R_SCRATCH"))
+  versions <- ellipsa_load_library(glue)
+}
 cat("ellipsa library", versions[["library"]], "glue header", versions[["header"]], "\n")
 
 # Largest absolute difference relative to the largest reference magnitude.
@@ -145,7 +159,7 @@ reloaded <- ellipsa_load(text)
 check(identical(ellipsa_save(reloaded), text), "save -> load -> save gives identical text")
 check(identical(unclass(ellipsa_score(reloaded, with_na)), unclass(ellipsa_score(robust, with_na))),
       "a reloaded model gives identical scores")
-model_file <- file.path(required("ELLIPSA_R_SCRATCH"), "roundtrip.json")
+model_file <- tempfile("ellipsa-roundtrip-", fileext = ".json")
 ellipsa_save(robust, model_file)
 check(identical(ellipsa_save(ellipsa_load(file = model_file)), text), "round trip through a file")
 
@@ -194,10 +208,38 @@ check(inherits(e, "ellipsa_error") && e$status == "ELLIPSA_ERR_DATA", "an infini
 e <- error_of(ellipsa_score(model, x, level = 1.5))
 check(inherits(e, "ellipsa_error") && e$status == "ELLIPSA_ERR_ARGUMENT", "level outside (0, 1)")
 # A handle restored from an R session file is empty: an error, not a crash.
-rds <- file.path(required("ELLIPSA_R_SCRATCH"), "model.rds")
+rds <- tempfile("ellipsa-model-", fileext = ".rds")
 saveRDS(model, rds)
 e <- error_of(ellipsa_location(readRDS(rds)))
 check(inherits(e, "ellipsa_error") && e$status == "ELLIPSA_ERR_NULL", "an empty handle")
+
+# ---- names of methods, structures and missing-value policies, from the library.
+# Expected names and codes: the ELLIPSA_METHOD_, ELLIPSA_STRUCTURE_ and
+# ELLIPSA_MISSING_ macros and their documented names in capi/include/ellipsa.h.
+method_names <- c("classical", "ledoit-wolf", "oas", "mcd", "detmcd", "mrcd", "mixture")
+structure_names <- c("full", "diagonal", "tied", "spherical", "all")
+missing_names <- c("drop", "refuse", "em")
+check(identical(ellipsa_method_name(1:7), method_names), "method names of codes 1..7")
+check(identical(ellipsa_method_from_name(method_names), 1:7), "method codes of their names")
+check(identical(ellipsa_structure_name(1:5), structure_names), "structure names of codes 1..5")
+check(identical(ellipsa_structure_from_name(structure_names), 1:5), "structure codes of their names")
+check(identical(ellipsa_missing_name(c(1, 2, 3)), missing_names), "missing-value policy names of codes 1..3")
+check(identical(ellipsa_missing_from_name(missing_names), 1:3), "missing-value policy codes of their names")
+check(identical(ellipsa_structure_name(c(0L, 99L, NA)), c("unknown", "unknown", NA)),
+      "codes the library does not know are named \"unknown\"; NA stays NA")
+check(identical(ellipsa_missing_from_name(c("em", NA)), c(3L, NA)), "NA names stay NA")
+e <- error_of(ellipsa_structure_from_name("banded"))
+check(inherits(e, "ellipsa_error") && e$status == "ELLIPSA_ERR_ARGUMENT" &&
+        all(vapply(structure_names, grepl, logical(1), conditionMessage(e), fixed = TRUE)),
+      "an unknown structure name fails with a message listing the names")
+e <- error_of(ellipsa_missing_from_name("impute"))
+check(inherits(e, "ellipsa_error") && e$status == "ELLIPSA_ERR_ARGUMENT", "an unknown missing-value policy")
+e <- error_of(ellipsa_fit(x, method = "mixture", components = 1, structure = "banded"))
+check(inherits(e, "ellipsa_error") && e$status == "ELLIPSA_ERR_ARGUMENT", "fit with an unknown structure")
+e <- error_of(ellipsa_structure_name(1.5))
+check(inherits(e, "ellipsa_error") && e$status == "ELLIPSA_ERR_ARGUMENT", "a fractional code is refused")
+check(all(ellipsa_selection(mixture)$structure %in% structure_names), "selection table names its structures")
+cat("names: methods, structures, missing-value policies round-trip through the library\n")
 
 # ---- optional file for the cross-binding check
 cross_dir <- Sys.getenv("ELLIPSA_CROSS_DIR")

@@ -10,19 +10,21 @@ Results are statistical evidence (distances, probabilities, flags at a chosen
 level), not verdicts about any row.
 
 The shared library is found through the environment variable ELLIPSA_LIBRARY
-(full path), else build/lib/libellipsa.so of the source tree this package sits
-in, else the system loader (libellipsa.so.0). NumPy is optional: without it,
-pass lists of rows and get lists back.
+(full path), else, in a source checkout, build/lib/libellipsa.so of that tree,
+else the system's dynamic loader by soname (libellipsa.so.0: LD_LIBRARY_PATH,
+the ld.so cache, the default folders). library_path() tells which file was
+loaded. NumPy is optional: without it, pass lists of rows and get lists back.
 """
 import ctypes as _ctypes
 
-from ._lib import Error, lib as _clib, check as _check, status_name
+from ._version import __version__
+from ._lib import Error, lib as _clib, check as _check, status_name, library_path
 from ._matrix import HAVE_NUMPY
 from ._buffers import set_output, output_kind
 from ._model import Model, Scores, SCORE_FIELDS, fit, load
 from ._compare import compare, shape, model_shape
 
-__all__ = ["Error", "Model", "Scores", "SCORE_FIELDS", "fit", "load", "version", "status_name",
+__all__ = ["__version__", "library_path", "Error", "Model", "Scores", "SCORE_FIELDS", "fit", "load", "version", "status_name",
            "chi2_quantile", "chi2_tail", "f_quantile", "f_tail", "beta_quantile", "beta_tail",
            "hotelling_limit", "set_output", "output_kind", "HAVE_NUMPY", "compare", "shape", "model_shape"]
 

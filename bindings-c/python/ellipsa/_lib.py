@@ -5,8 +5,9 @@ constants, and turns a non-zero status into :class:`Error`. It does no
 numerics of its own.
 """
 import ctypes
-import ctypes.util
 import os
+
+from ._version import __version__
 
 # --------------------------------------------------------------------------
 # Status codes and enumerations, copied from ellipsa.h.
@@ -144,17 +145,38 @@ class ShapeTest(ctypes.Structure):
 
 
 # --------------------------------------------------------------------------
-# Locating the library.
+# Locating the library. One rule, in this order (README.md, "Finding the
+# library"):
+#   1. ELLIPSA_LIBRARY, the full path of a libellipsa.so: that file, nothing else.
+#   2. In a source checkout only (this package is bindings-c/python/ellipsa of
+#      a tree that holds capi/include/ellipsa.h): that tree's build/lib.
+#   3. The system's dynamic loader, by soname libellipsa.so.<MAJOR>: the
+#      folders of LD_LIBRARY_PATH, then the ld.so cache (ldconfig), then the
+#      default folders. An installed copy (`cmake --install`) is found here.
+# The soname carries the ABI major (docs/versioning.md), so step 3 never picks
+# a library of another major; a file named by step 1 or 2 is checked instead.
+_MAJOR = int(__version__.split(".")[0])
+SONAME = "libellipsa.so.%d" % _MAJOR
+
+
+def _source_tree_library():
+    here = os.path.dirname(os.path.abspath(__file__))
+    root = os.path.normpath(os.path.join(here, "..", "..", ".."))
+    if not os.path.isfile(os.path.join(root, "capi", "include", "ellipsa.h")):
+        return None  # an installed package: no build folder to guess
+    return os.path.join(root, "build", "lib", "libellipsa.so")
+
+
 def _candidate_paths():
+    """The places step 1, 2 and 3 look at, in order."""
     env = os.environ.get("ELLIPSA_LIBRARY")
     if env:
         return [env]
-    here = os.path.dirname(os.path.abspath(__file__))
-    paths = [os.path.normpath(os.path.join(here, "..", "..", "..", "build", "lib", "libellipsa.so"))]
-    found = ctypes.util.find_library("ellipsa")
-    if found:
-        paths.append(found)
-    paths.append("libellipsa.so.0")
+    paths = []
+    in_tree = _source_tree_library()
+    if in_tree is not None:
+        paths.append(in_tree)
+    paths.append(SONAME)
     return paths
 
 
@@ -172,10 +194,25 @@ def _load():
             if env:
                 break
     raise ImportError("ellipsa: cannot load the shared library; tried: " + "; ".join(tried) +
-                      ". Set ELLIPSA_LIBRARY to the full path of libellipsa.so.")
+                      ". Set ELLIPSA_LIBRARY to the full path of libellipsa.so, or put the folder "
+                      "holding %s on LD_LIBRARY_PATH." % SONAME)
 
 
 lib = _load()
+
+
+def library_path():
+    """The full path of the libellipsa file this process loaded (read from
+    /proc/self/maps on Linux; else the name it was opened by)."""
+    try:
+        with open("/proc/self/maps") as maps:
+            for line in maps:
+                fields = line.split(None, 5)
+                if len(fields) == 6 and os.path.basename(fields[5].strip()).startswith("libellipsa.so"):
+                    return fields[5].strip()
+    except OSError:
+        pass
+    return lib._name
 
 _c = ctypes
 _status = _c.c_int32
@@ -242,10 +279,28 @@ _SIGNATURES = {
     "ellipsa_model_shape": (_status, [_c.POINTER(ShapeTest), _vp, _mp]),
 }
 
-for _name, (_res, _args) in _SIGNATURES.items():
-    _fn = getattr(lib, _name)
-    _fn.restype = _res
-    _fn.argtypes = _args
+
+
+def _declare():
+    """Declares every function; refuses a library of another major version or
+    one too old to have a function this binding calls."""
+    lib.ellipsa_version.restype = _c.c_char_p
+    lib.ellipsa_version.argtypes = []
+    loaded = lib.ellipsa_version().decode("ascii", "replace")
+    if int(loaded.split(".")[0]) != _MAJOR:
+        raise ImportError("ellipsa: %s is version %s; this binding (%s) needs major version %d"
+                          % (lib._name, loaded, __version__, _MAJOR))
+    for name, (res, args) in _SIGNATURES.items():
+        try:
+            fn = getattr(lib, name)
+        except AttributeError:
+            raise ImportError("ellipsa: %s (version %s) has no %s; this binding is version %s"
+                              % (lib._name, loaded, name, __version__)) from None
+        fn.restype = res
+        fn.argtypes = args
+
+
+_declare()
 
 
 def _text(raw):

@@ -8,8 +8,6 @@
 
 .ellipsa_codes <- list(
   divisor = c("n" = 1L, "n-1" = 2L),
-  missing = c(drop = 1L, refuse = 2L, em = 3L),
-  structure = c(full = 1L, diagonal = 2L, tied = 3L, spherical = 4L, all = 5L),
   rows = c(h_subset = 1L, outliers = 2L, dropped = 3L))
 
 .ellipsa_code <- function(value, table_name) {
@@ -79,8 +77,8 @@ ellipsa_fit <- function(x, method = "classical", alpha = NULL, seed = NULL, comp
     .ellipsa_stop("ELLIPSA_ERR_ARGUMENT: alpha must be one number")
   settings <- list(
     divisor = .ellipsa_code(divisor, "divisor"),
-    missing = .ellipsa_code(missing, "missing"),
-    structure = .ellipsa_code(structure, "structure"),
+    missing = .ellipsa_setting_code(missing, "missing"),
+    structure = .ellipsa_setting_code(structure, "structure"),
     restarts = .ellipsa_whole(restarts, "restarts", -2^31 + 1, 2^31 - 1),
     components = components,
     alpha = alpha,
@@ -152,8 +150,7 @@ ellipsa_rows <- function(model, which = c("outliers", "h_subset", "dropped")) {
 # Mixtures: the model-choice table, one row per candidate tried.
 ellipsa_selection <- function(model) {
   table <- as.data.frame(.ellipsa_call("ellipsa_r_selection", .ellipsa_handle(model)))
-  structures <- names(.ellipsa_codes$structure)
-  table$structure <- structures[match(table$structure, .ellipsa_codes$structure)]
+  table$structure <- ellipsa_structure_name(table$structure)
   table
 }
 

@@ -6,7 +6,8 @@
 .ellipsa_routine_names <- c(
   "ellipsa_r_fit", "ellipsa_r_describe", "ellipsa_r_component", "ellipsa_r_diagnostic",
   "ellipsa_r_row_set", "ellipsa_r_selection", "ellipsa_r_score", "ellipsa_r_save",
-  "ellipsa_r_load", "ellipsa_r_distribution", "ellipsa_r_hotelling_limit", "ellipsa_r_version")
+  "ellipsa_r_load", "ellipsa_r_distribution", "ellipsa_r_hotelling_limit", "ellipsa_r_version",
+  "ellipsa_r_name", "ellipsa_r_from_name")
 
 # Compiles the glue with `R CMD SHLIB` into out_dir and returns the path of the
 # shared object. The source is copied first so the object files land in out_dir,

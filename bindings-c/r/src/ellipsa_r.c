@@ -539,6 +539,58 @@ SEXP ellipsa_r_version(void) {
   return out;
 }
 
+/* ---------------------------------------------------------------- names */
+
+/* The library's names of its enumerations, by its own name and parse
+ * functions (no table of names here): kind 1 methods, 2 covariance
+ * structures, 3 missing-value policies. */
+typedef const char *(*name_fn)(int32_t);
+typedef ellipsa_status (*from_name_fn)(int32_t *, const char *);
+static const name_fn kNameFns[] = {ellipsa_method_name, ellipsa_structure_name, ellipsa_missing_name};
+static const from_name_fn kFromNameFns[] = {ellipsa_method_from_name, ellipsa_structure_from_name,
+                                            ellipsa_missing_from_name};
+
+static int name_kind(SEXP kind) {
+  const int k = Rf_asInteger(kind);
+  if (k < 1 || k > 3) Rf_errorcall(R_NilValue, "ELLIPSA_ERR_ARGUMENT: unknown kind of name %d", k);
+  return k - 1;
+}
+
+/* Names of integer codes; NA stays NA, a code the library does not know
+ * gives its "unknown". */
+SEXP ellipsa_r_name(SEXP kind, SEXP codes) {
+  const name_fn name = kNameFns[name_kind(kind)];
+  if (!Rf_isInteger(codes)) Rf_errorcall(R_NilValue, "ELLIPSA_ERR_ARGUMENT: codes must be integers");
+  const R_xlen_t n = XLENGTH(codes);
+  SEXP out = PROTECT(Rf_allocVector(STRSXP, n));
+  for (R_xlen_t i = 0; i < n; ++i) {
+    const int code = INTEGER(codes)[i];
+    SET_STRING_ELT(out, i, code == NA_INTEGER ? NA_STRING : Rf_mkChar(name((int32_t)code)));
+  }
+  UNPROTECT(1);
+  return out;
+}
+
+/* Codes of names; NA stays NA, the first unknown name is an error carrying
+ * the library's message (which lists the names). */
+SEXP ellipsa_r_from_name(SEXP kind, SEXP names) {
+  const from_name_fn from_name = kFromNameFns[name_kind(kind)];
+  if (!Rf_isString(names)) Rf_errorcall(R_NilValue, "ELLIPSA_ERR_ARGUMENT: names must be character");
+  const R_xlen_t n = XLENGTH(names);
+  SEXP out = PROTECT(Rf_allocVector(INTSXP, n));
+  for (R_xlen_t i = 0; i < n; ++i) {
+    if (STRING_ELT(names, i) == NA_STRING) {
+      INTEGER(out)[i] = NA_INTEGER;
+      continue;
+    }
+    int32_t code = 0;
+    check(from_name(&code, Rf_translateCharUTF8(STRING_ELT(names, i))));
+    INTEGER(out)[i] = (int)code;
+  }
+  UNPROTECT(1);
+  return out;
+}
+
 /* ------------------------------------------------------------ registration */
 
 static const R_CallMethodDef kCallMethods[] = {
@@ -554,6 +606,8 @@ static const R_CallMethodDef kCallMethods[] = {
     {"ellipsa_r_distribution", (DL_FUNC)&ellipsa_r_distribution, 4},
     {"ellipsa_r_hotelling_limit", (DL_FUNC)&ellipsa_r_hotelling_limit, 4},
     {"ellipsa_r_version", (DL_FUNC)&ellipsa_r_version, 0},
+    {"ellipsa_r_name", (DL_FUNC)&ellipsa_r_name, 2},
+    {"ellipsa_r_from_name", (DL_FUNC)&ellipsa_r_from_name, 2},
     {NULL, NULL, 0}};
 
 static void register_routines(DllInfo *dll) {
