@@ -24,6 +24,7 @@ library=(
 rest=(
   libgtest-dev                   # the unit tests (GoogleTest)
   doxygen                        # reference documentation from the header (make docs, CI)
+  clang-format                   # the layout check (scripts/check-format.sh, CI)
   libbenchmark-dev               # make bench (Google Benchmark)
   r-mathlib                      # reference distribution functions for the tests
   python3 python3-numpy          # Python binding and its smoke test
