@@ -82,6 +82,11 @@ int main(int argc, char** argv) {
     code = fit_app->parsed() ? mpi::run_fit(comm, fit) : mpi::run_score(comm, score);
   } catch (const mpi::JobStopped& s) {
     code = s.exit_code;
+  } catch (const std::exception& e) {
+    // Outside any step: the other ranks may be waiting for this one, so the job ends here.
+    std::fprintf(stderr, "ellipsa-mpi: rank %d: internal error: %s; ending the job\n", rank, e.what());
+    std::fflush(stderr);
+    MPI_Abort(MPI_COMM_WORLD, cli::kExitInternal);
   }
   MPI_Finalize();
   return code;

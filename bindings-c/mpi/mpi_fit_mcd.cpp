@@ -140,7 +140,8 @@ void fit_mcd_mpi(Comm& comm, const FitArgs& a, const std::vector<std::string>& c
   const int64_t n = comm.sum(local.rows(), "counting rows");
   report.read_seconds = seconds_since(t);
   t = std::chrono::steady_clock::now();
-  const auto options = cli::make_fit_options(a.fit, columns);
+  cli::OptionsPtr options;  // made inside a step: a bad option stops every rank with its message
+  step(comm, [&] { options = cli::make_fit_options(a.fit, columns); });
   int64_t h = 0;
   step(comm, [&] {
     // The refusals of ellipsa_model_from_mcd_statistics, before any work.

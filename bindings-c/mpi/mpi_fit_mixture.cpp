@@ -75,7 +75,8 @@ void fit_mixture_mpi(Comm& comm, const FitArgs& a, const std::vector<std::string
   const int64_t total_rows = comm.sum(local.rows(), "counting rows");
   report.read_seconds = seconds_since(t);
   t = std::chrono::steady_clock::now();
-  const auto options = cli::make_fit_options(a.fit, columns);
+  cli::OptionsPtr options;  // made inside a step: a bad option stops every rank with its message
+  step(comm, [&] { options = cli::make_fit_options(a.fit, columns); });
   std::string parameters_text = start_text(comm, a, columns, local, total_rows);
   cli::ModelPtr parameters;
   step(comm, [&] {
@@ -83,6 +84,12 @@ void fit_mixture_mpi(Comm& comm, const FitArgs& a, const std::vector<std::string
     int32_t kind = 0;
     cli::check(ellipsa_model_describe(&kind, nullptr, nullptr, nullptr, parameters.get()), "reading the start");
     if (kind != ELLIPSA_KIND_MIXTURE) throw cli::CliError(cli::kExitUsage, "--start must be a mixture model");
+    // The M-steps keep the start's structure (chosen on the sample when
+    // --structure all, or that of --start).
+    int32_t structure = 0;
+    const std::string name = nlohmann::json::parse(parameters_text).at("structure").get<std::string>();
+    cli::check(ellipsa_structure_from_name(&structure, name.c_str()), "reading the start's structure");
+    cli::check(ellipsa_fit_options_set_structure(options.get(), structure), "setting the structure");
   });
   report.start_seconds = seconds_since(t);
   t = std::chrono::steady_clock::now();

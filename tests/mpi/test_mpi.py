@@ -244,6 +244,23 @@ for label, data, sample, split in (("generated", files2, "gen-sample.csv", []),
              "1e-10", "500", *[path(f) if not os.path.isabs(f) else f for f in data]])
         compare_mixture(json.loads(read_bytes(f"mpi-mix-{label}.json")), read_reference(f"ref-mix-{label}.txt"),
                         EM_TOL, f"{label} mixture -np 3")
+        if label == "generated":
+            # The log-density cutoff: NumPy's linear-interpolation quantile
+            # (Hyndman & Fan definition 7) at 0.025 of every row's log-density
+            # under the model, computed here from the model's parameters.
+            import numpy as np
+            model = json.loads(read_bytes(f"mpi-mix-{label}.json"))
+            x = np.array([[float(v) for v in r.split(",")[1:]] for r in rows2])
+            dens = np.zeros(len(x))
+            for c in model["components"]:
+                mu, s = np.array(c["location"]), np.array(c["scatter"])
+                d = x - mu
+                q = np.einsum("ij,ij->i", d @ np.linalg.inv(s), d)
+                dens += c["weight"] * np.exp(-0.5 * q) / np.sqrt(np.linalg.det(2 * np.pi * s))
+            expected_cut = np.quantile(np.log(dens), 0.025, method="linear")
+            check(abs(model["log_density_cutoff"] - expected_cut) <= 1e-9 * abs(expected_cut),
+                  f"generated mixture: log-density cutoff {model['log_density_cutoff']} equals NumPy's "
+                  f"0.025 quantile {expected_cut}")
         summary = json.loads(out)
         ref_steps = int(read_reference(f"ref-mix-{label}.txt")["iterations"][0][0]) + 1
         # core::fit_mixture counts iterations from 0, its first being the driver's first M-step
@@ -289,6 +306,8 @@ check(code == 3, f"bad file: fit exits 3 (got {code})")
 check("rank 2: bad4.csv:17:" in err, f"bad file: the message names rank 2, the file and line 17: {err[:400]}")
 code, _, err = mpirun(3, "fit", "--method", "mixture", "--components", "2", "-o", "faults/model.json", *bad_files)
 check(code == 3 and "rank 2: bad4.csv:17:" in err, f"bad file: the mixture fit exits 3 naming rank 2, bad4.csv, line 17 ({code})")
+code, _, err = mpirun(3, "fit", "--method", "mixture", "--components", "x", "-o", "faults/model.json", *files)
+check(code == 2 and "--components: 'x'" in err, f"a bad option: every rank stops with exit 2 and the message ({code})")
 code, _, err = mpirun(3, "score", "mpi-ledoit-wolf.json", *bad_files, "--output-dir", "faults")
 check(code == 3, f"bad file: score exits 3 (got {code})")
 check("rank 2: bad4.csv:17:" in err, "bad file: score names rank 2, the file and line 17")
