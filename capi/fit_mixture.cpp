@@ -49,7 +49,7 @@ core::MixtureModel to_core_mixture(const ellipsa_model& m) {
 
 // The level at which the log-density cutoff is calibrated on the fitting rows:
 // the lower 2.5% of their log-densities (the mirror of the usual 0.975 screen).
-constexpr double kCutoffTail = 0.025;
+constexpr double kCutoffTail = ELLIPSA_MIXTURE_CUTOFF_TAIL;
 
 void fit_mixture(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_options& o) {
   core::MixtureSelectionOptions s;

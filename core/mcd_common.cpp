@@ -367,6 +367,20 @@ Eigen::VectorXd centred_distances(const Eigen::MatrixXd& z, const Eigen::VectorX
 
 }  // namespace
 
+}  // namespace mcd_detail
+
+std::optional<ReweightedEstimate> reweighted_estimate(const MomentAccumulator& kept, double factor) {
+  const Index p = kept.dimension();
+  if (kept.rows() <= p) return std::nullopt;
+  ReweightedEstimate e;
+  e.mean = kept.mean();
+  e.scatter = factor * kept.covariance(Normalisation::ByCount);
+  if (!e.factor.compute(e.scatter)) return std::nullopt;
+  return e;
+}
+
+namespace mcd_detail {
+
 RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h,
                      const FinishRule& rule) {
   const Index n = x.rows(), p = x.cols();
@@ -426,16 +440,11 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
   }
   MomentAccumulator acc(p);
   acc.add(zv, w);
-  CholeskyFactor chol;
-  if (acc.rows() > p) {
-    const Eigen::MatrixXd cov_z =
-        r.reweight_factor * rule.small_sample.reweighted * acc.covariance(Normalisation::ByCount);
-    if (chol.compute(cov_z)) {
-      r.reweighted = true;
-      r.location = s.centre + s.scale.cwiseProduct(acc.mean());
-      r.scatter = scale_both_sides(cov_z, s.scale);
-      r.robust_d2 = centred_distances(s.z, acc.mean(), chol);
-    }
+  if (auto est = reweighted_estimate(acc, r.reweight_factor * rule.small_sample.reweighted)) {
+    r.reweighted = true;
+    r.location = s.centre + s.scale.cwiseProduct(est->mean);
+    r.scatter = scale_both_sides(est->scatter, s.scale);
+    r.robust_d2 = centred_distances(s.z, est->mean, est->factor);
   }
   if (!r.reweighted) {
     r.location = r.raw_location;

@@ -114,6 +114,20 @@ double mcd_consistency_factor(Index h, Index n, Index p);
 // level / F_{chi2, p+2}(chi2q(p, level)).
 double reweight_consistency_factor(double level, Index p);
 
+class MomentAccumulator;
+// The reweighting step's estimate from the moments of the rows kept (those
+// whose raw distance is at most chi2q(p, level)): their mean and covariance
+// (divisor = rows kept) times `factor` (the reweighting consistency factor
+// times the small-sample factor). Empty when p or fewer rows were kept or the
+// covariance is not positive definite: the raw estimate then stands.
+// finish_fit() and the statistics path of the C interface both use it.
+struct ReweightedEstimate {
+  Eigen::VectorXd mean;
+  Eigen::MatrixXd scatter;
+  CholeskyFactor factor;
+};
+std::optional<ReweightedEstimate> reweighted_estimate(const MomentAccumulator& kept, double factor);
+
 
 namespace mcd_detail {
 

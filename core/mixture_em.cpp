@@ -13,6 +13,7 @@
 #include "cholesky.hpp"
 #include "error.hpp"
 #include "kmeans_seed.hpp"
+#include "mixture_em_steps.hpp"
 #include "mixture_missing.hpp"
 #include "mixture_score.hpp"
 #include "moments.hpp"
@@ -44,13 +45,15 @@ const char* structure_name(CovarianceStructure s) {
   return "?";
 }
 
+}  // namespace
+
 // The E-step for complete rows (Dempster, Laird & Rubin 1977): responsibilities
 // into t (n x K) and the posterior summary. Chunk by chunk, so that a chunk is
 // read from memory once for all K components: per component the centred chunk
 // is whitened by one right-sided triangular solve (y_i' = (x_i - mu)' L^-T,
 // column-major, the BLAS-3 shape) and its row norms are the squared Mahalanobis
 // distances. The arithmetic does not depend on the layout of x.
-Posterior complete_e_step(const MixtureModel& model, const std::vector<CholeskyFactor>& factors, DataView x,
+Posterior mixture_e_step_complete(const MixtureModel& model, const std::vector<CholeskyFactor>& factors, DataView x,
                           Eigen::MatrixXd& t, int threads) {
   constexpr Index kChunkRows = 4096;
   const Index n = x.rows();
@@ -104,6 +107,77 @@ Posterior complete_e_step(const MixtureModel& model, const std::vector<CholeskyF
   return post;
 }
 
+MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double rows,
+                            CovarianceStructure structure, Index p, double regularisation_absolute) {
+  const Index k_count = static_cast<Index>(moments.size());
+  const double n = rows;
+  MixtureModel model;
+  model.structure = structure;
+  model.weights.resize(k_count);
+  model.means.resize(k_count, p);
+  model.covariances.resize(static_cast<std::size_t>(k_count));
+  Eigen::MatrixXd pooled = Eigen::MatrixXd::Zero(p, p);
+  const Eigen::MatrixXd ridge = regularisation_absolute * Eigen::MatrixXd::Identity(p, p);
+  for (Index k = 0; k < k_count; ++k) {
+    const ComponentMoments& mom = moments[static_cast<std::size_t>(k)];
+    model.weights(k) = mom.weight / n;
+    model.means.row(k) = mom.mean.transpose();
+    Eigen::MatrixXd& cov = model.covariances[static_cast<std::size_t>(k)];
+    if (!(mom.weight > 0.0)) {
+      cov = Eigen::MatrixXd::Constant(p, p, std::numeric_limits<double>::quiet_NaN());
+      continue;
+    }
+    switch (model.structure) {
+      case CovarianceStructure::Full:
+        cov = mom.scatter / mom.weight + ridge;
+        break;
+      case CovarianceStructure::Diagonal:
+        cov = (mom.scatter.diagonal() / mom.weight).asDiagonal();
+        cov += ridge;
+        break;
+      case CovarianceStructure::Spherical:
+        cov = (mom.scatter.trace() / (mom.weight * static_cast<double>(p)) + regularisation_absolute) *
+              Eigen::MatrixXd::Identity(p, p);
+        break;
+      case CovarianceStructure::Tied:
+        pooled += mom.scatter;
+        break;
+    }
+  }
+  if (model.structure == CovarianceStructure::Tied) {
+    const Eigen::MatrixXd shared = pooled / n + ridge;
+    for (auto& c : model.covariances) c = shared;
+  }
+  return model;
+}
+
+double mixture_min_component_rows(const MixtureOptions& o, Index p) {
+  if (o.min_component_rows >= 0.0) return o.min_component_rows;
+  return o.structure == CovarianceStructure::Full   ? static_cast<double>(p + 1)
+         : o.structure == CovarianceStructure::Tied ? 1.0
+                                                    : 2.0;
+}
+
+std::vector<CollapseEvent> collapsed_components(const MixtureModel& model, double rows, double min_rows) {
+  std::vector<CollapseEvent> found;
+  for (Index k = 0; k < model.components(); ++k) {
+    CollapseEvent e;
+    e.component = k;
+    CholeskyFactor f;
+    if (!(model.weights(k) * rows >= min_rows)) {
+      e.reason = CollapseReason::SmallWeight;
+    } else if (!f.compute(model.covariances[static_cast<std::size_t>(k)])) {
+      e.reason = CollapseReason::NotPositiveDefinite;
+    } else {
+      continue;
+    }
+    found.push_back(e);
+  }
+  return found;
+}
+
+namespace {
+
 // The two ways the EM sees its data: complete rows, or rows with missing
 // coordinates handled by conditional expectations.
 class EmData {
@@ -137,7 +211,7 @@ class CompleteData final : public EmData {
   }
   Posterior e_step(const MixtureModel& m, const std::vector<CholeskyFactor>& f,
                    Eigen::MatrixXd& t) const override {
-    return complete_e_step(m, f, x_, t, threads_);
+    return mixture_e_step_complete(m, f, x_, t, threads_);
   }
   // One component by the centred two-pass path (all_moments below does all K at once).
   ComponentMoments moments(const MixtureModel&, Index, const Eigen::VectorXd& t) const override {
@@ -205,48 +279,9 @@ struct Settings {
 // expectations when coordinates are missing (ignored for complete data).
 MixtureModel m_step(const EmData& data, const MixtureModel& current, const Eigen::MatrixXd& t,
                     const Settings& set) {
-  const Index k_count = t.cols();
   const Index p = set.p;
   const double n = static_cast<double>(data.rows());
-  MixtureModel model;
-  model.structure = set.options->structure;
-  model.weights.resize(k_count);
-  model.means.resize(k_count, p);
-  model.covariances.resize(static_cast<std::size_t>(k_count));
-  Eigen::MatrixXd pooled = Eigen::MatrixXd::Zero(p, p);
-  const Eigen::MatrixXd ridge = set.reg_abs * Eigen::MatrixXd::Identity(p, p);
-  const std::vector<ComponentMoments> moments = data.all_moments(current, t);
-  for (Index k = 0; k < k_count; ++k) {
-    const ComponentMoments& mom = moments[static_cast<std::size_t>(k)];
-    model.weights(k) = mom.weight / n;
-    model.means.row(k) = mom.mean.transpose();
-    Eigen::MatrixXd& cov = model.covariances[static_cast<std::size_t>(k)];
-    if (!(mom.weight > 0.0)) {
-      cov = Eigen::MatrixXd::Constant(p, p, std::numeric_limits<double>::quiet_NaN());
-      continue;
-    }
-    switch (model.structure) {
-      case CovarianceStructure::Full:
-        cov = mom.scatter / mom.weight + ridge;
-        break;
-      case CovarianceStructure::Diagonal:
-        cov = (mom.scatter.diagonal() / mom.weight).asDiagonal();
-        cov += ridge;
-        break;
-      case CovarianceStructure::Spherical:
-        cov = (mom.scatter.trace() / (mom.weight * static_cast<double>(p)) + set.reg_abs) *
-              Eigen::MatrixXd::Identity(p, p);
-        break;
-      case CovarianceStructure::Tied:
-        pooled += mom.scatter;
-        break;
-    }
-  }
-  if (model.structure == CovarianceStructure::Tied) {
-    const Eigen::MatrixXd shared = pooled / n + ridge;
-    for (auto& c : model.covariances) c = shared;
-  }
-  return model;
+  return mixture_m_step(data.all_moments(current, t), n, set.options->structure, p, set.reg_abs);
 }
 
 void check_progress(const MixtureOptions& o, const char* stage, double fraction) {
@@ -261,23 +296,12 @@ bool handle_collapse(const EmData& data, MixtureModel& model, Eigen::MatrixXd& t
                      std::vector<CollapseEvent>& events) {
   const Index k_count = model.components();
   const double n = static_cast<double>(data.rows());
-  std::vector<CollapseEvent> found;
+  std::vector<CollapseEvent> found = collapsed_components(model, n, set.min_rows);
   std::vector<bool> healthy(static_cast<std::size_t>(k_count), true);
-  for (Index k = 0; k < k_count; ++k) {
-    CollapseEvent e;
+  for (auto& e : found) {
     e.start = start;
     e.iteration = iteration;
-    e.component = k;
-    CholeskyFactor f;
-    if (!(model.weights(k) * n >= set.min_rows)) {
-      e.reason = CollapseReason::SmallWeight;
-    } else if (!f.compute(model.covariances[static_cast<std::size_t>(k)])) {
-      e.reason = CollapseReason::NotPositiveDefinite;
-    } else {
-      continue;
-    }
-    healthy[static_cast<std::size_t>(k)] = false;
-    found.push_back(e);
+    healthy[static_cast<std::size_t>(e.component)] = false;
   }
   if (found.empty()) return false;
   if (found.size() == static_cast<std::size_t>(k_count))
@@ -408,9 +432,9 @@ void validate_options(const MixtureOptions& o, Index n_input) {
                                      " exceeds the number of rows (" + std::to_string(n_input) + ")");
 }
 
-// Rejects columns without spread where the regularisation cannot (or should not)
-// stand in for it; returns the mean of the column variances.
-double check_columns(const Eigen::VectorXd& variance, const MixtureOptions& o) {
+}  // namespace
+
+double mixture_check_columns(const Eigen::VectorXd& variance, const MixtureOptions& o) {
   std::string constant;
   Index count = 0;
   for (Index j = 0; j < variance.size(); ++j)
@@ -430,6 +454,8 @@ double check_columns(const Eigen::VectorXd& variance, const MixtureOptions& o) {
                                      "diagonal or spherical structure with a positive regularisation");
   return variance.mean();
 }
+
+namespace {
 
 Eigen::MatrixXd one_hot(const Eigen::VectorXi& labels, Index k_count) {
   Eigen::MatrixXd t = Eigen::MatrixXd::Zero(labels.size(), k_count);
@@ -491,14 +517,8 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
     variance(j) = m2 / count;
     column_mean(j) = mean;
   }
-  Settings set{&o, o.regularisation * check_columns(variance, o), 0.0, p};
-  if (o.min_component_rows >= 0.0) {
-    set.min_rows = o.min_component_rows;
-  } else {
-    set.min_rows = o.structure == CovarianceStructure::Full   ? static_cast<double>(p + 1)
-                   : o.structure == CovarianceStructure::Tied ? 1.0
-                                                              : 2.0;
-  }
+  Settings set{&o, o.regularisation * mixture_check_columns(variance, o), 0.0, p};
+  set.min_rows = mixture_min_component_rows(o, p);
 
   std::unique_ptr<EmData> data;
   Eigen::MatrixXd imputed;  // the k-means++ start needs complete rows
@@ -569,8 +589,8 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
   result.log_likelihood = best.trace.back();
   result.n_parameters = mixture_parameter_count(k_final, p, o.structure);
   // Schwarz (1978); Biernacki, Celeux & Govaert (2000).
-  result.bic = -2.0 * result.log_likelihood + static_cast<double>(result.n_parameters) * std::log(static_cast<double>(n));
-  result.icl = result.bic - 2.0 * best.posterior.sum_t_log_t;
+  result.bic = mixture_bic(result.log_likelihood, result.n_parameters, n);
+  result.icl = mixture_icl(result.bic, best.posterior.sum_t_log_t);
   result.converged = best.converged;
   result.iterations = best.iterations;
   result.loglik_trace = std::move(best.trace);

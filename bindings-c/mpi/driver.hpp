@@ -23,6 +23,8 @@ struct FitArgs {
   Common common;
   std::string output;
   cli::FitFlags fit;
+  std::string start;           // mixture, mcd: a model file as the start (else chosen on a sample)
+  int64_t sample_rows = 2000;  // mixture, mcd: rows gathered on rank 0 to choose the start
 };
 
 struct ScoreArgs {

@@ -44,6 +44,12 @@ int main(int argc, char** argv) {
   fit_app->add_option("-o,--output", fit.output, "Model file to write (rank 0)")->required();
   cli::add_fit_flags(*fit_app, fit.fit, true);
   fit_app->add_option("--reference", fit.fit.reference, "Scoring reference recorded in the model (as ellipsa fit)");
+  fit_app->add_option("--start", fit.start,
+                      "mixture, mcd: start from this model file (read by rank 0) instead of a fit on a gathered sample");
+  fit_app->add_option("--sample-rows", fit.sample_rows,
+                      "mixture, mcd: rows gathered on rank 0 (evenly from every rank) to choose the start")
+      ->capture_default_str()
+      ->check(CLI::Range(int64_t{2}, int64_t{100000000}));
   add_common(*fit_app, fit.common);
 
   mpi::ScoreArgs score;
@@ -76,6 +82,11 @@ int main(int argc, char** argv) {
     code = fit_app->parsed() ? mpi::run_fit(comm, fit) : mpi::run_score(comm, score);
   } catch (const mpi::JobStopped& s) {
     code = s.exit_code;
+  } catch (const std::exception& e) {
+    // Outside any step: the other ranks may be waiting for this one, so the job ends here.
+    std::fprintf(stderr, "ellipsa-mpi: rank %d: internal error: %s; ending the job\n", rank, e.what());
+    std::fflush(stderr);
+    MPI_Abort(MPI_COMM_WORLD, cli::kExitInternal);
   }
   MPI_Finalize();
   return code;

@@ -126,6 +126,15 @@ int64_t Comm::sum(int64_t local, const char* what) {
   return total;
 }
 
+std::vector<int64_t> Comm::sum(const std::vector<int64_t>& local, const char* what) {
+  std::vector<int64_t> total(local.size(), 0);
+  MPI_Request r;
+  MPI_Iallreduce(local.data(), total.data(), static_cast<int>(local.size()), MPI_INT64_T, MPI_SUM, comm_, &r);
+  wait(&r, 1, what);
+  bytes_sent_ += static_cast<int64_t>(local.size()) * 8;
+  return total;
+}
+
 double Comm::max(double local, const char* what) {
   double m = 0.0;
   allreduce(&local, &m, MPI_DOUBLE, MPI_MAX, what);

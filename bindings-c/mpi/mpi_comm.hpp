@@ -48,6 +48,10 @@ class Comm {
   double sum(double local, const char* what);
   int64_t sum(int64_t local, const char* what);
   double max(double local, const char* what);
+  // Element-wise sums of counts over the ranks, on every rank (integer sums:
+  // the result does not depend on the order MPI adds them in). Counted in
+  // bytes_sent() as one contribution of this rank.
+  std::vector<int64_t> sum(const std::vector<int64_t>& local, const char* what);
 
   // Bytes this rank sent of statistics (tree_reduce, broadcast and gather
   // payloads with their length words); not the status agreements.

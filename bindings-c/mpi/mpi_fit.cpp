@@ -84,11 +84,15 @@ int run_fit(Comm& comm, const FitArgs& a) {
   FitReport report;
   if (method == "classical" || method == "ledoit-wolf" || method == "oas") {
     fit_streaming(comm, a, columns, report);
+  } else if (method == "mixture") {
+    fit_mixture_mpi(comm, a, columns, report);
+  } else if (method == "mcd") {
+    fit_mcd_mpi(comm, a, columns, report);
   } else {
     step(comm, [&] {  // said once, by rank 0
       if (comm.rank() == 0)
         throw cli::CliError(cli::kExitUsage, "--method " + method +
-                                                 " is not distributed yet (classical, ledoit-wolf, oas; "
+                                                 " is not distributed (classical, ledoit-wolf, oas, mixture, mcd; "
                                                  "fit it with ellipsa fit)");
     });
   }

@@ -14,7 +14,9 @@ void emit_fit_summary(const Comm& comm, const FitArgs& a, const std::vector<std:
   nlohmann::json j{{"method", a.fit.method}, {"ranks", comm.size()}, {"rows_read", r.rows_read},
                    {"rows_used", used}, {"rows_dropped", dropped}, {"columns", columns},
                    {"reductions", r.reductions}, {"bytes_per_reduction", r.bytes_per_reduction},
-                   {"seconds", {{"read", r.read_seconds}, {"reduce", r.reduce_seconds}, {"fit", r.fit_seconds},
+                   {"iterations_distributed", r.iterations},
+                   {"seconds", {{"read", r.read_seconds}, {"start", r.start_seconds}, {"reduce", r.reduce_seconds},
+                                {"fit", r.fit_seconds},
                                 {"total", r.total_seconds}}},
                    {"output", a.output}};
   for (const char* name : {"shrinkage_intensity", "log_likelihood", "iterations", "converged", "log_det"}) {

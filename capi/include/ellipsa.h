@@ -832,6 +832,246 @@ ELLIPSA_API ellipsa_status ellipsa_model_from_accumulator(ellipsa_model **out,
 /** @} */
 
 /* ======================================================================== */
+/** @name Iterative fits from statistics (distributed drivers)
+ *  The steps of the mixture EM and of the FAST-MCD C-steps as statistics of
+ *  pieces of the rows that merge exactly, so that a driver holding the rows
+ *  in several processes (bindings-c/mpi, docs/distributed.md) runs the same
+ *  iterations as one process: per iteration, each process adds its rows, the
+ *  statistics travel as bytes and merge, and the next estimate is made from
+ *  the merged statistics. Nothing here communicates; sizes depend on p and K,
+ *  never on the number of rows.
+ *  @{ */
+
+/** Flag level of the log-density cutoff of mixtures: a fitted mixture flags
+ *  the rows whose log-density lies below the lower ELLIPSA_MIXTURE_CUTOFF_TAIL
+ *  quantile of its fitting rows' log-densities (Hyndman & Fan 1996,
+ *  definition 7: with m rows sorted ascending v_0..v_(m-1), h = (m-1) tail,
+ *  cutoff v_floor(h) + (h - floor(h)) (v_(floor(h)+1) - v_floor(h))). */
+#define ELLIPSA_MIXTURE_CUTOFF_TAIL 0.025
+/** Level of the MCD reweighting step: rows whose squared distance under the
+ *  raw estimate is at most chi2q(p, ELLIPSA_MCD_REWEIGHT_LEVEL) are kept. */
+#define ELLIPSA_MCD_REWEIGHT_LEVEL 0.975
+
+/** Opaque E-step statistics of a mixture under given parameters. */
+typedef struct ellipsa_em_statistics ellipsa_em_statistics;
+
+/**
+ * @brief Creates empty E-step statistics under the parameters of a mixture model.
+ *
+ * Adding rows (ellipsa_em_statistics_add()) computes their responsibilities
+ * under these parameters (the E-step of ellipsa_model_fit()) and accumulates,
+ * per component, the responsibility-weighted count, mean and centred
+ * cross-products, the plain mean and cross-products of the rows, the
+ * log-likelihood and sum t log t. The handle keeps a copy of the parameters.
+ * @param[out] out    The statistics, or NULL on failure; destroy them with
+ *                    ellipsa_em_statistics_destroy().
+ * @param parameters  A mixture model (::ELLIPSA_KIND_MIXTURE): fitted, loaded
+ *                    from a file, or made by ellipsa_em_statistics_m_step().
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (not a
+ *         mixture model); ::ELLIPSA_NUM_SINGULAR (a component's covariance is
+ *         not positive definite); ::ELLIPSA_ERR_MEMORY. Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_em_statistics_create(ellipsa_em_statistics **out,
+                                                        const ellipsa_model *parameters);
+
+/**
+ * @brief Destroys E-step statistics; NULL is a no-op.
+ * @param statistics The handle, or NULL.
+ */
+ELLIPSA_API void ellipsa_em_statistics_destroy(ellipsa_em_statistics *statistics);
+
+/**
+ * @brief Adds rows: their E-step under the handle's parameters, accumulated.
+ *
+ * Complete rows only: a row with a NaN is skipped and counted
+ * (ellipsa_em_statistics_summary()); EM over missing coordinates is not
+ * available from statistics. An infinite value refuses the whole call with
+ * nothing added. The result does not depend on how rows are split into calls
+ * beyond rounding, nor on the thread count (`ELLIPSA_THREADS`).
+ * @param statistics The statistics (used by one thread at a time).
+ * @param rows       n x p view, p the parameters' dimension; n may be 0.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_SHAPE (column
+ *         count, negative sizes or strides); ::ELLIPSA_ERR_DATA (an infinite
+ *         value: the message names its chunk row and column);
+ *         ::ELLIPSA_ERR_ARGUMENT (`ELLIPSA_THREADS` malformed);
+ *         ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_em_statistics_add(ellipsa_em_statistics *statistics,
+                                                     const ellipsa_matrix *rows);
+
+/**
+ * @brief Adds everything other statistics hold (exact merge of the moments).
+ * @param into  The statistics that grow.
+ * @param from  Statistics under the same parameters (bit for bit: a
+ *              fingerprint of the parameters is compared); not modified; not into.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (same
+ *         handle, or other parameters).
+ */
+ELLIPSA_API ellipsa_status ellipsa_em_statistics_merge(ellipsa_em_statistics *into,
+                                                       const ellipsa_em_statistics *from);
+
+/**
+ * @brief Log-likelihood of the rows added under the parameters, and row counts.
+ * @param[out] log_likelihood Sum of the rows' log-densities under the mixture, or NULL.
+ * @param[out] rows           Complete rows added, or NULL.
+ * @param[out] skipped        Rows skipped for a NaN, or NULL.
+ * @param statistics          The statistics.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (statistics).
+ */
+ELLIPSA_API ellipsa_status ellipsa_em_statistics_summary(double *log_likelihood, int64_t *rows,
+                                                         int64_t *skipped,
+                                                         const ellipsa_em_statistics *statistics);
+
+/**
+ * @brief Writes the statistics as bytes (without the parameters), to send
+ *        them to another process.
+ *
+ * Frame as ellipsa_accumulator_save() with magic `ELLEMSTA`, version 1;
+ * payload (docs/distributed.md): K, p, skipped rows, a 64-bit fingerprint of
+ * the parameters, the log-likelihood and sum t log t, then K + 1 moment
+ * blocks of 8 (4 + 2 p + p (p + 1) / 2) bytes each: in all
+ * 8 (6 + (K + 1)(4 + 2 p + p (p + 1) / 2)) + 32 bytes, whatever the rows.
+ * @param[out] bytes   A buffer owned by the caller: free it with ellipsa_text_free().
+ * @param[out] length  Its length in bytes.
+ * @param statistics   The statistics (not modified).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_MEMORY. Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_em_statistics_save(char **bytes, int64_t *length,
+                                                      const ellipsa_em_statistics *statistics);
+
+/**
+ * @brief Rebuilds statistics from bytes of ellipsa_em_statistics_save(), under
+ *        the parameters they were computed under.
+ *
+ * Checks the frame as ellipsa_accumulator_load() does, K and p against the
+ * parameters, the fingerprint of the parameters, finite numbers and counts
+ * that fit together (responsibilities summing to the row count).
+ * @param[out] out      The statistics, or NULL on failure.
+ * @param bytes         The bytes.
+ * @param length        Number of bytes, > 0.
+ * @param parameters    The mixture model the statistics were computed under.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (length;
+ *         not a mixture model); ::ELLIPSA_ERR_FORMAT (the message names the
+ *         failed check, including "computed under other parameters");
+ *         ::ELLIPSA_NUM_SINGULAR (as ellipsa_em_statistics_create());
+ *         ::ELLIPSA_ERR_MEMORY. Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_em_statistics_load(ellipsa_em_statistics **out, const char *bytes,
+                                                      int64_t length, const ellipsa_model *parameters);
+
+/**
+ * @brief The M-step: the next parameters from merged statistics.
+ *
+ * The M-step of ellipsa_model_fit() (the same code): weights, means and
+ * covariances of the parameters' structure (full, diagonal, tied or
+ * spherical), plus the options' regularisation times the mean column
+ * variance of the rows added. A component that collapses (effective rows
+ * below p + 1 for full, 2 for diagonal and spherical, 1 for tied, or a
+ * covariance that is not positive definite) is an error here, where
+ * ellipsa_model_fit() re-seeds it at the worst-explained row: re-seeding
+ * needs the rows. The model made is a mixture model whose log_likelihood,
+ * bic and icl diagnostics are those of the statistics (the previous
+ * parameters), converged 0; it serves as the parameters of the next
+ * iteration (ellipsa_model_save() carries it to other processes exactly).
+ * @param[out] next     The next parameters, or NULL on failure.
+ * @param statistics    Merged statistics of all rows.
+ * @param options       Method ::ELLIPSA_METHOD_MIXTURE, the parameters'
+ *                      structure, the regularisation; column names, when
+ *                      set, replace those of the parameters.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (another
+ *         method or structure, missing-value policy em); ::ELLIPSA_ERR_SHAPE
+ *         (column names that do not match p); ::ELLIPSA_ERR_DATA (fewer rows
+ *         than free parameters, a column without spread that the
+ *         regularisation cannot stand in for, as ellipsa_model_fit());
+ *         ::ELLIPSA_NUM_SINGULAR (a collapsed component, named with the
+ *         reason); ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_em_statistics_m_step(ellipsa_model **next,
+                                                        const ellipsa_em_statistics *statistics,
+                                                        const ellipsa_fit_options *options);
+
+/**
+ * @brief The fitted model: the statistics' parameters with their diagnostics.
+ *
+ * The model of the parameters the statistics were computed under, with the
+ * log-likelihood of the rows, BIC and ICL (as ellipsa_model_fit()), the
+ * driver's convergence outcome and iteration count, and the log-density
+ * cutoff, which the caller computes from the fitting rows' log-densities
+ * (ellipsa_model_score_v3() under the parameters; see
+ * ::ELLIPSA_MIXTURE_CUTOFF_TAIL). The selection table has the one candidate.
+ * @param[out] out              The model, or NULL on failure.
+ * @param statistics            Merged statistics of all rows.
+ * @param log_density_cutoff    Finite.
+ * @param converged             1 when the stopping rule was met, else 0.
+ * @param iterations            EM iterations done, >= 0.
+ * @param options               As ellipsa_em_statistics_m_step().
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (as
+ *         ellipsa_em_statistics_m_step(), a cutoff that is not finite,
+ *         converged not 0 or 1, negative iterations); ::ELLIPSA_ERR_SHAPE;
+ *         ::ELLIPSA_ERR_DATA (no rows); ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_em_statistics_model(ellipsa_model **out,
+                                                       const ellipsa_em_statistics *statistics,
+                                                       double log_density_cutoff, int32_t converged,
+                                                       int64_t iterations,
+                                                       const ellipsa_fit_options *options);
+
+/**
+ * @brief Adds to an accumulator the rows whose squared distance is at most a limit.
+ *
+ * The C-step's subset (the rows under the h-th smallest distance) and the
+ * reweighting step's kept rows are such rows; their accumulators merge and
+ * travel as bytes like any other. Rows with a NaN value that are within the
+ * limit are skipped and counted (ellipsa_accumulator_rows()); a NaN distance
+ * is never within. An infinite value refuses the whole call.
+ * @param accumulator  The accumulator (used by one thread at a time).
+ * @param rows         n x p view, p the accumulator's.
+ * @param d2           n squared distances (e.g. from ellipsa_model_score_v3());
+ *                     may be NULL when n = 0.
+ * @param limit        Rows with d2 <= limit are added; not NaN.
+ * @param[out] added   Rows added, or NULL.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_SHAPE;
+ *         ::ELLIPSA_ERR_ARGUMENT (limit NaN); ::ELLIPSA_ERR_DATA (an
+ *         infinite value); ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_accumulator_add_within(ellipsa_accumulator *accumulator,
+                                                          const ellipsa_matrix *rows, const double *d2,
+                                                          double limit, int64_t *added);
+
+/**
+ * @brief The MCD model from the statistics of its h-subset and of the rows
+ *        the reweighting keeps.
+ *
+ * The finish of ellipsa_model_fit() with method mcd (the same code): the raw
+ * estimate is the subset's mean and covariance (divisor h) times the
+ * Croux-Haesbroeck factor and the small-sample factor; with `kept`, the
+ * location and scatter are the mean and covariance (divisor: rows kept) of
+ * the kept rows times the reweighting factor and its small-sample factor
+ * (the raw estimate stands when p or fewer rows were kept or that
+ * covariance is singular); without, they are the raw estimate (to compute
+ * the distances that choose the kept rows: at most
+ * chi2q(p, ::ELLIPSA_MCD_REWEIGHT_LEVEL)). The row sets of the model
+ * (ellipsa_model_row_set()) are empty: statistics do not list rows.
+ * @param[out] out  The model, or NULL on failure.
+ * @param subset    Accumulator of the h rows of the subset.
+ * @param kept      Accumulator of the rows kept by the reweighting, or NULL.
+ * @param rows      n, the number of rows of the fit (h follows from n, p, alpha).
+ * @param options   Method ::ELLIPSA_METHOD_MCD with alpha 0.5 and the normal
+ *                  consistency rule; small-sample factors on or off; column names.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (another
+ *         method, alpha or consistency rule; a subset whose row count is not
+ *         h; more kept rows than n); ::ELLIPSA_ERR_SHAPE (accumulators or
+ *         column names of different p); ::ELLIPSA_ERR_DATA (n <= p);
+ *         ::ELLIPSA_NUM_SINGULAR (the subset's covariance is not positive
+ *         definite); ::ELLIPSA_ERR_MEMORY.
+ */
+ELLIPSA_API ellipsa_status ellipsa_model_from_mcd_statistics(ellipsa_model **out,
+                                                             const ellipsa_accumulator *subset,
+                                                             const ellipsa_accumulator *kept, int64_t rows,
+                                                             const ellipsa_fit_options *options);
+/** @} */
+
+/* ======================================================================== */
 /** @name Model queries
  *  Read-only, thread-safe on a shared model. Matrices are written row-major
  *  into caller buffers whose capacity (in elements) is passed and checked.

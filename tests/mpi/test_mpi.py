@@ -150,6 +150,149 @@ check(summary["rows"] == 20000 and summary["flagged"] == flagged,
       f"summary: 20000 rows (generated) and {flagged} flagged (ellipsa score); got {summary['rows']}, {summary['flagged']}")
 check(json.loads(out)["rows"] == 20000, "--json summary on standard output")
 
+
+# 5a. Iterative fits (EM, FAST-MCD C-steps), -np 3, against the core's own
+# single-process iterations from the same start (tests/mpi/iterative_reference:
+# core::fit_mixture from the start's E-step, core C-steps and finish; no MPI,
+# not the statistics path). The start is ellipsa fit on an even sample of the
+# rows (every 10th; every 3rd of the demo), as the driver chooses it on rank 0.
+# Generated set: 3000 rows, 3 columns, two clusters (2:1) and 30 gross
+# outliers, seeded, written exactly into 4 files of uneven sizes.
+ITERATIVE_REFERENCE = os.environ["ELLIPSA_ITERATIVE_REFERENCE"]
+rng2 = random.Random(17)
+rows2 = []
+for i in range(3000):
+    if i % 100 == 7:
+        vals = [rng2.uniform(20.0, 40.0) for _ in range(3)]
+    elif i % 3 == 0:
+        z = rng2.gauss(0.0, 1.0)
+        vals = [8.0 + 0.7 * z + 0.3 * rng2.gauss(0, 1), 3.0 + 0.5 * z + 0.5 * rng2.gauss(0, 1), rng2.gauss(1.0, 0.4)]
+    else:
+        z = rng2.gauss(0.0, 1.0)
+        vals = [z, 0.6 * z + 0.8 * rng2.gauss(0, 1), 0.5 * rng2.gauss(0, 1)]
+    rows2.append(f"g{i}," + ",".join(repr(v) for v in vals))
+files2, at = [], 0
+for k, n in enumerate([700, 1100, 200, 1000]):
+    name = f"gen{k}.csv"
+    with open(path(name), "w") as f:
+        f.write("id,u,v,w\n" + "\n".join(rows2[at:at + n]) + "\n")
+    files2.append(name)
+    at += n
+with open(path("gen-sample.csv"), "w") as f:
+    f.write("id,u,v,w\n" + "\n".join(rows2[::10]) + "\n")
+with open(demo) as f:
+    demo_lines = f.read().splitlines()
+with open(path("demo-sample.csv"), "w") as f:
+    f.write("\n".join([demo_lines[0]] + demo_lines[1::3]) + "\n")  # 200 rows: a 7-dimensional K = 2 mixture has 71 parameters
+
+
+def read_reference(name):
+    out = {}
+    with open(path(name)) as f:
+        for line in f:
+            key, *vals = line.split()
+            out.setdefault(key, []).append([float(v) for v in vals])
+    return out
+
+
+def worst(a, b, scale):
+    return max(abs(x - y) / s for x, y, s in zip(a, b, scale))
+
+
+def compare_mixture(model, ref, tol, what):
+    comps = model["components"]
+    p = len(comps[0]["location"])
+    gaps = [worst([c["weight"] for c in comps], ref["weights"][0], [1.0] * len(comps))]
+    for k, c in enumerate(comps):
+        sd = [c["scatter"][j][j] ** 0.5 for j in range(p)]
+        gaps.append(worst(c["location"], ref["means"][0][k * p:(k + 1) * p], sd))
+        flat = [x for row in c["scatter"] for x in row]
+        gaps.append(worst(flat, ref["covariance"][k], [sd[i] * sd[j] for i in range(p) for j in range(p)]))
+    gaps.append(abs(model["log_likelihood"] - ref["log_likelihood"][0][0]) / abs(ref["log_likelihood"][0][0]))
+    print(f"{what}: largest relative difference {max(gaps):.3g} (tolerance {tol:g})")
+    check(max(gaps) <= tol, f"{what}: within {tol:g} of the single-process EM (largest {max(gaps):.3g})")
+
+
+def compare_mcd(model, ref, tol, what):
+    p = len(model["location"])
+    gaps = []
+    for loc, sc in (("location", "scatter"), ("raw_location", "raw_scatter")):
+        sd = [model[sc][j][j] ** 0.5 for j in range(p)]
+        gaps.append(worst(model[loc], ref[loc][0], sd))
+        flat = [x for row in model[sc] for x in row]
+        gaps.append(worst(flat, ref[sc][0], [sd[i] * sd[j] for i in range(p) for j in range(p)]))
+    print(f"{what}: largest relative difference {max(gaps):.3g} (tolerance {tol:g})")
+    check(max(gaps) <= tol, f"{what}: within {tol:g} of the single-process C-steps (largest {max(gaps):.3g})")
+
+
+# Tolerances (docs/distributed.md, Determinism). Both runs make the same
+# iterations; they differ by the rounding of other merge orders only
+# (measured: at most 2.2e-15 for EM at tolerance 1e-10, 9.2e-16 for the MCD,
+# relative to the spread). EM allows 1e-9, as one iteration more or less at
+# a stopping decision within rounding of the tolerance would move it; the
+# MCD, whose subsets are the same, 1e-10.
+EM_TOL, MCD_TOL = 1e-9, 1e-10
+for label, data, sample, split in (("generated", files2, "gen-sample.csv", []),
+                                   ("demo", [demo], "demo-sample.csv", ["--split-rows"])):
+    run([BIN, "fit", "--method", "mixture", "--components", "2", path(sample), "-o", path(f"start-mix-{label}.json")])
+    code, out, err = mpirun(3, "fit", "--method", "mixture", "--components", "2", "--tolerance", "1e-10",
+                            "--start", f"start-mix-{label}.json", "-o", f"mpi-mix-{label}.json", "--json",
+                            *split, *data)
+    check(code == 0, f"{label} mixture: -np 3 fit exits 0 ({err[-500:]})")
+    if code == 0:
+        run([ITERATIVE_REFERENCE, "mixture", path(f"start-mix-{label}.json"), path(f"ref-mix-{label}.txt"), "full",
+             "1e-10", "500", *[path(f) if not os.path.isabs(f) else f for f in data]])
+        compare_mixture(json.loads(read_bytes(f"mpi-mix-{label}.json")), read_reference(f"ref-mix-{label}.txt"),
+                        EM_TOL, f"{label} mixture -np 3")
+        if label == "generated":
+            # The log-density cutoff: NumPy's linear-interpolation quantile
+            # (Hyndman & Fan definition 7) at 0.025 of every row's log-density
+            # under the model, computed here from the model's parameters.
+            import numpy as np
+            model = json.loads(read_bytes(f"mpi-mix-{label}.json"))
+            x = np.array([[float(v) for v in r.split(",")[1:]] for r in rows2])
+            dens = np.zeros(len(x))
+            for c in model["components"]:
+                mu, s = np.array(c["location"]), np.array(c["scatter"])
+                d = x - mu
+                q = np.einsum("ij,ij->i", d @ np.linalg.inv(s), d)
+                dens += c["weight"] * np.exp(-0.5 * q) / np.sqrt(np.linalg.det(2 * np.pi * s))
+            expected_cut = np.quantile(np.log(dens), 0.025, method="linear")
+            check(abs(model["log_density_cutoff"] - expected_cut) <= 1e-9 * abs(expected_cut),
+                  f"generated mixture: log-density cutoff {model['log_density_cutoff']} equals NumPy's "
+                  f"0.025 quantile {expected_cut}")
+        summary = json.loads(out)
+        ref_steps = int(read_reference(f"ref-mix-{label}.txt")["iterations"][0][0]) + 1
+        # core::fit_mixture counts iterations from 0, its first being the driver's first M-step
+        check(summary["iterations_distributed"] == ref_steps,
+              f"{label} mixture: {summary['iterations_distributed']} M-steps, as the single-process EM ({ref_steps})")
+        print(f"{label} mixture: {summary['iterations_distributed']} M-steps, "
+              f"{summary['bytes_per_reduction']} bytes per iteration")
+    run([BIN, "fit", "--method", "mcd", path(sample), "-o", path(f"start-mcd-{label}.json")])
+    code, out, err = mpirun(3, "fit", "--method", "mcd", "--start", f"start-mcd-{label}.json",
+                            "-o", f"mpi-mcd-{label}.json", "--json", *split, *data)
+    check(code == 0, f"{label} mcd: -np 3 fit exits 0 ({err[-500:]})")
+    if code == 0:
+        run([ITERATIVE_REFERENCE, "mcd", path(f"start-mcd-{label}.json"), path(f"ref-mcd-{label}.txt"), "full",
+             "0", "0", *[path(f) if not os.path.isabs(f) else f for f in data]])
+        compare_mcd(json.loads(read_bytes(f"mpi-mcd-{label}.json")), read_reference(f"ref-mcd-{label}.txt"),
+                    MCD_TOL, f"{label} mcd -np 3")
+        summary = json.loads(out)
+        print(f"{label} mcd: {summary['iterations_distributed']} C-steps, "
+              f"{summary['bytes_per_reduction']} bytes per C-step")
+
+# Without --start the driver chooses the start on its gathered sample (2000
+# rows: all of the demo's 600); the fitted MCD then equals ellipsa fit on the
+# whole data (the same subset reached; rounding only, 1e-10 allowed).
+code, _, err = mpirun(3, "fit", "--method", "mcd", "--split-rows", "-o", "mpi-mcd-demo-own.json", demo)
+check(code == 0, f"demo mcd without --start exits 0 ({err[-300:]})")
+run([BIN, "fit", "--method", "mcd", demo, "-o", path("one-mcd-demo.json")])
+if code == 0:
+    m1, m2 = json.loads(read_bytes("mpi-mcd-demo-own.json")), json.loads(read_bytes("one-mcd-demo.json"))
+    compare_fits(m1, m2, 1e-10, "demo mcd: -np 3 with its own start equals ellipsa fit on the whole file within 1e-10")
+code, _, err = mpirun(3, "fit", "--method", "mixture", "--components", "2", "-o", "mpi-mix-gen-own.json", *files2)
+check(code == 0, f"generated mixture without --start exits 0 ({err[-300:]})")
+
 # 5. A bad file on rank 2: the job stops naming rank, file and line; nothing is left.
 with open(path("part4.csv")) as f:
     lines = f.read().splitlines()
@@ -161,6 +304,10 @@ bad_files = files[:4] + ["bad4.csv"]
 code, _, err = mpirun(3, "fit", "-o", "faults/model.json", *bad_files)
 check(code == 3, f"bad file: fit exits 3 (got {code})")
 check("rank 2: bad4.csv:17:" in err, f"bad file: the message names rank 2, the file and line 17: {err[:400]}")
+code, _, err = mpirun(3, "fit", "--method", "mixture", "--components", "2", "-o", "faults/model.json", *bad_files)
+check(code == 3 and "rank 2: bad4.csv:17:" in err, f"bad file: the mixture fit exits 3 naming rank 2, bad4.csv, line 17 ({code})")
+code, _, err = mpirun(3, "fit", "--method", "mixture", "--components", "x", "-o", "faults/model.json", *files)
+check(code == 2 and "--components: 'x'" in err, f"a bad option: every rank stops with exit 2 and the message ({code})")
 code, _, err = mpirun(3, "score", "mpi-ledoit-wolf.json", *bad_files, "--output-dir", "faults")
 check(code == 3, f"bad file: score exits 3 (got {code})")
 check("rank 2: bad4.csv:17:" in err, "bad file: score names rank 2, the file and line 17")
