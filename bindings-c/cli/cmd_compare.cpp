@@ -7,7 +7,7 @@
 #include <sstream>
 
 #include "commands.hpp"
-#include "report_compare.hpp"
+#include "report/compare.hpp"
 
 namespace ellipsa::cli {
 namespace {

@@ -1,14 +1,14 @@
 // ellipsa report: one self-contained HTML page on how the rows of a CSV file
 // sit against a model file: which rows are flagged, what makes them stand out,
 // and how the rest look. The numbers come through the C interface only; the
-// page itself is laid out by report_html.cpp.
+// page itself is laid out by report/html.cpp.
 #include <algorithm>
 #include <cmath>
 #include <sstream>
 
 #include "commands.hpp"
 #include "number_parse.hpp"
-#include "report_html.hpp"
+#include "report/html.hpp"
 
 namespace ellipsa::cli {
 namespace {

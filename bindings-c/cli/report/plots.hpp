@@ -4,7 +4,7 @@
 #include <string>
 #include <vector>
 
-#include "report_html.hpp"
+#include "html.hpp"
 
 namespace ellipsa::cli {
 

@@ -1,7 +1,7 @@
 // Inline SVG for the HTML report: a small builder that escapes every piece of
 // text it is given, and the plotting basics on top of it (linear scales, tick
 // positions, a framed plot area with axes). No charting beyond that lives here;
-// the report's plots are composed from these in report_html.cpp.
+// the report's plots are composed from these in report/html.cpp.
 #pragma once
 #include <string>
 #include <string_view>

@@ -1,14 +1,14 @@
 // The page around the figures: styles, the at-a-glance summary, the caution,
 // the list of flagged rows and the model facts. One file, no external resource.
-#include "report_html.hpp"
+#include "html.hpp"
 
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <sstream>
 
-#include "report_plots.hpp"
-#include "report_svg.hpp"
+#include "plots.hpp"
+#include "svg.hpp"
 
 namespace ellipsa::cli {
 
@@ -154,7 +154,7 @@ std::string matrix_subject(const ReportInput& in, bool any_flagged) {
 
 }  // namespace
 
-// Shared with the comparison page (report_compare.cpp), so both pages look alike.
+// Shared with the comparison page (report/compare.cpp), so both pages look alike.
 const char* report_style() { return kStyle; }
 std::string report_p_value(double p) { return p_value_text(p); }
 std::string report_p_value_plain(double p) { return p_value_plain(p); }

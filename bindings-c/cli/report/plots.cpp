@@ -1,4 +1,4 @@
-#include "report_plots.hpp"
+#include "plots.hpp"
 
 #include <algorithm>
 #include <cmath>
@@ -6,7 +6,7 @@
 #include <map>
 #include <numeric>
 
-#include "report_svg.hpp"
+#include "svg.hpp"
 
 namespace ellipsa::cli {
 

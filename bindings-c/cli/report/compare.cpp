@@ -1,13 +1,13 @@
 // The comparison in words (terminal) and as an HTML page. The sentences are
 // the same in both, so that what a reader is told does not depend on the medium.
-#include "report_compare.hpp"
+#include "compare.hpp"
 
 #include <cmath>
 #include <cstdio>
 #include <sstream>
 
-#include "report_html.hpp"
-#include "report_svg.hpp"
+#include "html.hpp"
+#include "svg.hpp"
 
 namespace ellipsa::cli {
 namespace {

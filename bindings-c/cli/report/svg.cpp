@@ -1,4 +1,4 @@
-#include "report_svg.hpp"
+#include "svg.hpp"
 
 #include <algorithm>
 #include <cmath>
