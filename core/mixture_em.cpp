@@ -196,16 +196,9 @@ struct StartOutcome {
 
 struct Settings {
   const MixtureOptions* options;
-  double reg_abs;  // the regularisation times the mean column variance (spherical ridge)
+  double reg_abs;
   double min_rows;
   Index p;
-  // Ridge of each column: the regularisation times that column's variance
-  // (the mean variance for a constant column), so that a change of units of
-  // one column changes its ridge alike and full, diagonal and tied fits stay
-  // equivariant under column scaling. A ridge from the mean variance gave a
-  // column of variance 1e-8 beside one of 1e16 a ridge 1e15 times its own
-  // variance (tests/capi/test_numerical_extremes.cpp).
-  Eigen::VectorXd ridge;
 };
 
 // M-step: parameters from responsibilities. `current` supplies the conditional
@@ -221,7 +214,7 @@ MixtureModel m_step(const EmData& data, const MixtureModel& current, const Eigen
   model.means.resize(k_count, p);
   model.covariances.resize(static_cast<std::size_t>(k_count));
   Eigen::MatrixXd pooled = Eigen::MatrixXd::Zero(p, p);
-  const Eigen::MatrixXd ridge = set.ridge.asDiagonal();
+  const Eigen::MatrixXd ridge = set.reg_abs * Eigen::MatrixXd::Identity(p, p);
   const std::vector<ComponentMoments> moments = data.all_moments(current, t);
   for (Index k = 0; k < k_count; ++k) {
     const ComponentMoments& mom = moments[static_cast<std::size_t>(k)];
@@ -498,9 +491,7 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
     variance(j) = m2 / count;
     column_mean(j) = mean;
   }
-  const double mean_variance = check_columns(variance, o);
-  Settings set{&o, o.regularisation * mean_variance, 0.0, p, Eigen::VectorXd(p)};
-  for (Index j = 0; j < p; ++j) set.ridge(j) = o.regularisation * (variance(j) > 0.0 ? variance(j) : mean_variance);
+  Settings set{&o, o.regularisation * check_columns(variance, o), 0.0, p};
   if (o.min_component_rows >= 0.0) {
     set.min_rows = o.min_component_rows;
   } else {
@@ -550,7 +541,7 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
     MixtureModel provisional;
     if (em_missing) {
       provisional = provisional_missing_model(xu, t, o.structure);
-      for (auto& c : provisional.covariances) c.diagonal() += set.ridge;
+      for (auto& c : provisional.covariances) c.diagonal().array() += set.reg_abs;
     }
     StartOutcome outcome = run_em(*data, provisional, std::move(t), set, s, events);
     // A later start replaces the kept one only when it is higher by more than
@@ -586,9 +577,7 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
   result.collapses = std::move(events);
   result.rows_used = n;
   result.rows_dropped = n_input - n;
-  result.regularisation_added = o.structure == CovarianceStructure::Spherical
-                                    ? Eigen::VectorXd::Constant(p, set.reg_abs)
-                                    : set.ridge;
+  result.regularisation_added = set.reg_abs;
   return result;
 }
 

@@ -571,15 +571,9 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_option
 
 /**
  * @brief Mixtures: ridge added to every covariance diagonal, relative to the
- *        variance of each column of the data (>= 0; default 1e-6).
- *
- * Entry j of every covariance diagonal gets `relative` times the variance of
- * column j (a constant column, and every entry of a spherical covariance,
- * get `relative` times the mean column variance), so a change of the units of
- * one column does not change the fit of the others: full, diagonal and tied
- * mixtures are equivariant under column scaling.
+ *        mean column variance of the data (>= 0; default 1e-6).
  * @param options  The options.
- * @param relative Multiple of each column's variance, finite and >= 0.
+ * @param relative Multiple of the mean column variance, finite and >= 0.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (negative
  *         or not finite, or a method other than mixture).
  */
