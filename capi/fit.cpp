@@ -13,6 +13,7 @@
 #include "core/singularity.hpp"
 #include "fit_common.hpp"
 #include "matrix_view.hpp"
+#include "memory_ceiling.hpp"
 #include "threads.hpp"
 
 namespace ellipsa::capi {
@@ -158,6 +159,11 @@ extern "C" ELLIPSA_API ellipsa_status ellipsa_model_fit(ellipsa_model** out, con
     require_not_null(options, "options");
     const ellipsa_fit_options& o = *options;
     resolve_threads(o.threads);  // a bad ELLIPSA_THREADS fails before any work
+    {
+      // The ceiling is checked before anything that grows with n or p is allocated.
+      const auto view = checked_view(data, "data");
+      require_within_ceiling(o, view.rows(), view.cols());
+    }
     const PreparedData d = prepare(data, o);
     auto m = std::make_unique<ellipsa_model>();
     m->method = o.method;

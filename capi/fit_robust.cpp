@@ -55,6 +55,7 @@ core::RobustFit run(const PreparedData& d, const ellipsa_fit_options& o) {
     core::FastMcdOptions f;
     f.alpha = o.alpha;
     f.seed = o.seed;
+    f.starts = o.starts;
     f.small_sample = o.small_sample ? core::SmallSample::Both : core::SmallSample::Off;
     f.raw_consistency = raw_consistency_of(o);
     f.progress = progress_of(o);

@@ -244,6 +244,14 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_restarts(ellipsa_fit_options*
   });
 }
 
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_starts(ellipsa_fit_options* o, int32_t starts) {
+  return set("ellipsa_fit_options_set_starts", o, [&](ellipsa_fit_options& x) {
+    require_method(x, {ELLIPSA_METHOD_MCD}, "the number of random starts");
+    if (starts < 1 || starts > 100000) bad("starts must lie in [1, 100000]");
+    x.starts = starts;
+  });
+}
+
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_options* o,
                                                               int32_t max_iterations, double tolerance) {
   return set("ellipsa_fit_options_set_iterations", o, [&](ellipsa_fit_options& x) {

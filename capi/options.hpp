@@ -18,6 +18,7 @@ struct ellipsa_fit_options {
   int32_t k_max = 1;
   int32_t structure = ELLIPSA_STRUCTURE_FULL;
   int32_t restarts = 5;
+  int32_t starts = 500;  // FAST-MCD random starts (Rousseeuw & Van Driessen 1999 use 500)
   int32_t max_iterations = 500;
   double tolerance = 1e-6;
   double regularisation = 1e-6;
@@ -25,6 +26,7 @@ struct ellipsa_fit_options {
   int32_t consistency = ELLIPSA_CONSISTENCY_NORMAL;  // MCD, DetMCD: raw scatter scaling rule
   int32_t reference = ELLIPSA_REFERENCE_MODEL;  // MODEL = the default choice (score_reference.cpp)
   int32_t threads = 0;  // 0 = ELLIPSA_THREADS or the available cores (capi/threads.hpp)
+  int64_t memory_limit = 0;  // bytes; 0 = ELLIPSA_MEMORY_LIMIT or none (capi/memory_ceiling.hpp)
   ellipsa_progress_fn progress = nullptr;
   void* progress_user = nullptr;
 };

@@ -56,6 +56,17 @@ struct Search {
   mcd_detail::CStepWorkspace work;  // buffers for every C-step of this fit
 };
 
+// The part of the progress range [from, to] a stage reports in. The callback
+// is asked before every start and before every round of C-steps, so that a
+// request to stop is seen after at most one start (a random subset and
+// initial_csteps C-steps) or one round (at most best_kept C-steps): the bound
+// that tests/core/test_mcd_fast.cpp checks and ellipsa.h states.
+struct Span {
+  const char* stage;
+  double from, to;
+  double at(double done) const { return from + (to - from) * std::clamp(done, 0.0, 1.0); }
+};
+
 // A singular fit on stage rows: an exact fit of the whole problem if h rows
 // of the full data lie on its plane (recorded in s.exact); else the start is lost.
 void note_singular(Search& s, const Eigen::MatrixXd& z_stage, const SubsetFit& fit) {
@@ -92,9 +103,10 @@ std::optional<SubsetFit> random_start(Search& s, const Eigen::MatrixXd& zs, Inde
 // Starts inside one stage (the full data or a group): each start gets
 // `initial_csteps` C-steps with hs; the best `best_kept` survive.
 std::vector<Candidate> run_starts(Search& s, const Eigen::MatrixXd& zs, Index hs, int n_starts,
-                                  int& order) {
+                                  int& order, const Span& span) {
   std::vector<Candidate> out;
   for (int k = 0; k < n_starts && !s.exact; ++k) {
+    mcd_detail::report_progress(s.opt.progress, span.stage, span.at(static_cast<double>(k) / n_starts));
     std::optional<SubsetFit> f = random_start(s, zs, hs);
     ++s.starts;
     if (!f) continue;
@@ -119,7 +131,7 @@ std::vector<Candidate> run_starts(Search& s, const Eigen::MatrixXd& zs, Index hs
 // rows (a group or the pool), so their subsets and determinants do not compare
 // with this stage's; only their mean and scatter are used as the start.
 void refine(Search& s, const Eigen::MatrixXd& zs, Index hs, std::vector<Candidate>& c, int steps,
-            bool from_other_stage) {
+            bool from_other_stage, const Span& span) {
   const double inf = std::numeric_limits<double>::infinity();
   if (from_other_stage)
     for (auto& cand : c) {
@@ -129,6 +141,7 @@ void refine(Search& s, const Eigen::MatrixXd& zs, Index hs, std::vector<Candidat
   const int cap = steps < 0 ? s.opt.max_csteps : steps;
   std::vector<char> done(c.size(), 0), dropped(c.size(), 0);
   for (int step = 0; step < cap && !s.exact; ++step) {
+    mcd_detail::report_progress(s.opt.progress, span.stage, span.at(static_cast<double>(step) / cap));
     bool all_done = true;
     for (std::size_t k = 0; k < c.size(); ++k) {
       if (done[k]) continue;
@@ -263,8 +276,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   std::vector<Candidate> cands;
   int order = 0;
   if (n <= opt.nested_threshold) {
-    mcd_detail::report_progress(opt.progress, "random starts", 0.05);
-    cands = run_starts(s, st.z, h, opt.starts, order);
+    cands = run_starts(s, st.z, h, opt.starts, order, Span{"random starts", 0.05, 0.7});
   } else {
     // Nested scheme: up to max_groups disjoint random groups of about
     // group_size rows, starts inside each, then the pooled groups.
@@ -277,17 +289,17 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
     const int starts_per_group = std::max(1, opt.starts / static_cast<int>(groups));
     std::vector<Candidate> pooled;
     for (Index g = 0; g < groups && !s.exact; ++g) {
-      mcd_detail::report_progress(opt.progress, "random starts in groups",
-                                  0.05 + 0.5 * static_cast<double>(g) / static_cast<double>(groups));
+      const double g0 = 0.05 + 0.5 * static_cast<double>(g) / static_cast<double>(groups);
+      const double g1 = 0.05 + 0.5 * static_cast<double>(g + 1) / static_cast<double>(groups);
       const Index lo = g * pool_size / groups, hi = (g + 1) * pool_size / groups;
       const Eigen::MatrixXd zg = gather_rows(st.z, std::vector<Index>(pool.begin() + lo, pool.begin() + hi));
-      std::vector<Candidate> best = run_starts(s, zg, scaled_h(hi - lo, h, n), starts_per_group, order);
+      std::vector<Candidate> best =
+          run_starts(s, zg, scaled_h(hi - lo, h, n), starts_per_group, order, Span{"random starts in groups", g0, g1});
       for (auto& c : best) pooled.push_back(std::move(c));
     }
     if (!s.exact) {
-      mcd_detail::report_progress(opt.progress, "pooled groups", 0.6);
       const Eigen::MatrixXd zp = gather_rows(st.z, pool);
-      refine(s, zp, scaled_h(pool_size, h, n), pooled, opt.initial_csteps, true);
+      refine(s, zp, scaled_h(pool_size, h, n), pooled, opt.initial_csteps, true, Span{"pooled groups", 0.6, 0.7});
       // The m_full best pooled results go on to the full data (Rousseeuw &
       // Van Driessen 1999, nested extensions: m_full depends on n).
       const Index m_full = std::clamp<Index>(opt.full_data_rows / n, 1, opt.best_kept);
@@ -296,8 +308,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
     }
   }
   if (!s.exact) {
-    mcd_detail::report_progress(opt.progress, "C-steps on all rows", 0.7);
-    refine(s, st.z, h, cands, -1, n > opt.nested_threshold);
+    refine(s, st.z, h, cands, -1, n > opt.nested_threshold, Span{"C-steps on all rows", 0.7, 0.95});
     keep_best(cands, 1);
     // The winner's fit may come from updates (update_fit): report the fit
     // computed from its rows.

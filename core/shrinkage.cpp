@@ -1,6 +1,7 @@
 #include "shrinkage.hpp"
 
 #include <algorithm>
+#include <cmath>
 #include <string>
 #include <vector>
 
@@ -14,9 +15,10 @@ namespace {
 
 constexpr Index kChunkRows = 4096;
 
-// sum_k |x_k - mean|^4 over the rows, chunked so that no n x p centred copy
-// exists. Chunk sums are added in chunk order: the same total for any thread count.
-double sum_fourth_powers_of_norms(DataView x, const Eigen::VectorXd& mean, int threads) {
+// sum_k |(x_k - mean) / unit|^4 over the rows, chunked so that no n x p centred
+// copy exists. Chunk sums are added in chunk order: the same total for any
+// thread count. unit is a power of two (shrinkage_unit), so the division is exact.
+double sum_fourth_powers_of_norms(DataView x, const Eigen::VectorXd& mean, int threads, double unit) {
   const Index chunks = chunk_count(x.rows(), kChunkRows);
   std::vector<double> partial(static_cast<std::size_t>(chunks), 0.0);
   std::vector<Eigen::MatrixXd> scratch(static_cast<std::size_t>(parallel_workers(threads, chunks)));
@@ -26,6 +28,7 @@ double sum_fourth_powers_of_norms(DataView x, const Eigen::VectorXd& mean, int t
     Eigen::MatrixXd& chunk = scratch[static_cast<std::size_t>(worker)];
     chunk = x.middleRows(start, m);
     chunk.rowwise() -= mean.transpose();
+    chunk /= unit;
     partial[static_cast<std::size_t>(c)] = chunk.rowwise().squaredNorm().array().square().sum();
   });
   double total = 0.0;
@@ -68,12 +71,23 @@ ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method, int thr
   MomentAccumulator acc(x.cols());
   acc.set_threads(threads);
   acc.add(x);
-  const double fourth = method == ShrinkageMethod::LedoitWolf ? sum_fourth_powers_of_norms(x, acc.mean(), threads) : 0.0;
-  return shrinkage_from_moments(x.rows(), acc.mean(), acc.cross_products(), fourth, method);
+  const Eigen::MatrixXd cross = acc.cross_products();
+  const double mu = cross.trace() / (static_cast<double>(std::max<Index>(x.rows(), 1)) * static_cast<double>(x.cols()));
+  const double unit = mu > 0.0 && std::isfinite(mu) ? shrinkage_unit(mu) : 1.0;
+  const double fourth =
+      method == ShrinkageMethod::LedoitWolf ? sum_fourth_powers_of_norms(x, acc.mean(), threads, unit) : 0.0;
+  return shrinkage_from_moments(x.rows(), acc.mean(), cross, fourth, method, unit);
+}
+
+double shrinkage_unit(double mu) {
+  int e = 0;
+  std::frexp(std::sqrt(mu), &e);
+  return std::ldexp(1.0, e);
 }
 
 ShrinkageEstimate shrinkage_from_moments(Index n, const Eigen::VectorXd& mean, const Eigen::MatrixXd& cross_products,
-                                         double sum_fourth_powers_of_norms, ShrinkageMethod method) {
+                                         double sum_fourth_powers_of_norms, ShrinkageMethod method,
+                                         double fourth_unit) {
   const Index p = mean.size();
   if (p < 1) throw Error(ErrorKind::Shape, "shrinkage estimate: no columns");
   if (cross_products.rows() != p || cross_products.cols() != p)
@@ -89,16 +103,23 @@ ShrinkageEstimate shrinkage_from_moments(Index n, const Eigen::VectorXd& mean, c
   const double mu = trace_s / static_cast<double>(p);
   if (!(mu > 0.0))
     throw Error(ErrorKind::Data, "shrinkage estimate: every column is constant (trace of S is 0)");
-  const double trace_s2 = s.squaredNorm();
-  Eigen::MatrixXd deviation = s;
-  deviation.diagonal().array() -= mu;
+  // Every term of the intensities is of degree 4 in the data: computed in
+  // units of u^2 = shrinkage_unit(mu)^2 (exact: a power of two).
+  const double unit = shrinkage_unit(mu), unit2 = unit * unit;
+  const Eigen::MatrixXd su = s / unit2;
+  const double trace_s2 = su.squaredNorm();
+  Eigen::MatrixXd deviation = su;
+  deviation.diagonal().array() -= mu / unit2;
   const double spread = deviation.squaredNorm();
   const double nd = static_cast<double>(n), pd = static_cast<double>(p);
+  // The fourth powers from fourth_unit^4 to unit^4 units (both powers of two).
+  const double r2 = (fourth_unit / unit) * (fourth_unit / unit);
+  const double fourth = sum_fourth_powers_of_norms * r2 * r2;
 
   out.target_scale = mu;
   out.intensity = method == ShrinkageMethod::LedoitWolf
-                      ? ledoit_wolf_intensity(trace_s2, spread, sum_fourth_powers_of_norms, nd, pd)
-                      : oas_intensity(trace_s2, trace_s, spread, nd, pd);
+                      ? ledoit_wolf_intensity(trace_s2, spread, fourth, nd, pd)
+                      : oas_intensity(trace_s2, trace_s / unit2, spread, nd, pd);
   out.covariance = (1.0 - out.intensity) * s;
   out.covariance.diagonal().array() += out.intensity * mu;
   return out;

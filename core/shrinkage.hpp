@@ -35,8 +35,18 @@ ShrinkageEstimate shrinkage_estimate(DataView x, ShrinkageMethod method, int thr
 // The same estimate from moments gathered elsewhere (a stream of chunks):
 // n rows, their mean, cross-products sum (x - mean)(x - mean)' and, for
 // Ledoit-Wolf, sum |x - mean|^4 (norm_power_sums.hpp; ignored by OAS). The
-// same errors as above for n < 2 and for a zero trace.
+// same errors as above for n < 2 and for a zero trace. `fourth_unit`: the sum
+// of fourth powers is given in units of fourth_unit^4 (shrinkage_estimate
+// passes it scaled; 1 = the data's units).
+// The intensity is computed in units of a power of two near sqrt(tr(S)/p)
+// (an exact rescaling), so that tr(S^2) and the fourth powers neither
+// overflow for data near 1e150 nor underflow for data near 1e-150.
 ShrinkageEstimate shrinkage_from_moments(Index n, const Eigen::VectorXd& mean, const Eigen::MatrixXd& cross_products,
-                                         double sum_fourth_powers_of_norms, ShrinkageMethod method);
+                                         double sum_fourth_powers_of_norms, ShrinkageMethod method,
+                                         double fourth_unit = 1.0);
+
+// The power of two nearest sqrt(mu) (mu > 0): the unit in which the
+// intensities are computed.
+double shrinkage_unit(double mu);
 
 }  // namespace ellipsa::core

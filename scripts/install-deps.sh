@@ -34,6 +34,7 @@ rest=(
   mono-xbuild                    # builds the C# binding's project file (Ellipsa.csproj; its install test)
   gfortran                       # Fortran binding and its smoke test
   clang libclang-rt-14-dev       # fuzz targets (libFuzzer)
+  valgrind                       # memcheck over the C-interface tests (scripts/run-valgrind.sh)
   chromium                       # renders the HTML report in its end-to-end test
   abi-compliance-checker universal-ctags  # ABI check (scripts/check-abi.sh)
   gnumeric gnumeric-plugins-extra         # spreadsheet host and its Python plugin loader (sheet test)

@@ -111,6 +111,7 @@ Command add_cluster(CLI::App& parent) {
             if (!a->scores_out.empty()) {
               AtomicOutput out(a->scores_out);
               CsvWriteOptions wo;
+              wo.name = out.to_stdout() ? std::string("standard output") : out.path();
               wo.digits = digits;
               CsvWriter w(out.stream(), wo);
               std::vector<std::string> header = t.header;

@@ -58,6 +58,7 @@ Command add_score(CLI::App& parent) {
 
             AtomicOutput out(a->output);
             CsvWriteOptions wo;
+            wo.name = out.to_stdout() ? std::string("standard output") : out.path();
             wo.separator = reader.separator();
             wo.decimal = options.decimal;
             wo.digits = digits;

@@ -126,6 +126,7 @@ Command add_screen(CLI::App& parent) {
             if (!a->output.empty()) {
               AtomicOutput out(a->output);
               CsvWriteOptions wo;
+              wo.name = out.to_stdout() ? std::string("standard output") : out.path();
               wo.digits = digits;
               CsvWriter writer(out.stream(), wo);
               std::vector<std::string> header = t.header;

@@ -147,7 +147,9 @@ CsvReader::CsvReader(CsvSource source, CsvOptions options)
     throw std::invalid_argument("with decimal comma the separator must be ';' or tab");
   if (options_.detect_rows == 0) throw std::invalid_argument("detect_rows must be at least 1");
   if (options_.buffer_size == 0) throw std::invalid_argument("buffer_size must be at least 1");
-  stream_ = std::make_unique<detail::RecordStream>(std::move(source), options_.buffer_size);
+  if (options_.max_record_bytes == 0) throw std::invalid_argument("max_record_bytes must be at least 1");
+  stream_ = std::make_unique<detail::RecordStream>(std::move(source), options_.buffer_size,
+                                                   options_.max_record_bytes);
   blank_->fields.assign(1, std::string_view());
 }
 

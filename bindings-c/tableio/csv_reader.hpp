@@ -13,6 +13,7 @@
 //    ends; the last line end is optional; blank lines before the header and at
 //    the end are ignored. A blank line between data rows is a row with too few
 //    fields (error) unless the file has one column, where it is a missing cell.
+//  - A record longer than CsvOptions::max_record_bytes (64 MiB) is refused.
 //  - Header names are trimmed of surrounding spaces/tabs; names must be unique
 //    (empty names excepted) and valid UTF-8.
 //
@@ -51,6 +52,14 @@ struct CsvOptions {
   bool keep_row_text = false;         ///< CsvChunk::row_text() available
   bool keep_fields = false;           ///< CsvChunk::field() available
   std::size_t buffer_size = std::size_t{1} << 20;  ///< read size; small values are for tests
+  /// Longest record (one row, line end excluded; a quoted field may span
+  /// lines) that is buffered: a longer one is refused with a CsvError naming
+  /// the file and the line where it starts, having buffered at most twice
+  /// this many bytes (the buffer doubles). 64 MiB: a row of 100000 columns of 600
+  /// bytes each, far beyond any measurement file; a file without line ends
+  /// (binary data, a wrong encoding) stops there instead of filling memory.
+  std::size_t max_record_bytes = kDefaultMaxRecordBytes;
+  static constexpr std::size_t kDefaultMaxRecordBytes = std::size_t{64} << 20;
 };
 
 enum class ColumnKind {

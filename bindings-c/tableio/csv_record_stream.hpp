@@ -2,7 +2,8 @@
 // Internal to the CSV reader; CsvReader is the interface the subcommands use.
 //
 // Memory: one buffer of `buffer_size` bytes that grows (doubling) only when a
-// single record does not fit in it, plus a scratch area for quoted fields that
+// single record does not fit in it, never past twice `max_record` (a longer
+// record is refused with CsvError naming file and line), plus a scratch area for quoted fields that
 // contain "" escapes. A record is re-scanned from its start after a refill, so a
 // record split across reads costs at most one extra scan per doubling.
 #pragma once
@@ -26,7 +27,7 @@ struct CsvRecord {
 
 class RecordStream {
  public:
-  RecordStream(CsvSource source, std::size_t buffer_size);
+  RecordStream(CsvSource source, std::size_t buffer_size, std::size_t max_record);
 
   /// Separator characters that end a field (one for data; several while the
   /// header is read to detect which one the file uses).
@@ -66,6 +67,7 @@ class RecordStream {
 
   CsvSource source_;
   std::vector<char> buffer_;
+  std::size_t max_record_;           ///< longest record accepted, bytes
   std::size_t pos_ = 0;              ///< start of the next record in buffer_
   std::size_t filled_ = 0;           ///< bytes of buffer_ holding data
   std::uint64_t discarded_ = 0;      ///< bytes dropped before buffer_[0]

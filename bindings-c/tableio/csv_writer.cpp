@@ -139,13 +139,18 @@ void CsvWriter::write_buffer() {
   if (used_ == 0) return;
   const std::size_t n = used_;
   used_ = 0;
-  if (std::fwrite(buffer_.data(), 1, n, out_) != n)
-    throw OutputError(std::string("cannot write output: ") + std::strerror(errno));
+  if (std::fwrite(buffer_.data(), 1, n, out_) != n) throw OutputError(write_error());
+}
+
+// "cannot write '<name>': <cause>", so that a full disk names the file.
+std::string CsvWriter::write_error() const {
+  const std::string what = options_.name.empty() ? std::string("output") : "'" + options_.name + "'";
+  return "cannot write " + what + ": " + std::strerror(errno);
 }
 
 void CsvWriter::flush() {
   write_buffer();
-  if (std::fflush(out_) != 0) throw OutputError(std::string("cannot write output: ") + std::strerror(errno));
+  if (std::fflush(out_) != 0) throw OutputError(write_error());
 }
 
 std::string CsvWriter::format_number(double value, char decimal, std::string_view missing, int digits) {

@@ -25,6 +25,7 @@ struct CsvWriteOptions {
   bool crlf = false;           ///< "\r\n" line ends instead of "\n"
   std::string missing = "NA";  ///< written for NaN (one of the reader's missing markers)
   int digits = 0;              ///< significant digits of numbers (1..17); 0: shortest exact form
+  std::string name;            ///< the output's name in error messages ("" = "output")
 };
 
 class CsvWriter {
@@ -59,6 +60,7 @@ class CsvWriter {
                                    int digits = 0);
 
  private:
+  std::string write_error() const;
   void begin_field();
   void drain_if_full();
   void write_buffer();

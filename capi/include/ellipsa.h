@@ -220,6 +220,15 @@ static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_
  * @param user     The pointer given together with the callback.
  * @return 0 to continue; any other value cancels the operation, which then
  *         returns ::ELLIPSA_ERR_CANCELLED and produces no result.
+ *
+ * How promptly a fit stops: the callback is not called again after it asked
+ * to stop, and no further unit of work starts. The units between two calls
+ * are at most: FAST-MCD (mcd) one random start with its two C-steps, or one
+ * round of C-steps of the kept candidates (at most ten C-steps); DetMCD and
+ * MRCD the C-steps of one starting estimate; mixtures one EM iteration (or
+ * the k-means++ seeding of one restart). Each unit costs O(n p^2) (C-step)
+ * or O(n K p^2) (EM iteration); the measured wall-clock latency is in
+ * docs/robustness.md.
  */
 typedef int (*ellipsa_progress_fn)(const char *stage, double fraction, void *user);
 /** @} */
@@ -530,6 +539,23 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_restarts(ellipsa_fit_options 
                                                             int32_t restarts);
 
 /**
+ * @brief FAST-MCD (method mcd): the number of random starts, in [1, 100000] (default 500).
+ *
+ * Each start is a random (p+1)-subset refined by two C-steps; the best ten
+ * go on to C-steps to convergence (Rousseeuw & Van Driessen 1999, who use
+ * 500). Fewer starts are faster and more likely to miss the subset of lowest
+ * determinant when outliers are many; the starts are drawn from the seed, so
+ * a fit stays reproducible for any count. The nested scheme (more than 600
+ * rows) divides the starts among its groups.
+ * @param options The options.
+ * @param starts  Number of random starts, in [1, 100000].
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (outside
+ *         [1, 100000], or a method other than mcd).
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_starts(ellipsa_fit_options *options,
+                                                          int32_t starts);
+
+/**
  * @brief Mixtures: EM iteration cap (>= 1) and relative log-likelihood tolerance (> 0).
  *
  * The MCD family's C-steps have fixed caps and are not set here.
@@ -566,6 +592,61 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_regularisation(ellipsa_fit_op
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_progress(ellipsa_fit_options *options,
                                                             ellipsa_progress_fn callback,
                                                             void *user);
+
+/**
+ * @brief A memory ceiling for ellipsa_model_fit(): a fit whose estimated
+ *        working memory (ellipsa_fit_memory_estimate()) exceeds it is refused
+ *        before anything that grows with the data is allocated.
+ *
+ * With 0 (the default) the ceiling is the environment variable
+ * `ELLIPSA_MEMORY_LIMIT`, read at each fit: a whole number of bytes,
+ * optionally followed by K, M or G (multiples of 1024, 1024^2, 1024^3); unset,
+ * empty or 0 means no ceiling. A limit set here takes precedence over the
+ * variable. The refused fit returns ::ELLIPSA_ERR_MEMORY with a message that
+ * gives the estimate, the ceiling and where the ceiling was set. The estimate
+ * covers the library's own allocations beyond the caller's data; OpenBLAS's
+ * thread buffers (allocated once per process) are not counted.
+ * @param options The options.
+ * @param bytes   The ceiling in bytes, >= 0 (0: `ELLIPSA_MEMORY_LIMIT` or none).
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (negative).
+ *         ellipsa_model_fit() returns ::ELLIPSA_ERR_ARGUMENT when the limit is 0
+ *         and `ELLIPSA_MEMORY_LIMIT` is set to anything else than described.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_memory_limit(ellipsa_fit_options *options,
+                                                                int64_t bytes);
+
+/**
+ * @brief The working memory, in bytes, that ellipsa_model_fit() estimates for
+ *        a fit of rows x cols data with these options, and compares with the
+ *        ceiling (ellipsa_fit_options_set_memory_limit()).
+ *
+ * An upper bound of what the fit allocates beyond the caller's data, computed
+ * from n (rows), p (cols), K (the largest number of components), the thread
+ * count T and the method only, in 8-byte words, plus a fixed 1 MiB:
+ * - every method: the copy of the complete rows, row lists and the model:
+ *   n p + 3 n + 6 p^2;
+ * - classical, ledoit-wolf, oas: T (2 min(n, 4096) p + p^2) + ceil(n / 4096) (p^2 + 2 p) + 8 p^2;
+ * - mcd (FAST-MCD): 4 n p + 2 min(n, 1500) p + 40 (n + 2 p^2) + 12 n;
+ * - detmcd: 15 n p + 30 p^2 + 20 n;
+ * - mrcd: 6 n p + 20 p^2 + 20 n;
+ * - mixture: 2 n p + 8 n K + 8 K p^2 + 4 K p + 10 n, and with
+ *   ::ELLIPSA_MISSING_EM another 2 n p + n + 4 K p^2.
+ * The factors were checked against the measured peak of each method
+ * (tests/alloc/test_memory_estimate.cpp). The computation is checked for
+ * overflow: sizes whose product overflows a 64-bit integer are refused.
+ * @param[out] bytes The estimate; written only on success.
+ * @param options    The options of the fit (method, components, missing-value
+ *                   policy, threads).
+ * @param rows       n, >= 0.
+ * @param cols       p, >= 0.
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_SHAPE (negative
+ *         sizes); ::ELLIPSA_ERR_ARGUMENT (threads 0 with `ELLIPSA_THREADS` set
+ *         to anything but a whole number in [1, 256]); ::ELLIPSA_ERR_MEMORY (the
+ *         estimate overflows a 64-bit integer). Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_fit_memory_estimate(int64_t *bytes,
+                                                       const ellipsa_fit_options *options,
+                                                       int64_t rows, int64_t cols);
 
 /**
  * @brief MCD and DetMCD: switch the small-sample factors of the scatter on (1, the default) or off (0).
@@ -682,7 +763,13 @@ typedef struct ellipsa_model ellipsa_model;
  *   ::ELLIPSA_NUM_NOT_CONVERGED (only when the eigen-decomposition that names
  *     the columns of a singular scatter fails; a mixture that reaches its
  *     iteration cap is returned with ::ELLIPSA_OK, see above);
- *   ::ELLIPSA_ERR_CANCELLED; ::ELLIPSA_ERR_MEMORY.
+ *   ::ELLIPSA_ERR_CANCELLED (the progress callback returned non-zero: the
+ *     fit stops at the next check, nothing is kept and nothing leaks);
+ *   ::ELLIPSA_ERR_MEMORY (an allocation failed; the estimated working memory
+ *     exceeds the ceiling of ellipsa_fit_options_set_memory_limit() or
+ *     `ELLIPSA_MEMORY_LIMIT`, checked before the fit allocates; or the
+ *     estimate overflows); ::ELLIPSA_ERR_ARGUMENT (`ELLIPSA_THREADS` or
+ *     `ELLIPSA_MEMORY_LIMIT` set to an unreadable value).
  * Thread-safe for distinct options handles and for one handle shared by
  * concurrent fits (its progress callback is then called from each of them).
  */

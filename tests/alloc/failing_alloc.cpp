@@ -6,6 +6,7 @@
 #include <cerrno>
 #include <cstddef>
 #include <cstdlib>
+#include <malloc.h>
 #include <new>
 
 extern "C" {
@@ -42,14 +43,33 @@ bool should_fail() {
   return false;
 }
 
-void* real_malloc(std::size_t n) { return __interceptor_malloc ? __interceptor_malloc(n) : __libc_malloc(n); }
+// Live-byte accounting of the calling thread (failing_alloc::track_bytes).
+thread_local bool t_tracking = false;
+thread_local std::int64_t t_live = 0;
+thread_local std::int64_t t_peak = 0;
+void* counted(void* p) {
+  if (t_tracking && p != nullptr) {
+    t_live += static_cast<std::int64_t>(malloc_usable_size(p));
+    if (t_live > t_peak) t_peak = t_live;
+  }
+  return p;
+}
+void uncount(void* p) {
+  if (t_tracking && p != nullptr) t_live -= static_cast<std::int64_t>(malloc_usable_size(p));
+}
+
+void* real_malloc(std::size_t n) {
+  return counted(__interceptor_malloc ? __interceptor_malloc(n) : __libc_malloc(n));
+}
 void* real_calloc(std::size_t n, std::size_t s) {
-  return __interceptor_calloc ? __interceptor_calloc(n, s) : __libc_calloc(n, s);
+  return counted(__interceptor_calloc ? __interceptor_calloc(n, s) : __libc_calloc(n, s));
 }
 void* real_realloc(void* p, std::size_t n) {
-  return __interceptor_realloc ? __interceptor_realloc(p, n) : __libc_realloc(p, n);
+  uncount(p);
+  return counted(__interceptor_realloc ? __interceptor_realloc(p, n) : __libc_realloc(p, n));
 }
 void real_free(void* p) {
+  uncount(p);
   if (__interceptor_free)
     __interceptor_free(p);
   else
@@ -67,7 +87,7 @@ void* new_aligned(std::size_t n, std::size_t align) {
   if (should_fail()) throw std::bad_alloc();
   void* p = nullptr;
   if (posix_memalign(&p, align < sizeof(void*) ? sizeof(void*) : align, n ? n : 1) != 0) throw std::bad_alloc();
-  return p;
+  return counted(p);
 }
 
 }  // namespace
@@ -85,6 +105,15 @@ std::int64_t disarm() {
   return t_count;
 }
 bool fired() { return t_fired; }
+void track_bytes() {
+  t_live = 0;
+  t_peak = 0;
+  t_tracking = true;
+}
+std::int64_t peak_bytes() {
+  t_tracking = false;
+  return t_peak;
+}
 }  // namespace failing_alloc
 
 extern "C" {
@@ -134,7 +163,7 @@ void operator delete(void* p) noexcept { real_free(p); }
 void operator delete[](void* p) noexcept { real_free(p); }
 void operator delete(void* p, std::size_t) noexcept { real_free(p); }
 void operator delete[](void* p, std::size_t) noexcept { real_free(p); }
-void operator delete(void* p, std::align_val_t) noexcept { std::free(p); }
-void operator delete[](void* p, std::align_val_t) noexcept { std::free(p); }
-void operator delete(void* p, std::size_t, std::align_val_t) noexcept { std::free(p); }
-void operator delete[](void* p, std::size_t, std::align_val_t) noexcept { std::free(p); }
+void operator delete(void* p, std::align_val_t) noexcept { real_free(p); }
+void operator delete[](void* p, std::align_val_t) noexcept { real_free(p); }
+void operator delete(void* p, std::size_t, std::align_val_t) noexcept { real_free(p); }
+void operator delete[](void* p, std::size_t, std::align_val_t) noexcept { real_free(p); }

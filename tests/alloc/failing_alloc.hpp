@@ -29,4 +29,11 @@ std::int64_t disarm();
 // True when the armed run reached its k-th allocation (it was made to fail).
 bool fired();
 
+// Live-byte accounting of the calling thread (malloc_usable_size of every
+// block allocated and freed on it, whatever the allocation function): starts
+// at 0 now; peak_bytes() stops it and returns the highest count reached.
+// Blocks freed on other threads are not seen (measure with one thread).
+void track_bytes();
+std::int64_t peak_bytes();
+
 }  // namespace failing_alloc

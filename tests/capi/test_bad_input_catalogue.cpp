@@ -243,6 +243,42 @@ std::vector<Row> rows() {
   out.push_back({"ellipsa_fit_options_set_column_names", "count -1", opt(ELLIPSA_METHOD_CLASSICAL, [](auto o) { return ellipsa_fit_options_set_column_names(o, nullptr, -1); }), setter});
   out.push_back({"ellipsa_fit_options_set_reference", "reference 9", opt(ELLIPSA_METHOD_CLASSICAL, [](auto o) { return ellipsa_fit_options_set_reference(o, 9); }), setter});
   out.push_back({"ellipsa_fit_options_set_structure", "structure 0", opt(ELLIPSA_METHOD_MIXTURE, [](auto o) { return ellipsa_fit_options_set_structure(o, 0); }), setter});
+  out.push_back({"ellipsa_fit_options_set_starts", "starts 0 (mcd)", opt(ELLIPSA_METHOD_MCD, [](auto o) { return ellipsa_fit_options_set_starts(o, 0); }), setter});
+  out.push_back({"ellipsa_fit_options_set_starts", "starts 5 (detmcd)", opt(ELLIPSA_METHOD_DETMCD, [](auto o) { return ellipsa_fit_options_set_starts(o, 5); }), setter});
+  out.push_back({"ellipsa_fit_options_set_memory_limit", "limit -1 byte", opt(ELLIPSA_METHOD_MCD, [](auto o) { return ellipsa_fit_options_set_memory_limit(o, -1); }), setter});
+  // Resource ceilings: a fit above the memory ceiling, sizes whose working
+  // memory overflows 64 bits (a stride-0 view: one double stands for them all).
+  static const double kOne = 1.0;
+  out.push_back({"ellipsa_model_fit (mcd)", "1e6 x 50 under a 1 MiB ceiling", [] {
+                   ellipsa_fit_options* o = nullptr;
+                   ellipsa_fit_options_create(&o, ELLIPSA_METHOD_MCD);
+                   ellipsa_fit_options_set_memory_limit(o, 1 << 20);
+                   const ellipsa_matrix v{&kOne, 1000000, 50, 0, 0};
+                   ellipsa_model* m = nullptr;
+                   const ellipsa_status st = ellipsa_model_fit(&m, &v, o);
+                   ellipsa_model_destroy(m);
+                   ellipsa_fit_options_destroy(o);
+                   return st;
+                 }, fit_listed});
+  for (const ellipsa_method m : {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_MIXTURE})
+    out.push_back({std::string("ellipsa_model_fit (") + ellipsa_method_name(m) + ")", "1 x 2^31: p^2 overflows", [m] {
+                     ellipsa_fit_options* o = nullptr;
+                     ellipsa_fit_options_create(&o, m);
+                     const ellipsa_matrix v{&kOne, 1, int64_t{1} << 31, 0, 0};
+                     ellipsa_model* model = nullptr;
+                     const ellipsa_status st = ellipsa_model_fit(&model, &v, o);
+                     ellipsa_model_destroy(model);
+                     ellipsa_fit_options_destroy(o);
+                     return st;
+                   }, fit_listed});
+  out.push_back({"ellipsa_fit_memory_estimate", "2^40 x 2^30: n p overflows", [] {
+                   ellipsa_fit_options* o = nullptr;
+                   ellipsa_fit_options_create(&o, ELLIPSA_METHOD_DETMCD);
+                   int64_t bytes = 0;
+                   const ellipsa_status st = ellipsa_fit_memory_estimate(&bytes, o, int64_t{1} << 40, int64_t{1} << 30);
+                   ellipsa_fit_options_destroy(o);
+                   return st;
+                 }, std::set<ellipsa_status>{ELLIPSA_OK, ELLIPSA_ERR_NULL, ELLIPSA_ERR_SHAPE, ELLIPSA_ERR_ARGUMENT, ELLIPSA_ERR_MEMORY}});
   out.push_back({"ellipsa_fit_options_create", "method 99", [] { ellipsa_fit_options* o = nullptr; const auto st = ellipsa_fit_options_create(&o, 99); ellipsa_fit_options_destroy(o); return st; }, setter});
   out.push_back({"ellipsa_method_from_name", "empty name", [] { ellipsa_method m = 0; return ellipsa_method_from_name(&m, ""); }, setter});
   out.push_back({"ellipsa_accumulator_create", "p = 0", [] { ellipsa_accumulator* a = nullptr; const auto st = ellipsa_accumulator_create(&a, 0); ellipsa_accumulator_destroy(a); return st; }, {ELLIPSA_OK, ELLIPSA_ERR_ARGUMENT}});

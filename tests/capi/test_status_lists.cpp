@@ -68,7 +68,8 @@ const std::vector<Setter>& setters() {
 
 // Every status the header lists for ellipsa_model_fit(), plus the two any
 // call may return. ARGUMENT is not among them: a setting that does not apply
-// is refused by its setter, so a fit never sees one.
+// is refused by its setter, so a fit never sees one (the fit's ARGUMENT is
+// for an unreadable ELLIPSA_THREADS or ELLIPSA_MEMORY_LIMIT, unset here).
 const std::set<ellipsa_status> kFitStatuses = {ELLIPSA_OK,           ELLIPSA_ERR_NULL,          ELLIPSA_ERR_SHAPE,
                                                ELLIPSA_ERR_DATA,     ELLIPSA_NUM_SINGULAR,      ELLIPSA_NUM_EXACT_FIT,
                                                ELLIPSA_NUM_NOT_CONVERGED, ELLIPSA_ERR_CANCELLED, ELLIPSA_ERR_MEMORY};

@@ -420,3 +420,48 @@ TEST(CsvSources, FileStreamAndStdin) {
   expect_values(r.values, {1, 2, 3, 4});
   EXPECT_EQ(name, "<stdin>");
 }
+
+// A row longer than CsvOptions::max_record_bytes is refused with file and
+// line, and the buffer never grows past twice the limit; a row just within
+// the limit is read. (The CLI uses the default, 64 MiB: tests/e2e.)
+namespace ellipsa::cli {
+namespace {
+TEST(CsvLimits, RowLongerThanTheLimitIsRefusedWithFileAndLine) {
+  CsvOptions options;
+  options.buffer_size = 64;
+  options.max_record_bytes = 1000;
+  std::string huge = "a,b\n1,2\n3,";
+  huge += std::string(5000, '7');  // line 3: one field of 5000 digits, no line end
+  huge += "\n4,5\n";
+  try {
+    CsvReader reader(CsvSource::from_memory(huge, "long.csv"), options);
+    CsvChunk chunk;
+    while (reader.next_chunk(chunk, 100)) {
+    }
+    FAIL() << "no error";
+  } catch (const CsvError& e) {
+    EXPECT_EQ(e.file(), "long.csv");
+    EXPECT_EQ(e.line(), 3);
+    EXPECT_NE(std::string(e.what()).find("long.csv:3: a row longer than 1000 bytes"), std::string::npos) << e.what();
+  }
+  // A file with no line end at all (garbage, a wrong encoding) stops at line 1.
+  try {
+    CsvReader reader(CsvSource::from_memory(std::string(100000, 'x'), "noline.csv"), options);
+    CsvChunk chunk;
+    reader.next_chunk(chunk, 10);
+    FAIL() << "no error";
+  } catch (const CsvError& e) {
+    EXPECT_EQ(e.line(), 1);
+  }
+  // Within the limit: read.
+  std::string fine = "a,b\n1," + std::string(900, '7') + "\n";
+  CsvReader reader(CsvSource::from_memory(fine, "fine.csv"), options);
+  CsvChunk chunk;
+  ASSERT_TRUE(reader.next_chunk(chunk, 10));
+  EXPECT_EQ(chunk.rows(), 1u);
+  CsvOptions zero;
+  zero.max_record_bytes = 0;
+  EXPECT_THROW(CsvReader(CsvSource::from_memory("", "m"), zero), std::invalid_argument);
+}
+}  // namespace
+}  // namespace ellipsa::cli

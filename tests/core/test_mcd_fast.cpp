@@ -273,3 +273,43 @@ TEST(FastMcd, BadInputAndCancel) {
   EXPECT_NEAR((f.raw_location - mc.mean).norm(), 0.0, 1e-12);
   EXPECT_NEAR((f.raw_scatter - mc.covariance).norm(), 0.0, 1e-12);
 }
+
+// Cancellation is prompt: the progress callback is asked before every start
+// and every round of C-steps, so the work between two calls is at most one
+// start (initial_csteps C-steps) or one round (best_kept C-steps). Counted,
+// not timed: over a whole fit, starts <= calls and C-steps <= calls *
+// max(initial_csteps, best_kept), on the plain and on the nested scheme.
+// After the callback asks to stop it is never called again.
+TEST(FastMcd, ProgressIsAskedOftenEnoughToStopPromptly) {
+  for (const Index n : {Index{400}, Index{3000}}) {  // plain scheme, nested scheme
+    SCOPED_TRACE(n);
+    const Eigen::MatrixXd x = with_outliers(n, 4, n / 10, 8.0, 17);
+    FastMcdOptions o;
+    int calls = 0;
+    double last = -1.0;
+    o.progress = [&](const char*, double fraction) {
+      EXPECT_GE(fraction, last);  // non-decreasing, as the header promises
+      last = fraction;
+      ++calls;
+      return true;
+    };
+    const RobustFit r = fast_mcd(make_view(x), o);
+    const int per_call = std::max(o.initial_csteps, o.best_kept);
+    EXPECT_LE(r.starts, calls);
+    EXPECT_LE(r.iterations, calls * per_call);
+    EXPECT_GE(calls, o.starts);  // one call per start at least
+    for (const int stop_at : {1, 2, 50, calls / 2, calls - 1}) {
+      SCOPED_TRACE(stop_at);
+      int seen = 0;
+      FastMcdOptions c = o;
+      c.progress = [&](const char*, double) { return ++seen < stop_at; };
+      try {
+        fast_mcd(make_view(x), c);
+        FAIL() << "not cancelled";
+      } catch (const Error& e) {
+        EXPECT_EQ(e.kind(), ErrorKind::Cancelled);
+      }
+      EXPECT_EQ(seen, stop_at);  // no call after the one that said stop
+    }
+  }
+}

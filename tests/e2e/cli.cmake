@@ -5,7 +5,7 @@ if(NOT ELLIPSA_E2E_PYTHON)
   find_program(ELLIPSA_E2E_PYTHON NAMES python3)
 endif()
 if(ELLIPSA_E2E_PYTHON)
-  foreach(topic demo demo_script exit_codes io compare mixture faults threads)
+  foreach(topic demo demo_script exit_codes io compare mixture faults threads hostile)
     add_test(NAME e2e.cli_${topic}
       COMMAND ${ELLIPSA_E2E_PYTHON} ${CMAKE_CURRENT_SOURCE_DIR}/test_cli_${topic}.py)
     set_tests_properties(e2e.cli_${topic} PROPERTIES LABELS e2e

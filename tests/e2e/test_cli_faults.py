@@ -66,9 +66,9 @@ p = subprocess.run([BIN, "score", model, small, "-o", target], capture_output=Tr
                    preexec_fn=limit_file_size, timeout=120)
 faults += 1
 check(p.returncode == 3, "full filesystem: exit %d, expected 3; %s" % (p.returncode, p.stderr))
-# The cause is named ("cannot write output: File too large"); the writer does
-# not know the file's name, so the message does not give it.
+# The cause and the file are named ("cannot write '<path>': File too large").
 check("File too large" in p.stderr, "full filesystem: the message does not name the cause: " + p.stderr)
+check(os.path.basename(target) in p.stderr, "full filesystem: the message does not name the file: " + p.stderr)
 intact(target, old, "full filesystem")
 
 # 2. A folder that cannot hold the output: it does not exist, or its "folder" is a file.

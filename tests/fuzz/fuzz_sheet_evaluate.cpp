@@ -10,8 +10,9 @@
 //  2. When evaluate succeeds, the cells beyond the result shape are empty,
 //     every cell's type is known, number cells of NUMBER type hold no NaN,
 //     text cells point at text and error cells name a known error.
-//  3. Evaluating with and without a fit cache, and twice with the cache (the
-//     second a cache hit), gives the same cells bit for bit.
+//  3. Evaluating twice with a fit cache (the second a cache hit) gives the
+//     same cells bit for bit, and so does evaluating without the cache (one
+//     input in four: it costs a second fit).
 #include <cmath>
 #include <cstdint>
 #include <cstring>
@@ -110,17 +111,28 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   }
   fuzz::check(rows >= 1 && cols >= 1 && rows <= 100000 && cols <= 100000, "result shape", std::to_string(rows));
   const std::int64_t extra = in.byte() % 2;
+  // The evaluation without a cache (a second fit) runs for one input in four:
+  // the fits dominate the cost of an execution (182 executions/s with it on
+  // every input, 240 with it on one in four, in 30 s runs on the shared
+  // development machine), and a cached result that differs from a
+  // fresh one shows on any of the inputs that reach it.
+  const bool compare_uncached = (in.byte() & 3) == 0;
   const std::int64_t R = rows + extra, C = cols + extra;
   if (R * C > 4096) return 0;
-  std::vector<ellipsa_sheet_cell> plain(static_cast<std::size_t>(R * C));
-  const ellipsa_status st = ellipsa_sheet_evaluate(plain.data(), R, C, nullptr, index, args.data(), count);
+  ellipsa_sheet_cache* cache = nullptr;
+  fuzz::check(ellipsa_sheet_cache_create(&cache, 4, 1 << 20) == ELLIPSA_OK, "cache");
+  std::vector<ellipsa_sheet_cell> cached(static_cast<std::size_t>(R * C)), hit(cached.size()), plain;
+  const ellipsa_status st = ellipsa_sheet_evaluate(cached.data(), R, C, cache, index, args.data(), count);
   fuzz::check(st == ELLIPSA_OK || st == ELLIPSA_ERR_DATA || st == ELLIPSA_NUM_SINGULAR || st == ELLIPSA_NUM_EXACT_FIT ||
                   st == ELLIPSA_NUM_NOT_CONVERGED || st == ELLIPSA_ERR_ARGUMENT || st == ELLIPSA_ERR_MEMORY,
               "evaluate status", std::string(ellipsa_status_string(st)) + " " + ellipsa_last_error());
-  if (st != ELLIPSA_OK) return 0;
+  if (st != ELLIPSA_OK) {
+    ellipsa_sheet_cache_destroy(cache);
+    return 0;
+  }
   for (std::int64_t i = 0; i < R; ++i)
     for (std::int64_t j = 0; j < C; ++j) {
-      const ellipsa_sheet_cell& c = plain[i * C + j];
+      const ellipsa_sheet_cell& c = cached[i * C + j];
       if (i >= rows || j >= cols) fuzz::check(c.type == ELLIPSA_SHEET_CELL_EMPTY, "cell beyond the shape not empty");
       fuzz::check(c.type >= ELLIPSA_SHEET_CELL_EMPTY && c.type <= ELLIPSA_SHEET_CELL_ERROR, "cell type");
       if (c.type == ELLIPSA_SHEET_CELL_NUMBER) fuzz::check(!std::isnan(c.number), "NaN in a number cell");
@@ -128,14 +140,14 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
       if (c.type == ELLIPSA_SHEET_CELL_ERROR)
         fuzz::check(c.error >= ELLIPSA_SHEET_ERROR_VALUE && c.error <= ELLIPSA_SHEET_ERROR_NA, "error value");
     }
-
-  ellipsa_sheet_cache* cache = nullptr;
-  fuzz::check(ellipsa_sheet_cache_create(&cache, 4, 1 << 20) == ELLIPSA_OK, "cache");
-  std::vector<ellipsa_sheet_cell> cached(plain.size()), hit(plain.size());
-  fuzz::check(ellipsa_sheet_evaluate(cached.data(), R, C, cache, index, args.data(), count) == ELLIPSA_OK, "cached");
   fuzz::check(ellipsa_sheet_evaluate(hit.data(), R, C, cache, index, args.data(), count) == ELLIPSA_OK, "hit");
+  fuzz::check(same_cells(cached, hit), "cache hit changes the cells");
+  if (compare_uncached) {
+    plain.resize(cached.size());
+    fuzz::check(ellipsa_sheet_evaluate(plain.data(), R, C, nullptr, index, args.data(), count) == ELLIPSA_OK,
+                "uncached");
+    fuzz::check(same_cells(plain, cached), "cache changes the cells");
+  }
   ellipsa_sheet_cache_destroy(cache);
-  fuzz::check(same_cells(plain, cached), "cache changes the cells");
-  fuzz::check(same_cells(plain, hit), "cache hit changes the cells");
   return 0;
 }
