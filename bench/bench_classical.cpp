@@ -62,8 +62,7 @@ void BM_ClassicalCovariance_vs_Syrk(benchmark::State& state) {
   double bound = 0.0, impl = 0.0;
   for (auto _ : state) {
     auto t0 = now();
-    cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, kCols, kRows, 1.0, centred.data(), kRows, 0.0, c.data(),
-                kCols);
+    cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, kCols, kRows, 1.0, centred.data(), kRows, 0.0, c.data(), kCols);
     benchmark::DoNotOptimize(c.data());
     bound += seconds_since(t0);
     t0 = now();
@@ -85,8 +84,7 @@ void BM_MeanCovariance_vs_Syrk(benchmark::State& state) {
   double bound = 0.0, impl = 0.0;
   for (auto _ : state) {
     auto t0 = now();
-    cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, kCols, kRows, 1.0, centred.data(), kRows, 0.0, c.data(),
-                kCols);
+    cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, kCols, kRows, 1.0, centred.data(), kRows, 0.0, c.data(), kCols);
     benchmark::DoNotOptimize(c.data());
     bound += seconds_since(t0);
     t0 = now();
@@ -110,8 +108,7 @@ void BM_ClassicalCovarianceRowMajor_vs_Syrk(benchmark::State& state) {
   double bound = 0.0, impl = 0.0;
   for (auto _ : state) {
     auto t0 = now();
-    cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, kCols, kRows, 1.0, centred.data(), kRows, 0.0, c.data(),
-                kCols);
+    cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, kCols, kRows, 1.0, centred.data(), kRows, 0.0, c.data(), kCols);
     benchmark::DoNotOptimize(c.data());
     bound += seconds_since(t0);
     t0 = now();

@@ -140,7 +140,8 @@ BENCHMARK(BM_DetMcd)->Apply(sizes);
 int main(int argc, char** argv) {
   const char* threads = std::getenv("OPENBLAS_NUM_THREADS");
   if (!threads || std::strcmp(threads, "1") != 0)
-    std::fprintf(stderr, "bench_mcd: set OPENBLAS_NUM_THREADS=1; CPU times of the calling thread miss BLAS worker threads\n");
+    std::fprintf(stderr,
+                 "bench_mcd: set OPENBLAS_NUM_THREADS=1; CPU times of the calling thread miss BLAS worker threads\n");
   benchmark::Initialize(&argc, argv);
   if (benchmark::ReportUnrecognizedArguments(argc, argv)) return 1;
   benchmark::RunSpecifiedBenchmarks();

@@ -72,8 +72,8 @@ double bound_seconds(const Eigen::MatrixXd& x, Index k_count) {
     for (Index s = 0; s < n; s += chunk) {
       const Index m = std::min(chunk, n - s);
       buf.topRows(m) = x.middleRows(s, m).array().colwise() * w.segment(s, m).array();
-      cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(kP), static_cast<int>(m), 1.0,
-                  buf.data(), static_cast<int>(chunk), 1.0, gram.data(), static_cast<int>(kP));
+      cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(kP), static_cast<int>(m), 1.0, buf.data(),
+                  static_cast<int>(chunk), 1.0, gram.data(), static_cast<int>(kP));
     }
     benchmark::DoNotOptimize(gram.data());
   }

@@ -54,8 +54,8 @@ ELLIPSA_API ellipsa_status ellipsa_accumulator_add(ellipsa_accumulator* accumula
                                           std::to_string(accumulator->moments.dimension())};
     if (x.rows() == 0) return ELLIPSA_OK;
     // Checks first (an infinite value throws here), so a refused call adds nothing.
-    const auto complete = ellipsa::capi::naming_places(
-        "chunk", x.cols(), [&] { return core::select_complete_rows(x); });
+    const auto complete =
+        ellipsa::capi::naming_places("chunk", x.cols(), [&] { return core::select_complete_rows(x); });
     if (complete.dropped == 0) {
       add_rows(*accumulator, x);
     } else if (!complete.rows.empty()) {
@@ -110,26 +110,26 @@ ELLIPSA_API ellipsa_status ellipsa_model_from_accumulator(ellipsa_model** out, c
     m->columns = ellipsa::capi::column_names_or_default(options->column_names, p);
     if (method == ELLIPSA_METHOD_CLASSICAL) {
       if (n <= p)
-        throw core::Error(core::ErrorKind::Data,
-                          "the classical fit needs more complete rows than columns (" + std::to_string(n) +
-                              " rows, " + std::to_string(p) + " columns); use a shrinkage method (ledoit-wolf, oas)");
-      const auto norm = options->divisor == ELLIPSA_DIVISOR_N ? core::Normalisation::ByCount
-                                                              : core::Normalisation::ByCountMinusOne;
+        throw core::Error(core::ErrorKind::Data, "the classical fit needs more complete rows than columns (" +
+                                                     std::to_string(n) + " rows, " + std::to_string(p) +
+                                                     " columns); use a shrinkage method (ledoit-wolf, oas)");
+      const auto norm =
+          options->divisor == ELLIPSA_DIVISOR_N ? core::Normalisation::ByCount : core::Normalisation::ByCountMinusOne;
       Eigen::MatrixXd s = acc.covariance(norm);
       for (int64_t j = 0; j < p; ++j)
         if (!(s(j, j) > 0.0))
-          throw core::Error(core::ErrorKind::Data,
-                            "column \"" + m->columns[static_cast<size_t>(j)] + "\" is constant");
+          throw core::Error(core::ErrorKind::Data, "column \"" + m->columns[static_cast<size_t>(j)] + "\" is constant");
       m->divisor = options->divisor;
       m->components.push_back({1.0, acc.mean(), std::move(s), {}});
     } else {
       if (n < 2)
-        throw core::Error(core::ErrorKind::Data, "a shrinkage fit needs at least 2 complete rows; " +
-                                                     std::to_string(n) + " available (" +
-                                                     std::to_string(accumulator->skipped) + " skipped for missing values)");
-      const auto kind = method == ELLIPSA_METHOD_OAS ? core::ShrinkageMethod::OracleApproximating
-                                                     : core::ShrinkageMethod::LedoitWolf;
-      const auto est = core::shrinkage_from_moments(n, acc.mean(), acc.cross_products(), accumulator->norms.fourth, kind);
+        throw core::Error(core::ErrorKind::Data,
+                          "a shrinkage fit needs at least 2 complete rows; " + std::to_string(n) + " available (" +
+                              std::to_string(accumulator->skipped) + " skipped for missing values)");
+      const auto kind =
+          method == ELLIPSA_METHOD_OAS ? core::ShrinkageMethod::OracleApproximating : core::ShrinkageMethod::LedoitWolf;
+      const auto est =
+          core::shrinkage_from_moments(n, acc.mean(), acc.cross_products(), accumulator->norms.fourth, kind);
       m->components.push_back({1.0, est.mean, est.covariance, {}});
       m->shrinkage_intensity = est.intensity;
     }

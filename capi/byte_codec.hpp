@@ -14,7 +14,7 @@
 
 namespace ellipsa::capi {
 
-constexpr std::size_t kBytesHeader = 24;    // magic, version, reserved, length
+constexpr std::size_t kBytesHeader = 24;  // magic, version, reserved, length
 constexpr std::size_t kBytesChecksum = 8;
 
 // FNV-1a, 64 bits (Fowler, Noll & Vo): detects corruption, not tampering.
@@ -40,8 +40,7 @@ class ByteReader {
  public:
   // Checks the frame: `what` names the kind of bytes in messages ("accumulator
   // bytes"); versions 1..max_version are read.
-  ByteReader(const char* data, std::int64_t length, const char* magic, std::uint32_t max_version,
-             const char* what);
+  ByteReader(const char* data, std::int64_t length, const char* magic, std::uint32_t max_version, const char* what);
   std::uint32_t version() const { return version_; }
   // Payload bytes not yet read.
   std::uint64_t remaining() const { return end_ - pos_; }

@@ -10,7 +10,7 @@ std::string located_text(const core::LocatedError& e, const char* data, const st
                          const std::vector<int64_t>* rows) {
   const auto j = static_cast<size_t>(e.column());
   const std::string name = e.column() >= 0 && j < columns.size() ? "column \"" + columns[j] + "\""
-                                                                  : "column " + std::to_string(e.column() + 1);
+                                                                 : "column " + std::to_string(e.column() + 1);
   if (e.row() >= 0) {
     const auto i = static_cast<size_t>(e.row());
     const int64_t row = rows != nullptr && i < rows->size() ? (*rows)[i] : e.row();

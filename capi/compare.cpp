@@ -91,8 +91,7 @@ ellipsa_test_result test_result(const core::BatchComparison& c, int32_t which) {
       r.approximate = 1;
       return r;
     }
-    default:
-      throw Misuse{ELLIPSA_ERR_ARGUMENT, "unknown test " + std::to_string(which)};
+    default: throw Misuse{ELLIPSA_ERR_ARGUMENT, "unknown test " + std::to_string(which)};
   }
 }
 
@@ -101,8 +100,7 @@ ellipsa_test_result test_result(const core::BatchComparison& c, int32_t which) {
 extern "C" {
 
 ELLIPSA_API ellipsa_status ellipsa_batch_compare(ellipsa_comparison** out, const ellipsa_matrix* reference,
-                                                 const ellipsa_matrix* batch,
-                                                 const ellipsa_compare_options* options) {
+                                                 const ellipsa_matrix* batch, const ellipsa_compare_options* options) {
   if (out != nullptr) *out = nullptr;
   return guard("ellipsa_batch_compare", [&] {
     require_not_null(out, "out");
@@ -128,8 +126,8 @@ ELLIPSA_API ellipsa_status ellipsa_comparison_test(ellipsa_test_result* out, con
   });
 }
 
-ELLIPSA_API ellipsa_status ellipsa_comparison_variables(ellipsa_variable_shift* out, int64_t capacity,
-                                                        int64_t* count, const ellipsa_comparison* comparison) {
+ELLIPSA_API ellipsa_status ellipsa_comparison_variables(ellipsa_variable_shift* out, int64_t capacity, int64_t* count,
+                                                        const ellipsa_comparison* comparison) {
   return guard("ellipsa_comparison_variables", [&] {
     require_not_null(count, "count");
     require_not_null(comparison, "comparison");
@@ -137,8 +135,8 @@ ELLIPSA_API ellipsa_status ellipsa_comparison_variables(ellipsa_variable_shift* 
     *count = static_cast<int64_t>(v.size());
     if (out == nullptr) return ELLIPSA_OK;
     if (capacity < *count)
-      throw Misuse{ELLIPSA_ERR_SHAPE, "capacity " + std::to_string(capacity) + " is below the " +
-                                          std::to_string(*count) + " variables"};
+      throw Misuse{ELLIPSA_ERR_SHAPE,
+                   "capacity " + std::to_string(capacity) + " is below the " + std::to_string(*count) + " variables"};
     for (std::size_t j = 0; j < v.size(); ++j) {
       ellipsa_variable_shift s{};
       s.reference_mean = v[j].reference_mean;

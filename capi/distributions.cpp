@@ -46,8 +46,7 @@ ELLIPSA_API ellipsa_status ellipsa_beta_tail(double* out, double x, double a, do
   return scalar_call("ellipsa_beta_tail", out, [&] { return core::beta_sf(x, a, b); });
 }
 
-ELLIPSA_API ellipsa_status ellipsa_hotelling_limit(double* out, int32_t phase, int64_t m, int64_t p,
-                                                   double alpha) {
+ELLIPSA_API ellipsa_status ellipsa_hotelling_limit(double* out, int32_t phase, int64_t m, int64_t p, double alpha) {
   return scalar_call("ellipsa_hotelling_limit", out, [&]() -> double {
     // Tracy, Young & Mason (1992), computed once in the core (core/hotelling.*).
     if (phase == ELLIPSA_PHASE_ONE) return core::t2_phase1_limit(m, p, alpha);

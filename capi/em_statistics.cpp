@@ -132,8 +132,8 @@ std::unique_ptr<ellipsa_em_statistics> from_bytes(const char* bytes, int64_t len
   const auto ku = static_cast<std::uint64_t>(k), pu = static_cast<std::uint64_t>(p);
   const std::uint64_t expected = 8 * 4 + (ku + 1) * moments_bytes(pu);
   if (r.remaining() != expected)
-    r.fail("the payload after K and p holds " + std::to_string(r.remaining()) + " bytes, K = " +
-           std::to_string(k) + " and p = " + std::to_string(p) + " need " + std::to_string(expected));
+    r.fail("the payload after K and p holds " + std::to_string(r.remaining()) + " bytes, K = " + std::to_string(k) +
+           " and p = " + std::to_string(p) + " need " + std::to_string(expected));
   if (k != static_cast<int64_t>(m.components.size()) || p != m.dimension())
     r.fail("the bytes hold K = " + std::to_string(k) + ", p = " + std::to_string(p) + "; the parameters have K = " +
            std::to_string(m.components.size()) + ", p = " + std::to_string(m.dimension()));
@@ -156,20 +156,19 @@ std::unique_ptr<ellipsa_em_statistics> from_bytes(const char* bytes, int64_t len
     r.fail("the responsibilities do not sum to the row count");
   auto e = make_statistics(m);
   if (e->fingerprint != fp) r.fail("the statistics were computed under other parameters");
-  e->stats = core::EmStatistics::from_parts(ellipsa::capi::to_core_mixture(m), std::move(comps), std::move(overall),
-                                            ll, stl);
+  e->stats =
+      core::EmStatistics::from_parts(ellipsa::capi::to_core_mixture(m), std::move(comps), std::move(overall), ll, stl);
   e->skipped = skipped;
   return e;
 }
 
 core::MixtureOptions mixture_options(const ellipsa_em_statistics& e, const ellipsa_fit_options& o) {
-  if (o.method != ELLIPSA_METHOD_MIXTURE)
-    throw Misuse{ELLIPSA_ERR_ARGUMENT, "the options must be of method mixture"};
+  if (o.method != ELLIPSA_METHOD_MIXTURE) throw Misuse{ELLIPSA_ERR_ARGUMENT, "the options must be of method mixture"};
   const int32_t structure = ellipsa::capi::from_core_structure(e.stats.parameters().structure);
   if (o.structure != structure)
-    throw Misuse{ELLIPSA_ERR_ARGUMENT, std::string("the options' structure (") + ellipsa::capi::structure_name(o.structure) +
-                                           ") differs from the parameters' (" +
-                                           ellipsa::capi::structure_name(structure) + ")"};
+    throw Misuse{ELLIPSA_ERR_ARGUMENT,
+                 std::string("the options' structure (") + ellipsa::capi::structure_name(o.structure) +
+                     ") differs from the parameters' (" + ellipsa::capi::structure_name(structure) + ")"};
   if (o.missing == ELLIPSA_MISSING_EM)
     throw Misuse{ELLIPSA_ERR_ARGUMENT, "EM over missing values is not available from statistics (complete rows only)"};
   core::MixtureOptions m;
@@ -241,8 +240,8 @@ ELLIPSA_API ellipsa_status ellipsa_em_statistics_add(ellipsa_em_statistics* stat
     const core::DataView x = ellipsa::capi::checked_view(rows, "rows");
     const Eigen::Index p = statistics->stats.overall().dimension();
     if (x.cols() != p)
-      throw Misuse{ELLIPSA_ERR_SHAPE, "rows have " + std::to_string(x.cols()) + " columns, the parameters " +
-                                          std::to_string(p)};
+      throw Misuse{ELLIPSA_ERR_SHAPE,
+                   "rows have " + std::to_string(x.cols()) + " columns, the parameters " + std::to_string(p)};
     if (x.rows() == 0) return ELLIPSA_OK;
     const auto complete =
         ellipsa::capi::naming_places("chunk", x.cols(), [&] { return core::select_complete_rows(x); });
@@ -327,16 +326,15 @@ ELLIPSA_API ellipsa_status ellipsa_em_statistics_m_step(ellipsa_model** next, co
 }
 
 ELLIPSA_API ellipsa_status ellipsa_em_statistics_model(ellipsa_model** out, const ellipsa_em_statistics* statistics,
-                                                       double log_density_cutoff, int32_t converged,
-                                                       int64_t iterations, const ellipsa_fit_options* options) {
+                                                       double log_density_cutoff, int32_t converged, int64_t iterations,
+                                                       const ellipsa_fit_options* options) {
   if (out != nullptr) *out = nullptr;
   return guard("ellipsa_em_statistics_model", [&] {
     require_not_null(out, "out");
     require_not_null(statistics, "statistics");
     require_not_null(options, "options");
     mixture_options(*statistics, *options);  // the same checks as the M-step
-    if (!std::isfinite(log_density_cutoff))
-      throw Misuse{ELLIPSA_ERR_ARGUMENT, "the log-density cutoff must be finite"};
+    if (!std::isfinite(log_density_cutoff)) throw Misuse{ELLIPSA_ERR_ARGUMENT, "the log-density cutoff must be finite"};
     if (converged != 0 && converged != 1) throw Misuse{ELLIPSA_ERR_ARGUMENT, "converged must be 0 or 1"};
     if (iterations < 0) throw Misuse{ELLIPSA_ERR_ARGUMENT, "iterations must be >= 0"};
     if (statistics->stats.rows() < 1) throw core::Error(core::ErrorKind::Data, "the statistics hold no rows");

@@ -18,9 +18,7 @@
 
 namespace ellipsa::capi {
 
-core::DataView PreparedData::used() const {
-  return copied ? core::make_view(complete_copy) : all;
-}
+core::DataView PreparedData::used() const { return copied ? core::make_view(complete_copy) : all; }
 
 namespace {
 // The rows a fit uses under the options' missing-value policy; the core's
@@ -104,8 +102,8 @@ void finalise_or_explain(ellipsa_model& m) {
     explain_singular(m, core::diagnose_scatter(m.components.front().scatter));
   }
   const auto& factor = m.components.front().factor;
-  if (m.kind == ELLIPSA_KIND_GAUSSIAN && (factor.pivot_ratio() < kExaminePivotRatio ||
-                                          factor.smallest_residual_fraction() < kExamineResidualFraction)) {
+  if (m.kind == ELLIPSA_KIND_GAUSSIAN &&
+      (factor.pivot_ratio() < kExaminePivotRatio || factor.smallest_residual_fraction() < kExamineResidualFraction)) {
     const auto report = core::diagnose_scatter(m.components.front().scatter);
     if (report.singular) explain_singular(m, report);
   }
@@ -123,17 +121,17 @@ namespace {
 void require_rows(const PreparedData& d, int64_t needed, const char* method) {
   const int64_t n = d.used().rows();
   if (n < needed)
-    throw core::Error(core::ErrorKind::Data,
-                      std::string(method) + " needs at least " + std::to_string(needed) +
-                          " complete rows; " + std::to_string(n) + " available (" +
-                          std::to_string(d.dropped_rows.size()) + " dropped for missing values)");
+    throw core::Error(core::ErrorKind::Data, std::string(method) + " needs at least " + std::to_string(needed) +
+                                                 " complete rows; " + std::to_string(n) + " available (" +
+                                                 std::to_string(d.dropped_rows.size()) +
+                                                 " dropped for missing values)");
 }
 }  // namespace
 
 void fit_gaussian_classical(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_options& o) {
   require_rows(d, 2, "the classical fit");
-  const auto norm = o.divisor == ELLIPSA_DIVISOR_N ? core::Normalisation::ByCount
-                                                   : core::Normalisation::ByCountMinusOne;
+  const auto norm =
+      o.divisor == ELLIPSA_DIVISOR_N ? core::Normalisation::ByCount : core::Normalisation::ByCountMinusOne;
   const auto est = core::classical_estimate(d.used(), norm, resolve_threads(o.threads));
   m.components.push_back({1.0, est.mean, est.covariance, {}});
   m.divisor = o.divisor;
@@ -141,8 +139,8 @@ void fit_gaussian_classical(ellipsa_model& m, const PreparedData& d, const ellip
 
 void fit_gaussian_shrinkage(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_options& o) {
   require_rows(d, 2, "a shrinkage fit");
-  const auto method = o.method == ELLIPSA_METHOD_OAS ? core::ShrinkageMethod::OracleApproximating
-                                                     : core::ShrinkageMethod::LedoitWolf;
+  const auto method =
+      o.method == ELLIPSA_METHOD_OAS ? core::ShrinkageMethod::OracleApproximating : core::ShrinkageMethod::LedoitWolf;
   const auto est = core::shrinkage_estimate(d.used(), method, resolve_threads(o.threads));
   m.components.push_back({1.0, est.mean, est.covariance, {}});
   m.shrinkage_intensity = est.intensity;
@@ -171,21 +169,24 @@ extern "C" ELLIPSA_API ellipsa_status ellipsa_model_fit(ellipsa_model** out, con
     m->dropped_rows = d.dropped_rows;
     m->rows_dropped = static_cast<int64_t>(d.dropped_rows.size());
     m->rows_used = d.used().rows();
-    naming_places("data", d.columns, [&] {
-      switch (o.method) {
-        case ELLIPSA_METHOD_CLASSICAL: fit_gaussian_classical(*m, d, o); break;
-        case ELLIPSA_METHOD_LEDOIT_WOLF:
-        case ELLIPSA_METHOD_OAS: fit_gaussian_shrinkage(*m, d, o); break;
-        case ELLIPSA_METHOD_MCD:
-        case ELLIPSA_METHOD_DETMCD:
-        case ELLIPSA_METHOD_MRCD: fit_robust(*m, d, o); break;
-        case ELLIPSA_METHOD_MIXTURE:
-        default:  // ellipsa_fit_options_create() admits no other method
-          m->kind = ELLIPSA_KIND_MIXTURE;
-          fit_mixture(*m, d, o);
-          break;
-      }
-    }, &d.kept_rows);
+    naming_places(
+        "data", d.columns,
+        [&] {
+          switch (o.method) {
+            case ELLIPSA_METHOD_CLASSICAL: fit_gaussian_classical(*m, d, o); break;
+            case ELLIPSA_METHOD_LEDOIT_WOLF:
+            case ELLIPSA_METHOD_OAS: fit_gaussian_shrinkage(*m, d, o); break;
+            case ELLIPSA_METHOD_MCD:
+            case ELLIPSA_METHOD_DETMCD:
+            case ELLIPSA_METHOD_MRCD: fit_robust(*m, d, o); break;
+            case ELLIPSA_METHOD_MIXTURE:
+            default:  // ellipsa_fit_options_create() admits no other method
+              m->kind = ELLIPSA_KIND_MIXTURE;
+              fit_mixture(*m, d, o);
+              break;
+          }
+        },
+        &d.kept_rows);
     finalise_or_explain(*m);
     record_reference(*m, o);
     *out = m.release();

@@ -13,8 +13,8 @@
 namespace ellipsa::capi {
 
 struct PreparedData {
-  core::DataView all;                 // the caller's view
-  Eigen::MatrixXd complete_copy;      // complete rows, when some were dropped
+  core::DataView all;             // the caller's view
+  Eigen::MatrixXd complete_copy;  // complete rows, when some were dropped
   bool copied = false;
   std::vector<int64_t> kept_rows;     // 0-based rows of `all` that are used
   std::vector<int64_t> dropped_rows;  // 0-based rows with a NaN

@@ -58,15 +58,14 @@ void fit_mixture(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_opti
   if (o.structure == ELLIPSA_STRUCTURE_ALL)
     s.structures = {core::CovarianceStructure::Full, core::CovarianceStructure::Diagonal,
                     core::CovarianceStructure::Tied, core::CovarianceStructure::Spherical};
-  else
-    s.structures = {to_core_structure(o.structure)};
+  else s.structures = {to_core_structure(o.structure)};
   s.fit.restarts = o.restarts;
   s.fit.max_iterations = o.max_iterations;
   s.fit.tolerance = o.tolerance;
   s.fit.regularisation = o.regularisation;
   s.fit.seed = o.seed;
-  s.fit.missing = o.missing == ELLIPSA_MISSING_EM ? core::MissingHandling::EmOverMissing
-                                                  : core::MissingHandling::CompleteRows;
+  s.fit.missing =
+      o.missing == ELLIPSA_MISSING_EM ? core::MissingHandling::EmOverMissing : core::MissingHandling::CompleteRows;
   s.fit.progress = progress_of(o);
   s.fit.threads = resolve_threads(o.threads);
   const core::DataView x = d.used();
@@ -96,8 +95,7 @@ void fit_mixture(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_opti
     e.components = static_cast<int32_t>(c.k);
     e.structure = from_core_structure(c.structure);
     e.log_likelihood = c.fitted ? c.log_likelihood : std::nan("");
-    e.parameters = c.n_parameters > 0 ? c.n_parameters
-                                      : core::mixture_parameter_count(c.k, x.cols(), c.structure);
+    e.parameters = c.n_parameters > 0 ? c.n_parameters : core::mixture_parameter_count(c.k, x.cols(), c.structure);
     e.bic = c.fitted ? c.bic : std::nan("");
     e.icl = c.fitted ? c.icl : std::nan("");
     e.converged = c.fitted && c.converged;
@@ -106,8 +104,10 @@ void fit_mixture(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_opti
     part.selection.push_back(e);
   }
   for (Eigen::Index k = 0; k < best.model.components(); ++k)
-    m.components.push_back({best.model.weights(k), best.model.means.row(k).transpose(),
-                            best.model.covariances[static_cast<size_t>(k)], {}});
+    m.components.push_back({best.model.weights(k),
+                            best.model.means.row(k).transpose(),
+                            best.model.covariances[static_cast<size_t>(k)],
+                            {}});
   m.rows_used = best.rows_used;
   m.mixture = std::move(part);
 }

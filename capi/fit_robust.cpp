@@ -18,8 +18,7 @@ namespace ellipsa::capi {
 namespace {
 
 std::string hyperplane_text(const core::RobustFit& r, const std::vector<std::string>& names, int64_t n) {
-  std::string s = std::to_string(r.hyperplane.rows_on) + " of " + std::to_string(n) +
-                  " rows lie on the hyperplane";
+  std::string s = std::to_string(r.hyperplane.rows_on) + " of " + std::to_string(n) + " rows lie on the hyperplane";
   char buf[64];
   bool first = true;
   for (Eigen::Index j = 0; j < r.hyperplane.normal.size(); ++j) {
@@ -81,8 +80,7 @@ core::RobustFit run(const PreparedData& d, const ellipsa_fit_options& o) {
 
 void fit_robust(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_options& o) {
   const core::RobustFit r = run(d, o);
-  if (r.exact_fit)
-    throw core::Error(core::ErrorKind::ExactFit, hyperplane_text(r, m.columns, d.used().rows()));
+  if (r.exact_fit) throw core::Error(core::ErrorKind::ExactFit, hyperplane_text(r, m.columns, d.used().rows()));
   RobustPart part;
   part.h = r.h;
   part.raw_location = r.raw_location;

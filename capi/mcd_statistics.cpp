@@ -43,7 +43,8 @@ ELLIPSA_API ellipsa_status ellipsa_accumulator_add_within(ellipsa_accumulator* a
     if (x.rows() > 0) require_not_null(d2, "d2");
     if (std::isnan(limit)) throw Misuse{ELLIPSA_ERR_ARGUMENT, "the limit is NaN"};
     // Checks first (an infinite value throws here), so a refused call adds nothing.
-    const auto complete = ellipsa::capi::naming_places("chunk", x.cols(), [&] { return core::select_complete_rows(x); });
+    const auto complete =
+        ellipsa::capi::naming_places("chunk", x.cols(), [&] { return core::select_complete_rows(x); });
     std::vector<core::Index> chosen;
     int64_t skipped = 0;
     std::size_t next_complete = 0;
@@ -73,8 +74,7 @@ ELLIPSA_API ellipsa_status ellipsa_model_from_mcd_statistics(ellipsa_model** out
     require_not_null(subset, "subset");
     require_not_null(options, "options");
     const ellipsa_fit_options& o = *options;
-    if (o.method != ELLIPSA_METHOD_MCD)
-      throw Misuse{ELLIPSA_ERR_ARGUMENT, "the options must be of method mcd"};
+    if (o.method != ELLIPSA_METHOD_MCD) throw Misuse{ELLIPSA_ERR_ARGUMENT, "the options must be of method mcd"};
     if (o.consistency != ELLIPSA_CONSISTENCY_NORMAL)
       throw Misuse{ELLIPSA_ERR_ARGUMENT,
                    "the median consistency rule needs the median distance of all rows; from statistics only the "

@@ -112,8 +112,7 @@ int64_t fit_memory_estimate(const ellipsa_fit_options& o, int64_t n, int64_t p) 
       words = add(words, prod({8, k, p, p}));
       words = add(words, prod({4, k, p}));
       words = add(words, prod({10, n}));
-      if (o.missing == ELLIPSA_MISSING_EM)
-        words = add(words, add(add(prod({2, n, p}), val(n)), prod({4, k, p, p})));
+      if (o.missing == ELLIPSA_MISSING_EM) words = add(words, add(add(prod({2, n, p}), val(n)), prod({4, k, p, p})));
       break;
     }
   }
@@ -132,14 +131,24 @@ int64_t memory_ceiling(const ellipsa_fit_options& o) {
   int64_t scale = 1;
   if (end != env && *end != '\0' && end[1] == '\0') {
     switch (*end) {
-      case 'K': scale = int64_t{1} << 10; ++end; break;
-      case 'M': scale = int64_t{1} << 20; ++end; break;
-      case 'G': scale = int64_t{1} << 30; ++end; break;
+      case 'K':
+        scale = int64_t{1} << 10;
+        ++end;
+        break;
+      case 'M':
+        scale = int64_t{1} << 20;
+        ++end;
+        break;
+      case 'G':
+        scale = int64_t{1} << 30;
+        ++end;
+        break;
       default: break;
     }
   }
   int64_t bytes = 0;
-  if (errno != 0 || end == env || *end != '\0' || v < 0 || __builtin_mul_overflow(static_cast<int64_t>(v), scale, &bytes))
+  if (errno != 0 || end == env || *end != '\0' || v < 0 ||
+      __builtin_mul_overflow(static_cast<int64_t>(v), scale, &bytes))
     throw Misuse{ELLIPSA_ERR_ARGUMENT, "environment variable ELLIPSA_MEMORY_LIMIT is \"" + std::string(env) +
                                            "\"; it must be a whole number of bytes >= 0, optionally followed by K, M "
                                            "or G (binary multiples), or unset"};

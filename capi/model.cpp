@@ -11,7 +11,7 @@ void finalise(ellipsa_model& m) {
     auto& c = m.components[k];
     if (!c.factor.compute(c.scatter)) {
       const std::string which = m.components.size() == 1 ? std::string("the scatter matrix")
-                                                          : "the scatter of component " + std::to_string(k + 1);
+                                                         : "the scatter of component " + std::to_string(k + 1);
       throw core::Error(core::ErrorKind::Singular, which + " is not positive definite");
     }
   }
@@ -20,8 +20,8 @@ void finalise(ellipsa_model& m) {
 std::vector<std::string> column_names_or_default(const std::vector<std::string>& given, int64_t p) {
   if (!given.empty()) {
     if (static_cast<int64_t>(given.size()) != p)
-      throw Misuse{ELLIPSA_ERR_SHAPE, std::to_string(given.size()) + " column names given for " +
-                                          std::to_string(p) + " data columns"};
+      throw Misuse{ELLIPSA_ERR_SHAPE,
+                   std::to_string(given.size()) + " column names given for " + std::to_string(p) + " data columns"};
     return given;
   }
   std::vector<std::string> names;

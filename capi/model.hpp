@@ -23,7 +23,7 @@ struct RobustPart {
   double consistency_factor = 1.0;
   int32_t consistency_rule = ELLIPSA_CONSISTENCY_NORMAL;  // how consistency_factor was found
   double reweight_factor = 1.0;
-  double small_sample_raw = 1.0;         // small-sample factors applied (1: none or off)
+  double small_sample_raw = 1.0;  // small-sample factors applied (1: none or off)
   double small_sample_reweighted = 1.0;
   double raw_log_det = 0.0;
   std::optional<double> regularisation;  // MRCD rho
@@ -57,9 +57,10 @@ struct MixturePart {
   double icl = 0.0;
   bool converged = false;
   int64_t iterations = 0;
-  double log_density_cutoff = 0.0;   // flag rows whose log-density is below this
-  double cutoff_level = 0.975;       // the level the cutoff was calibrated at
-  std::vector<Candidate> selection;  // every candidate tried; empty only for a model loaded from a file without the table
+  double log_density_cutoff = 0.0;  // flag rows whose log-density is below this
+  double cutoff_level = 0.975;      // the level the cutoff was calibrated at
+  std::vector<Candidate>
+      selection;  // every candidate tried; empty only for a model loaded from a file without the table
 };
 
 }  // namespace ellipsa::capi

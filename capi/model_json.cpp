@@ -61,9 +61,7 @@ json number_or_null(double v) { return std::isfinite(v) ? json(v) : json(nullptr
 
 // ---- reading ------------------------------------------------------------
 
-[[noreturn]] void format_error(const std::string& message) {
-  throw core::Error(core::ErrorKind::Format, message);
-}
+[[noreturn]] void format_error(const std::string& message) { throw core::Error(core::ErrorKind::Format, message); }
 
 const json& field(const json& obj, const char* key) {
   auto it = obj.find(key);
@@ -80,11 +78,10 @@ double number(const json& v, const std::string& where) {
 
 int64_t integer(const json& v, const std::string& where, int64_t lo, int64_t hi) {
   if (!v.is_number_integer()) format_error(where + " must be an integer");
-  const int64_t i = v.is_number_unsigned() ? static_cast<int64_t>(std::min<uint64_t>(
-                                                 v.get<uint64_t>(), uint64_t{INT64_MAX}))
-                                           : v.get<int64_t>();
-  if (i < lo || i > hi)
-    format_error(where + " must lie in [" + std::to_string(lo) + ", " + std::to_string(hi) + "]");
+  const int64_t i = v.is_number_unsigned()
+                        ? static_cast<int64_t>(std::min<uint64_t>(v.get<uint64_t>(), uint64_t{INT64_MAX}))
+                        : v.get<int64_t>();
+  if (i < lo || i > hi) format_error(where + " must lie in [" + std::to_string(lo) + ", " + std::to_string(hi) + "]");
   return i;
 }
 
@@ -105,8 +102,7 @@ Eigen::MatrixXd read_scatter(const json& v, int64_t p, const std::string& where)
   for (int64_t i = 0; i < p; ++i)
     for (int64_t j = 0; j < i; ++j)
       if (std::abs(m(i, j) - m(j, i)) > 1e-12 * scale)
-        format_error(where + " is not symmetric (entries " + std::to_string(i + 1) + "," +
-                     std::to_string(j + 1) + ")");
+        format_error(where + " is not symmetric (entries " + std::to_string(i + 1) + "," + std::to_string(j + 1) + ")");
   // Symmetric to the last bit, as every fit leaves it: the tolerance above
   // admits rounding in hand-edited files; keep their average (found by fuzzing:
   // the model kept the asymmetry and saved it back).
@@ -175,12 +171,10 @@ std::string model_to_json(const ellipsa_model& m) {
     const auto& c = m.components.front();
     j["location"] = vector_json(c.location);
     j["scatter"] = matrix_json(c.scatter);
-    if (m.method == ELLIPSA_METHOD_CLASSICAL)
-      j["normalisation"] = m.divisor == ELLIPSA_DIVISOR_N ? "n" : "n-1";
+    if (m.method == ELLIPSA_METHOD_CLASSICAL) j["normalisation"] = m.divisor == ELLIPSA_DIVISOR_N ? "n" : "n-1";
     if (m.shrinkage_intensity) j["shrinkage_intensity"] = *m.shrinkage_intensity;
-    j["scoring_reference"] = {{"kind", reference_name(m.reference)},
-                              {"rows", m.reference_rows},
-                              {"fitting_rows", m.fitting_reference_rows}};
+    j["scoring_reference"] = {
+        {"kind", reference_name(m.reference)}, {"rows", m.reference_rows}, {"fitting_rows", m.fitting_reference_rows}};
     if (m.robust) {
       const auto& r = *m.robust;
       j["h"] = r.h;
@@ -195,16 +189,15 @@ std::string model_to_json(const ellipsa_model& m) {
       if (m.method == ELLIPSA_METHOD_MCD || m.method == ELLIPSA_METHOD_DETMCD)
         j["small_sample_factors"] = {{"raw", r.small_sample_raw}, {"reweighted", r.small_sample_reweighted}};
       j["raw_log_det"] = r.raw_log_det;
-      if (r.regularisation)
-        j["regularisation"] = {{"rho", *r.regularisation}, {"target", r.regularisation_target}};
+      if (r.regularisation) j["regularisation"] = {{"rho", *r.regularisation}, {"target", r.regularisation_target}};
     }
   } else {
     const auto& x = *m.mixture;
     j["structure"] = structure_name(x.structure);
     json comps = json::array();
     for (const auto& c : m.components)
-      comps.push_back({{"weight", c.weight}, {"location", vector_json(c.location)},
-                       {"scatter", matrix_json(c.scatter)}});
+      comps.push_back(
+          {{"weight", c.weight}, {"location", vector_json(c.location)}, {"scatter", matrix_json(c.scatter)}});
     j["components"] = std::move(comps);
     j["log_likelihood"] = x.log_likelihood;
     j["parameters"] = x.parameters;
@@ -217,10 +210,13 @@ std::string model_to_json(const ellipsa_model& m) {
     if (!x.selection.empty()) {
       json table = json::array();
       for (const auto& c : x.selection)
-        table.push_back({{"components", c.components}, {"structure", structure_name(c.structure)},
+        table.push_back({{"components", c.components},
+                         {"structure", structure_name(c.structure)},
                          {"log_likelihood", number_or_null(c.log_likelihood)},
-                         {"parameters", c.parameters}, {"bic", number_or_null(c.bic)},
-                         {"icl", number_or_null(c.icl)}, {"converged", c.converged},
+                         {"parameters", c.parameters},
+                         {"bic", number_or_null(c.bic)},
+                         {"icl", number_or_null(c.icl)},
+                         {"converged", c.converged},
                          {"chosen", c.chosen}});
       // Optional: only a candidate that could not be fitted has a reason.
       for (size_t i = 0; i < x.selection.size(); ++i)

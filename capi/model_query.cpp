@@ -114,8 +114,8 @@ ELLIPSA_API ellipsa_status ellipsa_model_column_name(const char** out, const ell
 }
 
 ELLIPSA_API ellipsa_status ellipsa_model_component(double* location, int64_t location_capacity, double* scatter,
-                                                   int64_t scatter_capacity, double* weight,
-                                                   const ellipsa_model* model, int32_t k) {
+                                                   int64_t scatter_capacity, double* weight, const ellipsa_model* model,
+                                                   int32_t k) {
   return guard("ellipsa_model_component", [&] {
     require_not_null(model, "model");
     if (k < 0 || k >= static_cast<int32_t>(model->components.size()))
@@ -166,8 +166,7 @@ ELLIPSA_API ellipsa_status ellipsa_model_row_set(int64_t* out, int64_t capacity,
     }
     *count = static_cast<int64_t>(rows->size());
     if (out == nullptr) return ELLIPSA_OK;
-    if (capacity < *count)
-      throw Misuse{ELLIPSA_ERR_SHAPE, "row set needs capacity " + std::to_string(*count)};
+    if (capacity < *count) throw Misuse{ELLIPSA_ERR_SHAPE, "row set needs capacity " + std::to_string(*count)};
     std::copy(rows->begin(), rows->end(), out);
     return ELLIPSA_OK;
   });
@@ -182,8 +181,7 @@ ELLIPSA_API ellipsa_status ellipsa_model_selection(ellipsa_candidate* out, int64
     const auto& table = model->mixture->selection;
     *count = static_cast<int64_t>(table.size());
     if (out == nullptr) return ELLIPSA_OK;
-    if (capacity < *count)
-      throw Misuse{ELLIPSA_ERR_SHAPE, "selection needs capacity " + std::to_string(*count)};
+    if (capacity < *count) throw Misuse{ELLIPSA_ERR_SHAPE, "selection needs capacity " + std::to_string(*count)};
     // The first published ellipsa_candidate ends with `chosen`; later versions
     // grow at the end, so the caller's element size is the stride.
     constexpr int64_t kFirstSize = static_cast<int64_t>(sizeof(ellipsa_candidate));
@@ -212,8 +210,7 @@ ELLIPSA_API ellipsa_status ellipsa_model_selection(ellipsa_candidate* out, int64
   });
 }
 
-ELLIPSA_API ellipsa_status ellipsa_candidate_explain(const char** reason, const ellipsa_model* model,
-                                                     int64_t index) {
+ELLIPSA_API ellipsa_status ellipsa_candidate_explain(const char** reason, const ellipsa_model* model, int64_t index) {
   if (reason != nullptr) *reason = nullptr;
   return guard("ellipsa_candidate_explain", [&] {
     require_not_null(reason, "reason");
@@ -221,8 +218,8 @@ ELLIPSA_API ellipsa_status ellipsa_candidate_explain(const char** reason, const 
     if (!model->mixture) throw Misuse{ELLIPSA_ERR_STATE, "not a mixture model"};
     const auto& table = model->mixture->selection;
     if (index < 0 || index >= static_cast<int64_t>(table.size()))
-      throw Misuse{ELLIPSA_ERR_ARGUMENT, "candidate index " + std::to_string(index) + " outside [0, " +
-                                             std::to_string(table.size()) + ")"};
+      throw Misuse{ELLIPSA_ERR_ARGUMENT,
+                   "candidate index " + std::to_string(index) + " outside [0, " + std::to_string(table.size()) + ")"};
     *reason = table[static_cast<size_t>(index)].reason.c_str();
     return ELLIPSA_OK;
   });

@@ -15,11 +15,13 @@ using ellipsa::capi::require_not_null;
 
 namespace ellipsa::capi {
 namespace {
-constexpr Named<ellipsa_method> kMethodNames[] = {
-    {ELLIPSA_METHOD_CLASSICAL, "classical"}, {ELLIPSA_METHOD_LEDOIT_WOLF, "ledoit-wolf"},
-    {ELLIPSA_METHOD_OAS, "oas"},             {ELLIPSA_METHOD_MCD, "mcd"},
-    {ELLIPSA_METHOD_DETMCD, "detmcd"},       {ELLIPSA_METHOD_MRCD, "mrcd"},
-    {ELLIPSA_METHOD_MIXTURE, "mixture"}};
+constexpr Named<ellipsa_method> kMethodNames[] = {{ELLIPSA_METHOD_CLASSICAL, "classical"},
+                                                  {ELLIPSA_METHOD_LEDOIT_WOLF, "ledoit-wolf"},
+                                                  {ELLIPSA_METHOD_OAS, "oas"},
+                                                  {ELLIPSA_METHOD_MCD, "mcd"},
+                                                  {ELLIPSA_METHOD_DETMCD, "detmcd"},
+                                                  {ELLIPSA_METHOD_MRCD, "mrcd"},
+                                                  {ELLIPSA_METHOD_MIXTURE, "mixture"}};
 // The structures a single fit uses; ALL ("try each") is a selection setting
 // only, accepted where allow_all says so.
 constexpr Named<int32_t> kStructureNames[] = {{ELLIPSA_STRUCTURE_FULL, "full"},
@@ -63,8 +65,7 @@ ellipsa_status set(const char* fn, ellipsa_fit_options* o, F&& f) {
 // A setting the handle's method does not use is refused, so that a typo in a
 // caller (a seed for a deterministic method, components for a single Gaussian)
 // cannot pass silently.
-void require_method(const ellipsa_fit_options& o, std::initializer_list<ellipsa_method> allowed,
-                    const char* setting) {
+void require_method(const ellipsa_fit_options& o, std::initializer_list<ellipsa_method> allowed, const char* setting) {
   for (ellipsa_method m : allowed)
     if (o.method == m) return;
   std::string uses;
@@ -104,13 +105,9 @@ ELLIPSA_API ellipsa_status ellipsa_method_from_name(ellipsa_method* out, const c
   });
 }
 
-ELLIPSA_API const char* ellipsa_method_name(ellipsa_method method) {
-  return ellipsa::capi::method_name(method);
-}
+ELLIPSA_API const char* ellipsa_method_name(ellipsa_method method) { return ellipsa::capi::method_name(method); }
 
-ELLIPSA_API const char* ellipsa_structure_name(int32_t structure) {
-  return ellipsa::capi::structure_name(structure);
-}
+ELLIPSA_API const char* ellipsa_structure_name(int32_t structure) { return ellipsa::capi::structure_name(structure); }
 
 ELLIPSA_API ellipsa_status ellipsa_structure_from_name(int32_t* out, const char* name) {
   return guard("ellipsa_structure_from_name", [&] {
@@ -148,8 +145,7 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_divisor(ellipsa_fit_options* 
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_missing(ellipsa_fit_options* o, int32_t policy) {
   return set("ellipsa_fit_options_set_missing", o, [&](ellipsa_fit_options& x) {
-    if (policy != ELLIPSA_MISSING_DROP_ROWS && policy != ELLIPSA_MISSING_REFUSE &&
-        policy != ELLIPSA_MISSING_EM)
+    if (policy != ELLIPSA_MISSING_DROP_ROWS && policy != ELLIPSA_MISSING_REFUSE && policy != ELLIPSA_MISSING_EM)
       bad("unknown missing-value policy");
     if (policy == ELLIPSA_MISSING_EM && x.method != ELLIPSA_METHOD_MIXTURE)
       bad("ELLIPSA_MISSING_EM applies to mixtures only");
@@ -157,16 +153,15 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_missing(ellipsa_fit_options* 
   });
 }
 
-ELLIPSA_API ellipsa_status ellipsa_fit_options_set_column_names(ellipsa_fit_options* o,
-                                                                const char* const* names, int64_t count) {
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_column_names(ellipsa_fit_options* o, const char* const* names,
+                                                                int64_t count) {
   return set("ellipsa_fit_options_set_column_names", o, [&](ellipsa_fit_options& x) {
     require_not_null(names, "names");
     if (count < 1) bad("count must be at least 1");
     std::vector<std::string> copy;
     copy.reserve(static_cast<size_t>(count));
     for (int64_t j = 0; j < count; ++j) {
-      if (names[j] == nullptr)
-        throw Misuse{ELLIPSA_ERR_NULL, "names[" + std::to_string(j) + "] is NULL"};
+      if (names[j] == nullptr) throw Misuse{ELLIPSA_ERR_NULL, "names[" + std::to_string(j) + "] is NULL"};
       copy.emplace_back(names[j]);
     }
     x.column_names = std::move(copy);
@@ -201,8 +196,9 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_consistency(ellipsa_fit_optio
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_reference(ellipsa_fit_options* o, int32_t reference) {
   return set("ellipsa_fit_options_set_reference", o, [&](ellipsa_fit_options& x) {
-    require_method(x, {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS,
-                       ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_DETMCD, ELLIPSA_METHOD_MRCD},
+    require_method(x,
+                   {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS, ELLIPSA_METHOD_MCD,
+                    ELLIPSA_METHOD_DETMCD, ELLIPSA_METHOD_MRCD},
                    "a scoring reference");
     if (reference != ELLIPSA_REFERENCE_CHI2 && reference != ELLIPSA_REFERENCE_NEW_ROWS &&
         reference != ELLIPSA_REFERENCE_FITTING_ROWS)
@@ -213,11 +209,12 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_reference(ellipsa_fit_options
 
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_seed(ellipsa_fit_options* o, uint64_t seed) {
   return set("ellipsa_fit_options_set_seed", o, [&](ellipsa_fit_options& x) {
-    require_method(x, {ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_MIXTURE}, "a seed"); x.seed = seed; });
+    require_method(x, {ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_MIXTURE}, "a seed");
+    x.seed = seed;
+  });
 }
 
-ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_options* o, int32_t k_min,
-                                                              int32_t k_max) {
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_options* o, int32_t k_min, int32_t k_max) {
   return set("ellipsa_fit_options_set_components", o, [&](ellipsa_fit_options& x) {
     require_method(x, {ELLIPSA_METHOD_MIXTURE}, "components");
     if (k_min < 1 || k_max < k_min) bad("components need 1 <= k_min <= k_max");
@@ -230,8 +227,7 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_components(ellipsa_fit_option
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_structure(ellipsa_fit_options* o, int32_t structure) {
   return set("ellipsa_fit_options_set_structure", o, [&](ellipsa_fit_options& x) {
     require_method(x, {ELLIPSA_METHOD_MIXTURE}, "the covariance structure");
-    if (structure < ELLIPSA_STRUCTURE_FULL || structure > ELLIPSA_STRUCTURE_ALL)
-      bad("unknown covariance structure");
+    if (structure < ELLIPSA_STRUCTURE_FULL || structure > ELLIPSA_STRUCTURE_ALL) bad("unknown covariance structure");
     x.structure = structure;
   });
 }
@@ -252,8 +248,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_starts(ellipsa_fit_options* o
   });
 }
 
-ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_options* o,
-                                                              int32_t max_iterations, double tolerance) {
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_options* o, int32_t max_iterations,
+                                                              double tolerance) {
   return set("ellipsa_fit_options_set_iterations", o, [&](ellipsa_fit_options& x) {
     require_method(x, {ELLIPSA_METHOD_MIXTURE}, "the iteration limits");
     if (max_iterations < 1) bad("max_iterations must be at least 1");
@@ -271,8 +267,8 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_regularisation(ellipsa_fit_op
   });
 }
 
-ELLIPSA_API ellipsa_status ellipsa_fit_options_set_progress(ellipsa_fit_options* o,
-                                                            ellipsa_progress_fn callback, void* user) {
+ELLIPSA_API ellipsa_status ellipsa_fit_options_set_progress(ellipsa_fit_options* o, ellipsa_progress_fn callback,
+                                                            void* user) {
   return set("ellipsa_fit_options_set_progress", o, [&](ellipsa_fit_options& x) {
     x.progress = callback;
     x.progress_user = user;

@@ -22,10 +22,10 @@ struct ellipsa_fit_options {
   int32_t max_iterations = 500;
   double tolerance = 1e-6;
   double regularisation = 1e-6;
-  int32_t small_sample = 1;  // MCD, DetMCD: apply the small-sample factors
+  int32_t small_sample = 1;                          // MCD, DetMCD: apply the small-sample factors
   int32_t consistency = ELLIPSA_CONSISTENCY_NORMAL;  // MCD, DetMCD: raw scatter scaling rule
-  int32_t reference = ELLIPSA_REFERENCE_MODEL;  // MODEL = the default choice (score_reference.cpp)
-  int32_t threads = 0;  // 0 = ELLIPSA_THREADS or the available cores (capi/threads.hpp)
+  int32_t reference = ELLIPSA_REFERENCE_MODEL;       // MODEL = the default choice (score_reference.cpp)
+  int32_t threads = 0;                               // 0 = ELLIPSA_THREADS or the available cores (capi/threads.hpp)
   int64_t memory_limit = 0;  // bytes; 0 = ELLIPSA_MEMORY_LIMIT or none (capi/memory_ceiling.hpp)
   ellipsa_progress_fn progress = nullptr;
   void* progress_user = nullptr;
@@ -39,4 +39,4 @@ const char* structure_name(int32_t structure);
 int32_t structure_from_name(const std::string& name, bool allow_all);
 // "drop", "refuse", "em", or "unknown".
 const char* missing_name(int32_t policy);
-}
+}  // namespace ellipsa::capi

@@ -50,8 +50,7 @@ core::ScoringOptions scoring_options(const ellipsa_scores& b, double level, cons
 }
 
 // Writes one block of Gaussian scores for rows `rows` (positions in the output).
-void write_gaussian(const ellipsa_scores& b, const core::RowScores& s, const std::vector<int64_t>& rows,
-                    int64_t p) {
+void write_gaussian(const ellipsa_scores& b, const core::RowScores& s, const std::vector<int64_t>& rows, int64_t p) {
   for (size_t r = 0; r < rows.size(); ++r) {
     const int64_t i = rows[r];
     const auto k = static_cast<Eigen::Index>(r);
@@ -86,8 +85,7 @@ void score_gaussian(const ellipsa_scores& b, const ellipsa_model& m, core::DataV
     for (int64_t i = 0; i < x.rows(); ++i) b.log_density[i] = s.log_density(i);
 }
 
-void score_mixture_model(const ellipsa_scores& b, const ellipsa_model& m, core::DataView x, double level,
-                         int threads) {
+void score_mixture_model(const ellipsa_scores& b, const ellipsa_model& m, core::DataView x, double level, int threads) {
   const auto model = ellipsa::capi::to_core_mixture(m);
   const auto ms = core::score_mixture(model, x);
   const int64_t n = x.rows(), p = x.cols();
@@ -103,8 +101,8 @@ void score_mixture_model(const ellipsa_scores& b, const ellipsa_model& m, core::
   }
   // Distances, p-values and contributions against each row's most probable
   // component: rows are grouped by label and scored in blocks.
-  const bool want_distance = b.squared_distance || b.p_value || b.flag || b.observed ||
-                             b.contribution || b.conditional_drop;
+  const bool want_distance =
+      b.squared_distance || b.p_value || b.flag || b.observed || b.contribution || b.conditional_drop;
   if (!want_distance) return;
   std::vector<int64_t> unscorable;
   for (int64_t k = -1; k < K; ++k) {
@@ -124,8 +122,8 @@ void score_mixture_model(const ellipsa_scores& b, const ellipsa_model& m, core::
 
 namespace {
 
-ellipsa_status score_with(const char* fn, ellipsa_scores* out, const ellipsa_model* model,
-                          const ellipsa_matrix* data, double level, int32_t reference, int32_t threads) {
+ellipsa_status score_with(const char* fn, ellipsa_scores* out, const ellipsa_model* model, const ellipsa_matrix* data,
+                          double level, int32_t reference, int32_t threads) {
   return guard(fn, [&] {
     require_not_null(out, "out");
     require_not_null(model, "model");

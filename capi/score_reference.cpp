@@ -161,9 +161,7 @@ core::ScoreReference score_reference(const ellipsa_model& m, int32_t requested) 
 
 extern "C" {
 
-ELLIPSA_API const char* ellipsa_reference_name(int32_t reference) {
-  return ellipsa::capi::reference_name(reference);
-}
+ELLIPSA_API const char* ellipsa_reference_name(int32_t reference) { return ellipsa::capi::reference_name(reference); }
 
 ELLIPSA_API ellipsa_status ellipsa_reference_from_name(int32_t* out, const char* name) {
   return guard("ellipsa_reference_from_name", [&] {
@@ -171,9 +169,8 @@ ELLIPSA_API ellipsa_status ellipsa_reference_from_name(int32_t* out, const char*
     require_not_null(name, "name");
     int32_t r = 0;
     if (!ellipsa::capi::reference_from_name(name, &r))
-      throw Misuse{ELLIPSA_ERR_ARGUMENT,
-                   std::string("unknown scoring reference '") + name + "' (known: " +
-                       ellipsa::capi::known_names(ellipsa::capi::kReferenceNames) + ")"};
+      throw Misuse{ELLIPSA_ERR_ARGUMENT, std::string("unknown scoring reference '") + name + "' (known: " +
+                                             ellipsa::capi::known_names(ellipsa::capi::kReferenceNames) + ")"};
     *out = r;
     return ELLIPSA_OK;
   });

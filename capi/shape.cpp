@@ -54,8 +54,8 @@ ELLIPSA_API ellipsa_status ellipsa_data_shape(ellipsa_shape_test* out, const ell
     check_struct(out);
     const core::DataView x = ellipsa::capi::checked_view(data, "data");
     if (x.cols() < 1) throw Misuse{ELLIPSA_ERR_SHAPE, "data has no columns"};
-    const core::CompleteRows c = ellipsa::capi::naming_places(
-        "data", x.cols(), [&] { return core::select_complete_rows(x); });
+    const core::CompleteRows c =
+        ellipsa::capi::naming_places("data", x.cols(), [&] { return core::select_complete_rows(x); });
     write(out, core::mardia(core::make_view(core::gather(x, c.rows))), false);
     return ELLIPSA_OK;
   });

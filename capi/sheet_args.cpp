@@ -52,8 +52,9 @@ SheetRange copy_range(const ellipsa_sheet_value& v, const char* name) {
     for (int64_t j = 0; j < p; ++j) {
       const uint8_t kind = v.cell_kind ? v.cell_kind[i * p + j] : uint8_t{ELLIPSA_SHEET_INPUT_NUMBER};
       if (kind > ELLIPSA_SHEET_INPUT_ERROR)
-        bad(name, "cell_kind " + std::to_string(kind) + " at row " + std::to_string(i + 1) + " is not an "
-            "ELLIPSA_SHEET_INPUT_ value");
+        bad(name, "cell_kind " + std::to_string(kind) + " at row " + std::to_string(i + 1) +
+                      " is not an "
+                      "ELLIPSA_SHEET_INPUT_ value");
       double value = x(i, j);
       if (kind != ELLIPSA_SHEET_INPUT_NUMBER) {
         any_bad = true;
@@ -82,15 +83,15 @@ Arguments::Arguments(const FunctionSpec& function, const ellipsa_sheet_value* va
   if (count < 0) throw Misuse{ELLIPSA_ERR_ARGUMENT, "count must be >= 0"};
   if (count > 0) require_not_null(values, "args");
   if (static_cast<size_t>(count) > specs.size())
-    throw Misuse{ELLIPSA_ERR_ARGUMENT, std::string(function.name) + " takes at most " +
-                                           std::to_string(specs.size()) + " arguments, " +
-                                           std::to_string(count) + " given"};
+    throw Misuse{ELLIPSA_ERR_ARGUMENT, std::string(function.name) + " takes at most " + std::to_string(specs.size()) +
+                                           " arguments, " + std::to_string(count) + " given"};
   int64_t stride = sizeof(ellipsa_sheet_value);
   if (count > 0) {
     stride = values[0].struct_size;
     if (stride < static_cast<int64_t>(sizeof(ellipsa_sheet_value)))
-      throw Misuse{ELLIPSA_ERR_SHAPE, "ellipsa_sheet_value.struct_size too small: initialise with "
-                                      "ELLIPSA_SHEET_VALUE_INIT"};
+      throw Misuse{ELLIPSA_ERR_SHAPE,
+                   "ellipsa_sheet_value.struct_size too small: initialise with "
+                   "ELLIPSA_SHEET_VALUE_INIT"};
   }
   slots_.resize(specs.size());
   for (size_t a = 0; a < specs.size(); ++a) {
@@ -136,8 +137,7 @@ Arguments::Arguments(const FunctionSpec& function, const ellipsa_sheet_value* va
           if (!parsed) bad(spec.name, std::string("expected a number, got the text '") + v->text + "'");
           r.number = *parsed;
         } else if (kind == ELLIPSA_SHEET_ARG_RANGE && v->range.rows == 1 && v->range.cols == 1 &&
-                   v->range.data != nullptr &&
-                   (!v->cell_kind || v->cell_kind[0] == ELLIPSA_SHEET_INPUT_NUMBER)) {
+                   v->range.data != nullptr && (!v->cell_kind || v->cell_kind[0] == ELLIPSA_SHEET_INPUT_NUMBER)) {
           r.number = v->range.data[0];
         } else {
           bad(spec.name, std::string("expected a number, got ") + kind_name(kind));
@@ -169,8 +169,7 @@ Arguments::Arguments(const FunctionSpec& function, const ellipsa_sheet_value* va
           bad(spec.name, std::string("expected TRUE or FALSE, got ") + kind_name(kind));
         }
         break;
-      default:
-        throw Misuse{ELLIPSA_ERR_INTERNAL, "catalog argument of unknown kind"};
+      default: throw Misuse{ELLIPSA_ERR_INTERNAL, "catalog argument of unknown kind"};
     }
   }
 }
@@ -200,9 +199,7 @@ std::optional<double> Arguments::number(const char* name) const {
   return r.number;
 }
 
-double Arguments::number_or(const char* name, double fallback) const {
-  return number(name).value_or(fallback);
-}
+double Arguments::number_or(const char* name, double fallback) const { return number(name).value_or(fallback); }
 
 std::optional<int64_t> Arguments::whole_number(const char* name, int64_t lo, int64_t hi) const {
   const auto v = number(name);
@@ -228,9 +225,8 @@ const SheetRange& Arguments::fitting_range() const {
   const SheetRange* ref = range_if_given("reference");
   if (!ref) return rows;
   if (ref->col_count() != rows.col_count())
-    throw Misuse{ELLIPSA_ERR_SHAPE, "reference has " + std::to_string(ref->col_count()) +
-                                        " columns but rows has " + std::to_string(rows.col_count()) +
-                                        ": they must hold the same variables"};
+    throw Misuse{ELLIPSA_ERR_SHAPE, "reference has " + std::to_string(ref->col_count()) + " columns but rows has " +
+                                        std::to_string(rows.col_count()) + ": they must hold the same variables"};
   return *ref;
 }
 
@@ -254,8 +250,6 @@ void Grid::text(int64_t i, int64_t j, const char* t) {
 void Grid::error(int64_t i, int64_t j, int32_t code) {
   at(i, j) = ellipsa_sheet_cell{ELLIPSA_SHEET_CELL_ERROR, code, 0.0, nullptr};
 }
-void Grid::empty(int64_t i, int64_t j) {
-  at(i, j) = ellipsa_sheet_cell{ELLIPSA_SHEET_CELL_EMPTY, 0, 0.0, nullptr};
-}
+void Grid::empty(int64_t i, int64_t j) { at(i, j) = ellipsa_sheet_cell{ELLIPSA_SHEET_CELL_EMPTY, 0, 0.0, nullptr}; }
 
 }  // namespace ellipsa::capi::sheet

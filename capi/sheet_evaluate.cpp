@@ -41,8 +41,8 @@ ELLIPSA_API ellipsa_status ellipsa_sheet_evaluate(ellipsa_sheet_cell* cells, int
     f.shape_of(a, &need_rows, &need_cols);
     if (rows < need_rows || cols < need_cols)
       throw Misuse{ELLIPSA_ERR_SHAPE, std::string(f.name) + " needs " + std::to_string(need_rows) + " x " +
-                                          std::to_string(need_cols) + " cells; " + std::to_string(rows) +
-                                          " x " + std::to_string(cols) + " given"};
+                                          std::to_string(need_cols) + " cells; " + std::to_string(rows) + " x " +
+                                          std::to_string(cols) + " given"};
     require_not_null(cells, "cells");
     sheet::Grid grid(cells, rows, cols);
     f.evaluate(a, cache, grid);

@@ -94,7 +94,8 @@ FitRequest gaussian_request(const Arguments& a, ellipsa_method default_method,
     ok = ok || m == r.method;
     names += std::string(names.empty() ? "" : ", ") + ellipsa_method_name(m);
   }
-  if (!ok) bad("method", std::string("'") + ellipsa_method_name(r.method) + "' is not offered here (use " + names + ")");
+  if (!ok)
+    bad("method", std::string("'") + ellipsa_method_name(r.method) + "' is not offered here (use " + names + ")");
   r.alpha = a.number("alpha");
   if (const auto seed = a.whole_number("seed", 0, int64_t{1} << 53)) r.seed = static_cast<uint64_t>(*seed);
   return r;
@@ -143,7 +144,7 @@ ModelPtr fitted(ellipsa_sheet_cache* cache, const SheetRange& data, const FitReq
   }
   ModelPtr model = fit_now(data, request, what);
   const int64_t bytes = static_cast<int64_t>(data.values.size() * sizeof(double));
-  if (bytes > cache->max_bytes) return model;  // larger than the whole cache: not kept
+  if (bytes > cache->max_bytes) return model;                        // larger than the whole cache: not kept
   ellipsa_sheet_cache::Entry entry{h, request, data.values, model};  // copy outside the lock
   std::lock_guard<std::mutex> lock(cache->mutex);
   for (const auto& e : cache->entries)
@@ -181,8 +182,8 @@ ELLIPSA_API ellipsa_status ellipsa_sheet_cache_create(ellipsa_sheet_cache** out,
 
 ELLIPSA_API void ellipsa_sheet_cache_destroy(ellipsa_sheet_cache* cache) { delete cache; }
 
-ELLIPSA_API ellipsa_status ellipsa_sheet_cache_stats(int64_t* hits, int64_t* misses, int64_t* entries,
-                                                     int64_t* bytes, const ellipsa_sheet_cache* cache) {
+ELLIPSA_API ellipsa_status ellipsa_sheet_cache_stats(int64_t* hits, int64_t* misses, int64_t* entries, int64_t* bytes,
+                                                     const ellipsa_sheet_cache* cache) {
   return guard("ellipsa_sheet_cache_stats", [&] {
     require_not_null(cache, "cache");
     auto* c = const_cast<ellipsa_sheet_cache*>(cache);  // the mutex, not the contents

@@ -35,7 +35,9 @@ void eval_t2_limit(const Arguments& a, ellipsa_sheet_cache*, Grid& g) {
   const int64_t phase = a.whole_number("phase", 1, 2).value_or(2);
   const double level = a.number_or("level", 0.975);
   if (!(level > 0.0 && level < 1.0)) throw Misuse{ELLIPSA_ERR_ARGUMENT, "level: must be between 0 and 1"};
-  put(g, [&](double* out) { return ellipsa_hotelling_limit(out, phase == 1 ? ELLIPSA_PHASE_ONE : ELLIPSA_PHASE_TWO, m, p, 1.0 - level); });
+  put(g, [&](double* out) {
+    return ellipsa_hotelling_limit(out, phase == 1 ? ELLIPSA_PHASE_ONE : ELLIPSA_PHASE_TWO, m, p, 1.0 - level);
+  });
 }
 
 void eval_chi2_quantile(const Arguments& a, ellipsa_sheet_cache*, Grid& g) {

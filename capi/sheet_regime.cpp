@@ -21,8 +21,8 @@ struct Regimes {
 Regimes classify(const Arguments& a, ellipsa_sheet_cache* cache) {
   const SheetRange& rows = a.range("rows");
   const SheetRange& fit_on = a.fitting_range();
-  const ModelPtr m = fitted(cache, fit_on, mixture_request(a, ELLIPSA_STRUCTURE_FULL),
-                            a.given("reference") ? "reference" : "rows");
+  const ModelPtr m =
+      fitted(cache, fit_on, mixture_request(a, ELLIPSA_STRUCTURE_FULL), a.given("reference") ? "reference" : "rows");
   Regimes r;
   check(ellipsa_model_describe(nullptr, nullptr, nullptr, &r.k, m.get()), "rows");
   const auto n = static_cast<size_t>(rows.row_count());

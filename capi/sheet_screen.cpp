@@ -14,9 +14,9 @@
 namespace ellipsa::capi::sheet {
 namespace {
 
-const std::initializer_list<ellipsa_method> kGaussianMethods = {
-    ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS,
-    ELLIPSA_METHOD_MCD,       ELLIPSA_METHOD_DETMCD,      ELLIPSA_METHOD_MRCD};
+const std::initializer_list<ellipsa_method> kGaussianMethods = {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF,
+                                                                ELLIPSA_METHOD_OAS,       ELLIPSA_METHOD_MCD,
+                                                                ELLIPSA_METHOD_DETMCD,    ELLIPSA_METHOD_MRCD};
 
 // Everything ellipsa_model_score() gives for the rows, in plain vectors.
 struct Scored {
@@ -112,9 +112,7 @@ void shape_per_column(const Arguments& a, int64_t* rows, int64_t* cols) {
   *rows = 1;
   *cols = a.range("rows").col_count();
 }
-void shape_square(const Arguments& a, int64_t* rows, int64_t* cols) {
-  *rows = *cols = a.range("rows").col_count();
-}
+void shape_square(const Arguments& a, int64_t* rows, int64_t* cols) { *rows = *cols = a.range("rows").col_count(); }
 void shape_scalar(const Arguments&, int64_t* rows, int64_t* cols) { *rows = *cols = 1; }
 
 void eval_distance(const Arguments& a, ellipsa_sheet_cache* cache, Grid& g) {
@@ -180,8 +178,8 @@ void eval_scatter(const Arguments& a, ellipsa_sheet_cache* cache, Grid& g) {
 }
 
 void eval_shrinkage(const Arguments& a, ellipsa_sheet_cache* cache, Grid& g) {
-  const ModelPtr m =
-      profile(a, cache, ELLIPSA_METHOD_LEDOIT_WOLF, {ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS, ELLIPSA_METHOD_MRCD});
+  const ModelPtr m = profile(a, cache, ELLIPSA_METHOD_LEDOIT_WOLF,
+                             {ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS, ELLIPSA_METHOD_MRCD});
   double intensity = 0.0;
   check(ellipsa_model_diagnostic(&intensity, m.get(), "shrinkage_intensity"), "rows");
   g.number(0, 0, intensity);

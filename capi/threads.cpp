@@ -47,8 +47,7 @@ int resolve_threads(int32_t requested) {
 
 }  // namespace ellipsa::capi
 
-extern "C" ELLIPSA_API ellipsa_status ellipsa_fit_options_set_threads(ellipsa_fit_options* options,
-                                                                      int32_t threads) {
+extern "C" ELLIPSA_API ellipsa_status ellipsa_fit_options_set_threads(ellipsa_fit_options* options, int32_t threads) {
   using namespace ellipsa::capi;
   return guard("ellipsa_fit_options_set_threads", [&] {
     require_not_null(options, "options");

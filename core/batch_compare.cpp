@@ -63,8 +63,7 @@ Outcome<T> attempt(F&& f) {
   return out;
 }
 
-RobustMeanShift robust_mean_shift(const Eigen::MatrixXd& ref, const Eigen::MatrixXd& batch,
-                                  const CompareOptions& o) {
+RobustMeanShift robust_mean_shift(const Eigen::MatrixXd& ref, const Eigen::MatrixXd& batch, const CompareOptions& o) {
   RobustMeanShift out;
   out.reference = robust_summary(ref, o, "reference");
   out.batch = robust_summary(batch, o, "new");
@@ -152,7 +151,8 @@ BatchComparison compare_batches(DataView reference, DataView batch, const Compar
     out.variables.push_back(v);
   }
   const std::vector<double> adjusted = holm_adjust(welch_p);
-  for (Index j = 0; j < p; ++j) out.variables[static_cast<std::size_t>(j)].p_holm = adjusted[static_cast<std::size_t>(j)];
+  for (Index j = 0; j < p; ++j)
+    out.variables[static_cast<std::size_t>(j)].p_holm = adjusted[static_cast<std::size_t>(j)];
   r.mean += shift.transpose();
   b.mean += shift.transpose();
   out.reference = r;

@@ -12,8 +12,7 @@ namespace {
 void check_shape(DataView x) {
   if (x.cols() < 1) throw Error(ErrorKind::Shape, "classical estimate: no columns");
   if (x.rows() < 2)
-    throw Error(ErrorKind::Data, "classical estimate: needs at least 2 rows, got " +
-                                     std::to_string(x.rows()));
+    throw Error(ErrorKind::Data, "classical estimate: needs at least 2 rows, got " + std::to_string(x.rows()));
 }
 
 void throw_constant(Index j) {
@@ -29,8 +28,10 @@ void check_not_constant(DataView x, const double* w) {
     double first = 0.0;
     for (Index i = 0; i < x.rows() && !varies; ++i) {
       if (w && !(w[i] > 0.0)) continue;
-      if (!seen) { first = x(i, j); seen = true; }
-      else varies = x(i, j) != first;
+      if (!seen) {
+        first = x(i, j);
+        seen = true;
+      } else varies = x(i, j) != first;
     }
     if (!varies) throw_constant(j);
   }
@@ -38,11 +39,10 @@ void check_not_constant(DataView x, const double* w) {
 
 ClassicalEstimate finish(const MomentAccumulator& acc, Normalisation norm, Index p) {
   if (acc.rows() <= p)
-    throw Error(ErrorKind::Data,
-                "classical estimate: " + std::to_string(acc.rows()) + " rows for " +
-                    std::to_string(p) +
-                    " columns; with n <= p the covariance is singular, use a shrinkage "
-                    "estimate (Ledoit-Wolf or OAS) instead");
+    throw Error(ErrorKind::Data, "classical estimate: " + std::to_string(acc.rows()) + " rows for " +
+                                     std::to_string(p) +
+                                     " columns; with n <= p the covariance is singular, use a shrinkage "
+                                     "estimate (Ledoit-Wolf or OAS) instead");
   ClassicalEstimate out;
   out.mean = acc.mean();
   out.covariance = acc.covariance(norm);
@@ -78,17 +78,16 @@ ClassicalEstimate classical_estimate(DataView x, Normalisation norm, int threads
   return finish(acc, norm, x.cols());
 }
 
-ClassicalEstimate classical_estimate(DataView x, const Eigen::Ref<const Eigen::VectorXd>& w,
-                                     Normalisation norm) {
+ClassicalEstimate classical_estimate(DataView x, const Eigen::Ref<const Eigen::VectorXd>& w, Normalisation norm) {
   if (w.size() != x.rows())
-    throw Error(ErrorKind::Shape, "classical estimate: " + std::to_string(w.size()) +
-                                      " weights for " + std::to_string(x.rows()) + " rows");
+    throw Error(ErrorKind::Shape, "classical estimate: " + std::to_string(w.size()) + " weights for " +
+                                      std::to_string(x.rows()) + " rows");
   check_shape(x);
   require_finite(x, "classical estimate");
   for (Index i = 0; i < w.size(); ++i)
     if (!(std::isfinite(w(i)) && w(i) >= 0.0))
-      throw Error(ErrorKind::Argument, "classical estimate: weight of row " + std::to_string(i) +
-                                           " (0-based) is negative or not finite");
+      throw Error(ErrorKind::Argument,
+                  "classical estimate: weight of row " + std::to_string(i) + " (0-based) is negative or not finite");
   const double total = w.sum();
   if (!(total > 0.0)) throw Error(ErrorKind::Data, "classical estimate: the weights sum to zero");
   if (norm == Normalisation::ByCountMinusOne && !(total > 1.0))

@@ -31,7 +31,6 @@ ClassicalEstimate classical_estimate(DataView x, Normalisation norm, int threads
 // one weight per row (else Error(Shape)); the weight sum must be positive, and
 // above 1 for ByCountMinusOne (Error(Data)). Rows with weight 0 do not count
 // towards n in the n <= p check.
-ClassicalEstimate classical_estimate(DataView x, const Eigen::Ref<const Eigen::VectorXd>& w,
-                                     Normalisation norm);
+ClassicalEstimate classical_estimate(DataView x, const Eigen::Ref<const Eigen::VectorXd>& w, Normalisation norm);
 
 }  // namespace ellipsa::core

@@ -13,8 +13,7 @@ using Strides = Eigen::Stride<Eigen::Dynamic, Eigen::Dynamic>;
 // columns.
 using DataView = Eigen::Map<const Eigen::MatrixXd, Eigen::Unaligned, Strides>;
 
-inline DataView make_view(const double* data, Index rows, Index cols,
-                          Index row_stride, Index col_stride) {
+inline DataView make_view(const double* data, Index rows, Index cols, Index row_stride, Index col_stride) {
   return DataView(data, rows, cols, Strides(col_stride, row_stride));
 }
 

@@ -17,8 +17,8 @@ namespace {
 // Errors become exceptions of our own type below; Boost must not pick the
 // behaviour (its default throws std::domain_error / overflow_error).
 using namespace boost::math::policies;
-using Policy = policy<domain_error<errno_on_error>, overflow_error<errno_on_error>,
-                      evaluation_error<errno_on_error>, promote_double<false>>;
+using Policy = policy<domain_error<errno_on_error>, overflow_error<errno_on_error>, evaluation_error<errno_on_error>,
+                      promote_double<false>>;
 
 void check_positive(double v, const char* name) {
   if (!(std::isfinite(v) && v > 0.0))
@@ -26,8 +26,7 @@ void check_positive(double v, const char* name) {
 }
 void check_probability(double q, bool allow_one) {
   if (!(q >= 0.0 && (allow_one ? q <= 1.0 : q < 1.0)))
-    throw Error(ErrorKind::Argument, allow_one ? "probability must lie in [0, 1]"
-                                               : "probability must lie in [0, 1)");
+    throw Error(ErrorKind::Argument, allow_one ? "probability must lie in [0, 1]" : "probability must lie in [0, 1)");
 }
 void check_x(double x) {
   if (std::isnan(x)) throw Error(ErrorKind::Argument, "argument is NaN");
@@ -45,8 +44,8 @@ double checked_unit_quantile(const Distribution& dist, double q, double x) {
   if (std::isfinite(x) && std::abs(at - q) <= 1e-10 * q) return x;
   boost::math::tools::eps_tolerance<double> tol(std::numeric_limits<double>::digits - 3);
   std::uintmax_t iterations = 300;
-  const auto [lo, hi] = boost::math::tools::toms748_solve(
-      [&](double t) { return cdf(dist, t) - q; }, 0.0, 1.0, -q, 1.0 - q, tol, iterations);
+  const auto [lo, hi] = boost::math::tools::toms748_solve([&](double t) { return cdf(dist, t) - q; }, 0.0, 1.0, -q,
+                                                          1.0 - q, tol, iterations);
   return 0.5 * (lo + hi);
 }
 
@@ -77,8 +76,7 @@ double chi2_quantile(double q, double df) {
 
 double chi2_quantile_upper(double upper, double df) {
   check_positive(df, "degrees of freedom");
-  if (!(upper > 0.0 && upper <= 1.0))
-    throw Error(ErrorKind::Argument, "upper-tail probability must lie in (0, 1]");
+  if (!(upper > 0.0 && upper <= 1.0)) throw Error(ErrorKind::Argument, "upper-tail probability must lie in (0, 1]");
   if (upper == 1.0) return 0.0;
   return quantile(complement(boost::math::chi_squared_distribution<double, Policy>(df), upper));
 }

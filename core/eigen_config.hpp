@@ -13,8 +13,8 @@ struct EigenAssertion : std::logic_error {
 };
 }  // namespace ellipsa::core
 
-#define eigen_assert(x)                                                      \
-  do {                                                                       \
+#define eigen_assert(x)                                                                \
+  do {                                                                                 \
     if (!(x)) throw ::ellipsa::core::EigenAssertion("Eigen precondition failed: " #x); \
   } while (false)
 #endif

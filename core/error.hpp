@@ -22,8 +22,7 @@ enum class ErrorKind {
 
 class Error : public std::runtime_error {
  public:
-  Error(ErrorKind kind, const std::string& message)
-      : std::runtime_error(message), kind_(kind) {}
+  Error(ErrorKind kind, const std::string& message) : std::runtime_error(message), kind_(kind) {}
   ErrorKind kind() const noexcept { return kind_; }
 
  private:
@@ -39,9 +38,12 @@ class Error : public std::runtime_error {
 class LocatedError : public Error {
  public:
   LocatedError(ErrorKind kind, std::string context, std::int64_t row, std::int64_t column, std::string problem)
-      : Error(kind, context + ": " + (row >= 0 ? "row " + std::to_string(row) + ", " : std::string()) +
-                        "column " + std::to_string(column) + " (0-based) " + problem),
-        context_(std::move(context)), problem_(std::move(problem)), row_(row), column_(column) {}
+      : Error(kind, context + ": " + (row >= 0 ? "row " + std::to_string(row) + ", " : std::string()) + "column " +
+                        std::to_string(column) + " (0-based) " + problem),
+        context_(std::move(context)),
+        problem_(std::move(problem)),
+        row_(row),
+        column_(column) {}
   const std::string& context() const noexcept { return context_; }
   const std::string& problem() const noexcept { return problem_; }
   std::int64_t row() const noexcept { return row_; }  // -1: the whole column

@@ -22,8 +22,7 @@ void check_limit_arguments(double m, Index p, double alpha, double min_m, const 
   if (p < 1) throw Error(ErrorKind::Argument, std::string(phase) + " limit: p must be at least 1");
   if (!(m >= min_m))
     throw Error(ErrorKind::Argument, std::string(phase) + " limit: needs m >= " + number_text(min_m) +
-                                         " reference rows for p = " + std::to_string(p) + ", got " +
-                                         number_text(m));
+                                         " reference rows for p = " + std::to_string(p) + ", got " + number_text(m));
   if (!(alpha > 0.0 && alpha < 1.0))
     throw Error(ErrorKind::Argument, std::string(phase) + " limit: alpha must lie in (0, 1)");
 }
@@ -78,8 +77,7 @@ OneSampleT2 one_sample_t2(DataView x, const Eigen::VectorXd& mu0) {
   if (!mu0.allFinite()) throw Error(ErrorKind::Data, "one-sample T^2: hypothesised mean is not finite");
   const ClassicalEstimate fit = classical_estimate(x, Normalisation::ByCountMinusOne);
   const CholeskyFactor chol(fit.covariance);
-  if (!chol.ok())
-    throw Error(ErrorKind::Singular, "one-sample T^2: the sample covariance is not positive definite");
+  if (!chol.ok()) throw Error(ErrorKind::Singular, "one-sample T^2: the sample covariance is not positive definite");
   const double n = static_cast<double>(x.rows()), p = static_cast<double>(x.cols());
   OneSampleT2 out;
   out.mean = fit.mean;

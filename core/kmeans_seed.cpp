@@ -9,8 +9,7 @@ namespace ellipsa::core {
 namespace {
 
 // Squared Euclidean distance of every row of z to centre c.
-void squared_distance_to(const Eigen::MatrixXd& z, const Eigen::RowVectorXd& c,
-                         Eigen::VectorXd& out) {
+void squared_distance_to(const Eigen::MatrixXd& z, const Eigen::RowVectorXd& c, Eigen::VectorXd& out) {
   out = (z.rowwise() - c).rowwise().squaredNorm();
 }
 
@@ -33,8 +32,7 @@ Index draw_proportional(const Eigen::VectorXd& weight, double target) {
 KMeansStart kmeans_seed(DataView x, Index k, int lloyd_steps, PortableRandom& rng) {
   const Index n = x.rows();
   const Index p = x.cols();
-  if (k < 1 || k > n)
-    throw Error(ErrorKind::Argument, "k-means seeding: the number of centres must be in [1, rows]");
+  if (k < 1 || k > n) throw Error(ErrorKind::Argument, "k-means seeding: the number of centres must be in [1, rows]");
 
   // Work on columns scaled to unit spread.
   const Eigen::RowVectorXd centre_of_mass = x.colwise().mean();
@@ -52,9 +50,8 @@ KMeansStart kmeans_seed(DataView x, Index k, int lloyd_steps, PortableRandom& rn
   for (Index c = 1; c < k; ++c) {
     const double total = nearest.sum();
     if (!(total > 0.0))
-      throw Error(ErrorKind::Data, "the data hold only " + std::to_string(c) +
-                                       " distinct row(s), fewer than the " + std::to_string(k) +
-                                       " components asked for");
+      throw Error(ErrorKind::Data, "the data hold only " + std::to_string(c) + " distinct row(s), fewer than the " +
+                                       std::to_string(k) + " components asked for");
     const Index pick = draw_proportional(nearest, rng.uniform() * total);
     centres.row(c) = z.row(pick);
     squared_distance_to(z, centres.row(c), d2);

@@ -17,8 +17,8 @@ MardiaTest mardia(DataView x, double kurtosis_centre) {
   const Index n = x.rows(), p = x.cols();
   if (p < 1) throw Error(ErrorKind::Shape, "Mardia's test: no columns");
   if (n < p + 2)
-    throw Error(ErrorKind::Data, "Mardia's test: needs at least p + 2 = " + std::to_string(p + 2) +
-                                     " rows, got " + std::to_string(n));
+    throw Error(ErrorKind::Data,
+                "Mardia's test: needs at least p + 2 = " + std::to_string(p + 2) + " rows, got " + std::to_string(n));
   const MeanCovariance mc = mean_covariance(x, Normalisation::ByCount);
   const CholeskyFactor chol(mc.covariance);
   if (!chol.ok())

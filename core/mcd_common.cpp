@@ -20,8 +20,7 @@ Index mcd_subset_size(Index n, Index p, double alpha) {
   if (!(alpha >= 0.5 && alpha <= 1.0))
     throw Error(ErrorKind::Argument, "MCD: alpha must lie in [0.5, 1] (got " + std::to_string(alpha) + ")");
   const Index half = (n + p + 1) / 2;
-  const double h = std::floor(static_cast<double>(2 * half - n) +
-                              2.0 * static_cast<double>(n - half) * alpha);
+  const double h = std::floor(static_cast<double>(2 * half - n) + 2.0 * static_cast<double>(n - half) * alpha);
   return std::clamp<Index>(static_cast<Index>(h), std::min(half, n), n);
 }
 
@@ -35,8 +34,7 @@ double mcd_consistency_factor(Index h, Index n, Index p) {
 }
 
 double reweight_consistency_factor(double level, Index p) {
-  if (!(level > 0.0 && level < 1.0))
-    throw Error(ErrorKind::Argument, "MCD: reweighting level must lie in (0, 1)");
+  if (!(level > 0.0 && level < 1.0)) throw Error(ErrorKind::Argument, "MCD: reweighting level must lie in (0, 1)");
   const double pd = static_cast<double>(p);
   return level / chi2_cdf(chi2_quantile(level, pd), pd + 2.0);
 }
@@ -55,15 +53,14 @@ void check_input(DataView x, double alpha, bool need_more_rows, const char* meth
   if (n < 2) throw Error(ErrorKind::Data, m + ": needs at least 2 rows");
   if (need_more_rows && n <= p)
     throw Error(ErrorKind::Data, m + ": needs more rows than columns (n = " + std::to_string(n) +
-                                     ", p = " + std::to_string(p) +
-                                     "); for p >= n use the regularised MCD (MRCD)");
+                                     ", p = " + std::to_string(p) + "); for p >= n use the regularised MCD (MRCD)");
   if (!(alpha >= 0.5 && alpha <= 1.0))
     throw Error(ErrorKind::Argument, m + ": alpha must lie in [0.5, 1] (got " + std::to_string(alpha) + ")");
   if (!x.allFinite())
-    throw Error(ErrorKind::Data, m + ": data contain NaN or infinite values; drop incomplete rows first (complete_rows)");
+    throw Error(ErrorKind::Data,
+                m + ": data contain NaN or infinite values; drop incomplete rows first (complete_rows)");
   bool all_identical = true;
-  for (Index j = 0; j < p && all_identical; ++j)
-    all_identical = x.col(j).minCoeff() == x.col(j).maxCoeff();
+  for (Index j = 0; j < p && all_identical; ++j) all_identical = x.col(j).minCoeff() == x.col(j).maxCoeff();
   if (all_identical) throw Error(ErrorKind::Data, m + ": all rows are identical; no scatter can be estimated");
 }
 
@@ -300,8 +297,7 @@ bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, CStepWorkspace& w
   // The determinant cannot increase (Rousseeuw & Van Driessen 1999, Theorem 1);
   // a rise can only be rounding between equal-determinant subsets: stop there.
   // (Only comparable when the current subset has h rows too: starts are smaller.)
-  const bool accept =
-      next.singular || static_cast<Index>(fit.rows.size()) != h || !(next.log_det > fit.log_det);
+  const bool accept = next.singular || static_cast<Index>(fit.rows.size()) != h || !(next.log_det > fit.log_det);
   if (accept) std::swap(fit, next);
   w.rows.swap(next.rows);  // recycle the buffer of the fit not kept
   return accept;
@@ -348,8 +344,7 @@ Eigen::MatrixXd scale_both_sides(const Eigen::MatrixXd& m, const Eigen::VectorXd
 // several times faster than triangular solves with n right-hand sides; the
 // inverse of a well-conditioned triangular factor (the data are standardised)
 // costs no accuracy that matters for flags at a chi-square cutoff.
-Eigen::VectorXd centred_distances(const Eigen::MatrixXd& z, const Eigen::VectorXd& centre,
-                                  const CholeskyFactor& chol) {
+Eigen::VectorXd centred_distances(const Eigen::MatrixXd& z, const Eigen::VectorXd& centre, const CholeskyFactor& chol) {
   const Index n = z.rows(), p = z.cols();
   const Eigen::MatrixXd linv_t =
       chol.lower().triangularView<Eigen::Lower>().solve(Eigen::MatrixXd::Identity(p, p)).transpose();
@@ -381,8 +376,7 @@ std::optional<ReweightedEstimate> reweighted_estimate(const MomentAccumulator& k
 
 namespace mcd_detail {
 
-RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h,
-                     const FinishRule& rule) {
+RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h, const FinishRule& rule) {
   const Index n = x.rows(), p = x.cols();
   const double level = rule.level;
   RobustFit r;

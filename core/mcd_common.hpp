@@ -128,7 +128,6 @@ struct ReweightedEstimate {
 };
 std::optional<ReweightedEstimate> reweighted_estimate(const MomentAccumulator& kept, double factor);
 
-
 namespace mcd_detail {
 
 // Smallest eigenvalue of a subset covariance, in units of the robust column
@@ -181,9 +180,9 @@ struct CStepWorkspace {
   // so the C-steps do not depend on it.
   int threads = 1;
   std::vector<Eigen::MatrixXd> worker_y;  // one chunk of whitened rows per thread
-  Eigen::MatrixXd linv_t, y;  // L^-T of the fit; one chunk of whitened rows
-  Eigen::VectorXd shift, d2;  // L^-1 mean; squared distances of all rows
-  std::vector<double> select;  // order-statistic scratch
+  Eigen::MatrixXd linv_t, y;              // L^-T of the fit; one chunk of whitened rows
+  Eigen::VectorXd shift, d2;              // L^-1 mean; squared distances of all rows
+  std::vector<double> select;             // order-statistic scratch
   std::vector<Index> below, rows, tied;
   Eigen::MatrixXd g, g2;  // gathered, shifted rows
   std::vector<Index> enter, leave;
@@ -247,16 +246,15 @@ std::optional<SubsetFit> exact_fit_subset(const Eigen::MatrixXd& z, const Eigen:
 
 // How a regular fit is finished (the options of finish_fit()).
 struct FinishRule {
-  double level = 0.975;               // reweighting cutoff chi2q(p, level)
-  SmallSampleFactors small_sample;    // 1 and 1: none
+  double level = 0.975;             // reweighting cutoff chi2q(p, level)
+  SmallSampleFactors small_sample;  // 1 and 1: none
   RawConsistency raw = RawConsistency::NormalFactor;
 };
 
 // Final step of a regular fit: back to original units, consistency and
 // small-sample factors, reweighting at chi2q(p, level) with the corrected raw
 // distances.
-RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h,
-                     const FinishRule& rule);
+RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h, const FinishRule& rule);
 
 // Result for an exact fit revealed by the (singular) subset fit `subset`.
 RobustFit exact_fit_result(DataView x, const Standardised& s, const SubsetFit& subset, Index h);

@@ -72,8 +72,8 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
   return deterministic_starts(z, with_ogk, workspace, nullptr);
 }
 
-std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk,
-                                                  ScaleWorkspace& workspace, StartBasis* ogk_basis) {
+std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk, ScaleWorkspace& workspace,
+                                                  StartBasis* ogk_basis) {
   const Index n = z.rows(), p = z.cols();
   std::vector<Eigen::MatrixXd> s;
   // 1. Correlation of the tanh-transformed data.
@@ -155,8 +155,7 @@ Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd&
   return start_distances(z, s, workspace);
 }
 
-Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s,
-                                ScaleWorkspace& workspace) {
+Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s, ScaleWorkspace& workspace) {
   const Index p = z.cols();
   Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(s);
   const Eigen::MatrixXd& e = es.eigenvectors();
@@ -187,9 +186,9 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   if (opt.max_csteps < 1) throw Error(ErrorKind::Argument, "DetMCD: max_csteps must be positive");
   mcd_detail::check_input(x, opt.alpha, true, "DetMCD");
   const Index n = x.rows(), p = x.cols();
-  const mcd_detail::FinishRule rule{
-      opt.reweight_level, small_sample_factors(McdFamily::Deterministic, opt.small_sample, n, p, opt.alpha),
-      opt.raw_consistency};
+  const mcd_detail::FinishRule rule{opt.reweight_level,
+                                    small_sample_factors(McdFamily::Deterministic, opt.small_sample, n, p, opt.alpha),
+                                    opt.raw_consistency};
   if (p == 1) return univariate_mcd(x, opt.alpha, rule);
   const Index h = mcd_subset_size(n, p, opt.alpha);
   mcd_detail::report_progress(opt.progress, "standardise", 0.0);

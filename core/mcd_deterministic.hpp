@@ -22,7 +22,7 @@ struct DetMcdOptions {
   SmallSample small_sample = SmallSample::Both;
   // Scaling of the raw scatter (mcd_common.hpp): the normal-consistency factor or the median rule.
   RawConsistency raw_consistency = RawConsistency::NormalFactor;
-  ProgressCallback progress;      // optional; false cancels
+  ProgressCallback progress;  // optional; false cancels
   // Threads for the distances of the C-steps (parallel.hpp); the fit does not depend on it.
   int threads = 1;
 };
@@ -52,15 +52,14 @@ struct StartBasis {
 // The same, with caller-provided Qn scratch memory; when with_ogk and
 // ogk_basis is not null, it receives the OGK start's basis (so that step 3
 // need not recompute it: start_distances(z, *ogk_basis)).
-std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk,
-                                                  ScaleWorkspace& workspace, StartBasis* ogk_basis);
+std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk, ScaleWorkspace& workspace,
+                                                  StartBasis* ogk_basis);
 // Step 3 of DetMCD for one start: eigenvalues re-estimated as Qn^2 of the
 // projections on the eigenvectors of s; returns the squared distances of all
 // rows to the centre Sigma^{1/2} med(z Sigma^{-1/2}), or an empty vector when
 // a projection has zero scale.
 Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s);
-Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s,
-                                ScaleWorkspace& workspace);
+Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s, ScaleWorkspace& workspace);
 // Distances for a start whose basis is already known (empty when a root is 0).
 Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const StartBasis& basis);
 }  // namespace mcd_detail

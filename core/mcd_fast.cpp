@@ -43,7 +43,6 @@ void keep_best(std::vector<Candidate>& c, int keep) {
   c = std::move(out);
 }
 
-
 // The search state shared by the stages.
 struct Search {
   const Eigen::MatrixXd& z;  // standardised full data
@@ -52,7 +51,7 @@ struct Search {
   PortableRandom rng;
   int iterations = 0;
   int starts = 0;
-  std::optional<SubsetFit> exact;  // set once an exact fit of the full data is found
+  std::optional<SubsetFit> exact;   // set once an exact fit of the full data is found
   mcd_detail::CStepWorkspace work;  // buffers for every C-step of this fit
 };
 
@@ -102,8 +101,8 @@ std::optional<SubsetFit> random_start(Search& s, const Eigen::MatrixXd& zs, Inde
 
 // Starts inside one stage (the full data or a group): each start gets
 // `initial_csteps` C-steps with hs; the best `best_kept` survive.
-std::vector<Candidate> run_starts(Search& s, const Eigen::MatrixXd& zs, Index hs, int n_starts,
-                                  int& order, const Span& span) {
+std::vector<Candidate> run_starts(Search& s, const Eigen::MatrixXd& zs, Index hs, int n_starts, int& order,
+                                  const Span& span) {
   std::vector<Candidate> out;
   for (int k = 0; k < n_starts && !s.exact; ++k) {
     mcd_detail::report_progress(s.opt.progress, span.stage, span.at(static_cast<double>(k) / n_starts));
@@ -130,8 +129,8 @@ std::vector<Candidate> run_starts(Search& s, const Eigen::MatrixXd& zs, Index hs
 // convergence when steps < 0. from_other_stage: the fits were computed on other
 // rows (a group or the pool), so their subsets and determinants do not compare
 // with this stage's; only their mean and scatter are used as the start.
-void refine(Search& s, const Eigen::MatrixXd& zs, Index hs, std::vector<Candidate>& c, int steps,
-            bool from_other_stage, const Span& span) {
+void refine(Search& s, const Eigen::MatrixXd& zs, Index hs, std::vector<Candidate>& c, int steps, bool from_other_stage,
+            const Span& span) {
   const double inf = std::numeric_limits<double>::infinity();
   if (from_other_stage)
     for (auto& cand : c) {
@@ -179,9 +178,10 @@ Index scaled_h(Index rows, Index h, Index n) {
 }
 
 void check_options(const FastMcdOptions& o) {
-  if (o.starts < 1 || o.best_kept < 1 || o.initial_csteps < 0 || o.max_csteps < 1 ||
-      o.group_size < 2 || o.max_groups < 1 || o.nested_threshold < 1 || o.full_data_rows < 1)
-    throw Error(ErrorKind::Argument, "FAST-MCD: starts, best_kept, max_csteps, group_size, max_groups, full_data_rows must be positive");
+  if (o.starts < 1 || o.best_kept < 1 || o.initial_csteps < 0 || o.max_csteps < 1 || o.group_size < 2 ||
+      o.max_groups < 1 || o.nested_threshold < 1 || o.full_data_rows < 1)
+    throw Error(ErrorKind::Argument,
+                "FAST-MCD: starts, best_kept, max_csteps, group_size, max_groups, full_data_rows must be positive");
 }
 
 }  // namespace
@@ -243,8 +243,7 @@ RobustFit univariate_mcd(DataView x, double alpha, const mcd_detail::FinishRule&
   std::vector<Index> rows(order.begin() + best, order.begin() + best + h);
   std::sort(rows.begin(), rows.end());
   const SubsetFit f = mcd_detail::fit_subset(s.z, std::move(rows));
-  RobustFit r = f.singular ? mcd_detail::exact_fit_result(x, s, f, h)
-                           : mcd_detail::finish_fit(x, s, f, h, rule);
+  RobustFit r = f.singular ? mcd_detail::exact_fit_result(x, s, f, h) : mcd_detail::finish_fit(x, s, f, h, rule);
   r.starts = 1;
   return r;
 }
@@ -254,9 +253,9 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   check_options(opt);
   mcd_detail::check_input(x, opt.alpha, true, "FAST-MCD");
   const Index n = x.rows(), p = x.cols();
-  const mcd_detail::FinishRule rule{
-      opt.reweight_level, small_sample_factors(McdFamily::Fast, opt.small_sample, n, p, opt.alpha),
-      opt.raw_consistency};
+  const mcd_detail::FinishRule rule{opt.reweight_level,
+                                    small_sample_factors(McdFamily::Fast, opt.small_sample, n, p, opt.alpha),
+                                    opt.raw_consistency};
   if (p == 1) return univariate_mcd(x, opt.alpha, rule);
   const Index h = mcd_subset_size(n, p, opt.alpha);
   mcd_detail::report_progress(opt.progress, "standardise", 0.0);
@@ -267,8 +266,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   std::iota(all.begin(), all.end(), Index{0});
   if (h == n) {
     const SubsetFit f = mcd_detail::fit_subset(st.z, all);
-    return f.singular ? mcd_detail::exact_fit_result(x, st, f, h)
-                      : mcd_detail::finish_fit(x, st, f, h, rule);
+    return f.singular ? mcd_detail::exact_fit_result(x, st, f, h) : mcd_detail::finish_fit(x, st, f, h, rule);
   }
 
   Search s{st.z, h, opt, PortableRandom(opt.seed), 0, 0, std::nullopt, {}};
@@ -284,7 +282,8 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
     const Index pool_size = std::min(n, groups * opt.group_size);
     std::vector<Index> perm = all;
     for (Index k = 0; k < pool_size; ++k)  // partial Fisher-Yates
-      std::swap(perm[static_cast<std::size_t>(k)], perm[static_cast<std::size_t>(k + static_cast<Index>(s.rng.below(static_cast<std::uint64_t>(n - k))))]);
+      std::swap(perm[static_cast<std::size_t>(k)],
+                perm[static_cast<std::size_t>(k + static_cast<Index>(s.rng.below(static_cast<std::uint64_t>(n - k))))]);
     std::vector<Index> pool(perm.begin(), perm.begin() + pool_size);
     const int starts_per_group = std::max(1, opt.starts / static_cast<int>(groups));
     std::vector<Candidate> pooled;
@@ -316,10 +315,8 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
       SubsetFit fresh;
       fresh.rows = cands.front().fit.rows;
       mcd_detail::fit_rows(st.z, fresh, s.work);
-      if (fresh.singular)
-        note_singular(s, st.z, fresh);
-      else
-        cands.front().fit = std::move(fresh);
+      if (fresh.singular) note_singular(s, st.z, fresh);
+      else cands.front().fit = std::move(fresh);
     }
   }
   mcd_detail::report_progress(opt.progress, "reweighting", 0.95);

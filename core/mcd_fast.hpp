@@ -15,7 +15,7 @@
 namespace ellipsa::core {
 
 struct FastMcdOptions {
-  double alpha = 0.5;            // h = mcd_subset_size(n, p, alpha), alpha in [0.5, 1]
+  double alpha = 0.5;  // h = mcd_subset_size(n, p, alpha), alpha in [0.5, 1]
   std::uint64_t seed = 0;
   int starts = 500;              // random (p+1)-subsets in total
   int best_kept = 10;            // candidates carried to the next stage
@@ -30,12 +30,12 @@ struct FastMcdOptions {
   // candidates up to n = full_data_rows / best_kept (20000 by default), fewer
   // beyond, so that the full-data C-steps grow like n, not like n * best_kept.
   Index full_data_rows = 200000;
-  double reweight_level = 0.975; // reweighting cutoff chi2q(p, level)
+  double reweight_level = 0.975;  // reweighting cutoff chi2q(p, level)
   // Small-sample factors of the raw and reweighted scatter (mcd_small_sample.hpp).
   SmallSample small_sample = SmallSample::Both;
   // Scaling of the raw scatter (mcd_common.hpp): the normal-consistency factor or the median rule.
   RawConsistency raw_consistency = RawConsistency::NormalFactor;
-  ProgressCallback progress;     // optional; false cancels
+  ProgressCallback progress;  // optional; false cancels
   // Threads for the distances of the C-steps on all rows (parallel.hpp); the
   // fit does not depend on it.
   int threads = 1;

@@ -54,8 +54,7 @@ RegularisedFit regularised_fit(const Eigen::MatrixXd& z, std::vector<Index> rows
 }
 
 // Boudt, Rousseeuw, Vanduffel & Verdonck (2020): C-step on K(H).
-int regularised_c_steps(const Eigen::MatrixXd& z, Index h, double rho, double c, RegularisedFit& f,
-                        int max_steps) {
+int regularised_c_steps(const Eigen::MatrixXd& z, Index h, double rho, double c, RegularisedFit& f, int max_steps) {
   int steps = 0;
   while (steps < max_steps) {
     ++steps;
@@ -96,8 +95,7 @@ RobustFit mrcd(DataView x, const MrcdOptions& opt) {
   if (!(opt.max_condition > 1.0)) throw Error(ErrorKind::Argument, "MRCD: max_condition must exceed 1");
   if (opt.max_csteps < 1) throw Error(ErrorKind::Argument, "MRCD: max_csteps must be positive");
   const Index n = x.rows(), p = x.cols();
-  const Index h = std::clamp<Index>(static_cast<Index>(std::ceil(opt.alpha * static_cast<double>(n))),
-                                    (n + 1) / 2, n);
+  const Index h = std::clamp<Index>(static_cast<Index>(std::ceil(opt.alpha * static_cast<double>(n))), (n + 1) / 2, n);
   const double kappa = opt.max_condition;
   mcd_detail::report_progress(opt.progress, "standardise", 0.0);
   const mcd_detail::Standardised st = mcd_detail::standardise(x, mcd_detail::ColumnScale::Qn);

@@ -35,10 +35,10 @@
 namespace ellipsa::core {
 
 struct MrcdOptions {
-  double alpha = 0.75;           // h = ceil(alpha n), alpha in [0.5, 1]
-  double max_condition = 50.0;   // condition-number bound of K (the paper's 50)
+  double alpha = 0.75;          // h = ceil(alpha n), alpha in [0.5, 1]
+  double max_condition = 50.0;  // condition-number bound of K (the paper's 50)
   int max_csteps = 200;
-  double flag_level = 0.975;     // outlier cutoff level, see above
+  double flag_level = 0.975;  // outlier cutoff level, see above
   ProgressCallback progress;
 };
 

@@ -25,7 +25,6 @@ struct Point {
   double factor;
 };
 
-
 // Generated tables (rerun the scripts named in each, do not edit by hand):
 // the runs, the simulated points and the residual errors are in
 // docs/calibration.md.
@@ -91,7 +90,8 @@ double evaluate(std::span<const Point> table, Index n, Index p, bool to_one = tr
   if (p <= nodes.front().first) return nodes.front().second;
   for (std::size_t k = 1; k < nodes.size(); ++k)
     if (p <= nodes[k].first) {
-      const double t = static_cast<double>(p - nodes[k - 1].first) / static_cast<double>(nodes[k].first - nodes[k - 1].first);
+      const double t =
+          static_cast<double>(p - nodes[k - 1].first) / static_cast<double>(nodes[k].first - nodes[k - 1].first);
       return (1.0 - t) * nodes[k - 1].second + t * nodes[k].second;
     }
   return nodes.back().second;
@@ -110,10 +110,10 @@ double in_alpha(double alpha, double at_050, double at_075) {
 }  // namespace
 
 double effective_reference_rows(McdFamily family, bool new_rows, Index n, Index p) {
-  const std::span<const Point> t = family == McdFamily::Fast ? (new_rows ? std::span<const Point>(kFastRowsNew)
-                                                                         : std::span<const Point>(kFastRowsFitting))
-                                                             : (new_rows ? std::span<const Point>(kDetRowsNew)
-                                                                         : std::span<const Point>(kDetRowsFitting));
+  const std::span<const Point> t =
+      family == McdFamily::Fast
+          ? (new_rows ? std::span<const Point>(kFastRowsNew) : std::span<const Point>(kFastRowsFitting))
+          : (new_rows ? std::span<const Point>(kDetRowsNew) : std::span<const Point>(kDetRowsFitting));
   if (t.empty() || n <= p) return 0.0;
   // The tables hold n/m*, interpolated as such (the limit moves with 1/m*),
   // floored at 1e-3 (m* = 1000 n: the chi-square).
@@ -123,8 +123,8 @@ double effective_reference_rows(McdFamily family, bool new_rows, Index n, Index 
 
 SmallSampleFactors small_sample_factors(McdFamily family, SmallSample mode, Index n, Index p, double alpha) {
   if (!(alpha >= 0.5 && alpha <= 1.0))
-    throw Error(ErrorKind::Argument, "small-sample factors: alpha must lie in [0.5, 1] (got " +
-                                         std::to_string(alpha) + ")");
+    throw Error(ErrorKind::Argument,
+                "small-sample factors: alpha must lie in [0.5, 1] (got " + std::to_string(alpha) + ")");
   SmallSampleFactors f;
   if (mode == SmallSample::Off || n < 2 || p < 1) return f;
   const Family t = tables(family);

@@ -14,8 +14,7 @@ std::vector<Index> all_or(const std::vector<Index>& columns, Index p) {
   if (!columns.empty()) {
     for (Index c : columns)
       if (c < 0 || c >= p)
-        throw Error(ErrorKind::Argument, "column index " + std::to_string(c) +
-                                             " outside 0.." + std::to_string(p - 1));
+        throw Error(ErrorKind::Argument, "column index " + std::to_string(c) + " outside 0.." + std::to_string(p - 1));
     return columns;
   }
   std::vector<Index> all(static_cast<std::size_t>(p));
@@ -32,9 +31,9 @@ std::vector<Index> all_or(const std::vector<Index>& columns, Index p) {
 }  // namespace
 
 void throw_infinite_cell(const char* what, Index row, Index col, double v) {
-  throw LocatedError(ErrorKind::Data, what, row, col,
-                     std::string("is infinite (") + (v > 0 ? "+Inf" : "-Inf") +
-                         "); NaN marks a missing value, Inf is not accepted");
+  throw LocatedError(
+      ErrorKind::Data, what, row, col,
+      std::string("is infinite (") + (v > 0 ? "+Inf" : "-Inf") + "); NaN marks a missing value, Inf is not accepted");
 }
 
 namespace {
@@ -79,7 +78,8 @@ CompleteRows select_complete_rows(DataView x, const std::vector<Index>& columns)
         ++present[k];
       }
     }
-    if (complete) out.rows.push_back(i); else ++out.dropped;
+    if (complete) out.rows.push_back(i);
+    else ++out.dropped;
   }
   for (std::size_t k = 0; k < cols.size(); ++k)
     if (present[k] == 0) out.all_missing_columns.push_back(cols[k]);
@@ -96,8 +96,7 @@ std::vector<Index> all_missing_columns(DataView x) {
   return out;
 }
 
-Eigen::MatrixXd gather(DataView x, const std::vector<Index>& rows,
-                       const std::vector<Index>& columns) {
+Eigen::MatrixXd gather(DataView x, const std::vector<Index>& rows, const std::vector<Index>& columns) {
   const std::vector<Index> cols = all_or(columns, x.cols());
   Eigen::MatrixXd out(static_cast<Index>(rows.size()), static_cast<Index>(cols.size()));
   for (std::size_t k = 0; k < cols.size(); ++k)
@@ -140,8 +139,7 @@ MissingLayout group_missing_patterns(DataView x, const std::vector<Index>& rows,
     auto [it, fresh] = index_of.try_emplace(key, layout.patterns.size());
     if (fresh) {
       MissingPattern pat;
-      for (Index j = 0; j < p; ++j)
-        (key[static_cast<std::size_t>(j)] ? pat.observed : pat.missing).push_back(j);
+      for (Index j = 0; j < p; ++j) (key[static_cast<std::size_t>(j)] ? pat.observed : pat.missing).push_back(j);
       layout.patterns.push_back(std::move(pat));
     }
     layout.patterns[it->second].rows.push_back(i);

@@ -27,8 +27,7 @@ std::vector<Index> all_missing_columns(DataView x);
 
 // Copies the listed rows and columns (all columns when `columns` is empty) of x
 // into a dense column-major matrix, in the order given.
-Eigen::MatrixXd gather(DataView x, const std::vector<Index>& rows,
-                       const std::vector<Index>& columns = {});
+Eigen::MatrixXd gather(DataView x, const std::vector<Index>& rows, const std::vector<Index>& columns = {});
 
 // Throws LocatedError(Data) at the first entry of x that is NaN ("missing") or
 // +-Inf ("infinite"); `what` names the caller in the message.

@@ -54,7 +54,7 @@ const char* structure_name(CovarianceStructure s) {
 // column-major, the BLAS-3 shape) and its row norms are the squared Mahalanobis
 // distances. The arithmetic does not depend on the layout of x.
 Posterior mixture_e_step_complete(const MixtureModel& model, const std::vector<CholeskyFactor>& factors, DataView x,
-                          Eigen::MatrixXd& t, int threads) {
+                                  Eigen::MatrixXd& t, int threads) {
   constexpr Index kChunkRows = 4096;
   const Index n = x.rows();
   const Index p = x.cols();
@@ -107,8 +107,8 @@ Posterior mixture_e_step_complete(const MixtureModel& model, const std::vector<C
   return post;
 }
 
-MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double rows,
-                            CovarianceStructure structure, Index p, double regularisation_absolute) {
+MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double rows, CovarianceStructure structure,
+                            Index p, double regularisation_absolute) {
   const Index k_count = static_cast<Index>(moments.size());
   const double n = rows;
   MixtureModel model;
@@ -128,9 +128,7 @@ MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double
       continue;
     }
     switch (model.structure) {
-      case CovarianceStructure::Full:
-        cov = mom.scatter / mom.weight + ridge;
-        break;
+      case CovarianceStructure::Full: cov = mom.scatter / mom.weight + ridge; break;
       case CovarianceStructure::Diagonal:
         cov = (mom.scatter.diagonal() / mom.weight).asDiagonal();
         cov += ridge;
@@ -139,9 +137,7 @@ MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double
         cov = (mom.scatter.trace() / (mom.weight * static_cast<double>(p)) + regularisation_absolute) *
               Eigen::MatrixXd::Identity(p, p);
         break;
-      case CovarianceStructure::Tied:
-        pooled += mom.scatter;
-        break;
+      case CovarianceStructure::Tied: pooled += mom.scatter; break;
     }
   }
   if (model.structure == CovarianceStructure::Tied) {
@@ -186,8 +182,7 @@ class EmData {
   virtual Index rows() const = 0;
   virtual Eigen::MatrixXd log_joint(const MixtureModel& m, const std::vector<CholeskyFactor>& f) const = 0;
   // Responsibilities (into t) and the posterior summary under m.
-  virtual Posterior e_step(const MixtureModel& m, const std::vector<CholeskyFactor>& f,
-                           Eigen::MatrixXd& t) const {
+  virtual Posterior e_step(const MixtureModel& m, const std::vector<CholeskyFactor>& f, Eigen::MatrixXd& t) const {
     t = log_joint(m, f);
     return normalise_posterior(t);
   }
@@ -209,8 +204,7 @@ class CompleteData final : public EmData {
   Eigen::MatrixXd log_joint(const MixtureModel& m, const std::vector<CholeskyFactor>& f) const override {
     return weighted_log_densities(m, f, x_);
   }
-  Posterior e_step(const MixtureModel& m, const std::vector<CholeskyFactor>& f,
-                   Eigen::MatrixXd& t) const override {
+  Posterior e_step(const MixtureModel& m, const std::vector<CholeskyFactor>& f, Eigen::MatrixXd& t) const override {
     return mixture_e_step_complete(m, f, x_, t, threads_);
   }
   // One component by the centred two-pass path (all_moments below does all K at once).
@@ -277,8 +271,7 @@ struct Settings {
 
 // M-step: parameters from responsibilities. `current` supplies the conditional
 // expectations when coordinates are missing (ignored for complete data).
-MixtureModel m_step(const EmData& data, const MixtureModel& current, const Eigen::MatrixXd& t,
-                    const Settings& set) {
+MixtureModel m_step(const EmData& data, const MixtureModel& current, const Eigen::MatrixXd& t, const Settings& set) {
   const Index p = set.p;
   const double n = static_cast<double>(data.rows());
   return mixture_m_step(data.all_moments(current, t), n, set.options->structure, p, set.reg_abs);
@@ -291,9 +284,8 @@ void check_progress(const MixtureOptions& o, const char* stage, double fraction)
 
 // Finds collapsed components and re-seeds or removes them (model and t in step).
 // Returns true when something was done.
-bool handle_collapse(const EmData& data, MixtureModel& model, Eigen::MatrixXd& t,
-                     const Settings& set, int start, int iteration, int& reseeds,
-                     std::vector<CollapseEvent>& events) {
+bool handle_collapse(const EmData& data, MixtureModel& model, Eigen::MatrixXd& t, const Settings& set, int start,
+                     int iteration, int& reseeds, std::vector<CollapseEvent>& events) {
   const Index k_count = model.components();
   const double n = static_cast<double>(data.rows());
   std::vector<CollapseEvent> found = collapsed_components(model, n, set.min_rows);
@@ -350,8 +342,7 @@ bool handle_collapse(const EmData& data, MixtureModel& model, Eigen::MatrixXd& t
   const Eigen::VectorXd log_f = normalise_posterior(lj).log_density;
   std::vector<Index> order(static_cast<std::size_t>(log_f.size()));
   for (std::size_t i = 0; i < order.size(); ++i) order[i] = static_cast<Index>(i);
-  std::stable_sort(order.begin(), order.end(),
-                   [&](Index a, Index b) { return log_f(a) < log_f(b); });
+  std::stable_sort(order.begin(), order.end(), [&](Index a, Index b) { return log_f(a) < log_f(b); });
   const Eigen::RowVectorXd overall = healthy_model.weights.transpose() * healthy_model.means;
   std::size_t next = 0;
   for (auto& e : found) {
@@ -369,8 +360,8 @@ bool handle_collapse(const EmData& data, MixtureModel& model, Eigen::MatrixXd& t
   return true;
 }
 
-StartOutcome run_em(const EmData& data, const MixtureModel& provisional, Eigen::MatrixXd t,
-                    const Settings& set, int start, std::vector<CollapseEvent>& events) {
+StartOutcome run_em(const EmData& data, const MixtureModel& provisional, Eigen::MatrixXd t, const Settings& set,
+                    int start, std::vector<CollapseEvent>& events) {
   const MixtureOptions& o = *set.options;
   StartOutcome out;
   int reseeds = 0;
@@ -399,8 +390,7 @@ StartOutcome run_em(const EmData& data, const MixtureModel& provisional, Eigen::
 }
 
 void validate_options(const MixtureOptions& o, Index n_input) {
-  if (o.components < 1)
-    throw Error(ErrorKind::Argument, "mixture: the number of components K must be at least 1");
+  if (o.components < 1) throw Error(ErrorKind::Argument, "mixture: the number of components K must be at least 1");
   if (o.restarts < 1) throw Error(ErrorKind::Argument, "mixture: restarts must be at least 1");
   if (o.max_iterations < 1) throw Error(ErrorKind::Argument, "mixture: max_iterations must be at least 1");
   if (o.lloyd_steps < 0) throw Error(ErrorKind::Argument, "mixture: lloyd_steps must be >= 0");
@@ -408,8 +398,7 @@ void validate_options(const MixtureOptions& o, Index n_input) {
     throw Error(ErrorKind::Argument, "mixture: tolerance must be finite and >= 0");
   if (!(o.regularisation >= 0.0) || !std::isfinite(o.regularisation))
     throw Error(ErrorKind::Argument, "mixture: regularisation must be finite and >= 0");
-  if (std::isnan(o.min_component_rows))
-    throw Error(ErrorKind::Argument, "mixture: min_component_rows is NaN");
+  if (std::isnan(o.min_component_rows)) throw Error(ErrorKind::Argument, "mixture: min_component_rows is NaN");
   if (o.initial_labels.size() > 0 && o.initial_responsibilities.size() > 0)
     throw Error(ErrorKind::Argument, "mixture: give initial labels or initial responsibilities, not both");
   if (o.initial_labels.size() > 0) {
@@ -428,8 +417,8 @@ void validate_options(const MixtureOptions& o, Index n_input) {
   // choice over a range of K records it as a failed candidate (checked after
   // the options, so that a bad option is still reported as one).
   if (o.components > n_input)
-    throw Error(ErrorKind::Data, "mixture: K = " + std::to_string(o.components) +
-                                     " exceeds the number of rows (" + std::to_string(n_input) + ")");
+    throw Error(ErrorKind::Data, "mixture: K = " + std::to_string(o.components) + " exceeds the number of rows (" +
+                                     std::to_string(n_input) + ")");
 }
 
 }  // namespace
@@ -446,8 +435,8 @@ double mixture_check_columns(const Eigen::VectorXd& variance, const MixtureOptio
   // A constant column under a diagonal or spherical structure only adds the same
   // regularised variance to every component, so a positive regularisation rescues
   // it; full and tied matrices would be fitted around a degenerate direction.
-  const bool rescued = o.regularisation > 0.0 && (o.structure == CovarianceStructure::Diagonal ||
-                                                  o.structure == CovarianceStructure::Spherical);
+  const bool rescued = o.regularisation > 0.0 &&
+                       (o.structure == CovarianceStructure::Diagonal || o.structure == CovarianceStructure::Spherical);
   if (count > 0 && !rescued)
     throw Error(ErrorKind::Data, "mixture: constant column(s) " + constant +
                                      " (zero variance over the usable rows); drop them, or use a "
@@ -476,8 +465,8 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
   const MissingLayout layout = group_missing_patterns(x, "mixture");  // rejects infinite values
   const bool em_missing = o.missing == MissingHandling::EmOverMissing;
   if (em_missing && !layout.all_missing_rows.empty())
-    throw Error(ErrorKind::Data, "mixture: row " + std::to_string(layout.all_missing_rows.front()) +
-                                     " has no observed value");
+    throw Error(ErrorKind::Data,
+                "mixture: row " + std::to_string(layout.all_missing_rows.front()) + " has no observed value");
   std::vector<Index> used;
   if (em_missing || layout.incomplete_rows == 0) {
     used.resize(static_cast<std::size_t>(n_input));
@@ -489,11 +478,10 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
   const Index n = static_cast<Index>(used.size());
   const Index needed = mixture_parameter_count(k_count, p, o.structure);
   if (n < needed || n < k_count)
-    throw Error(ErrorKind::Data, "mixture: " + std::to_string(n) + " usable rows (" +
-                                     std::to_string(n_input - n) + " dropped for missing values), fewer than the " +
-                                     std::to_string(needed) + " free parameters of a " +
-                                     std::to_string(k_count) + "-component " + structure_name(o.structure) +
-                                     " mixture in " + std::to_string(p) + " dimensions");
+    throw Error(ErrorKind::Data, "mixture: " + std::to_string(n) + " usable rows (" + std::to_string(n_input - n) +
+                                     " dropped for missing values), fewer than the " + std::to_string(needed) +
+                                     " free parameters of a " + std::to_string(k_count) + "-component " +
+                                     structure_name(o.structure) + " mixture in " + std::to_string(p) + " dimensions");
   Eigen::MatrixXd compact;
   if (n < n_input) {
     compact.resize(n, p);

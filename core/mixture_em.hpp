@@ -22,8 +22,8 @@ enum class CovarianceStructure {
 
 // What the fit does with rows that hold missing values (NaN).
 enum class MissingHandling {
-  CompleteRows,  // drop them (the count is reported); default
-  EmOverMissing, // keep them; EM over the missing coordinates (Little & Rubin)
+  CompleteRows,   // drop them (the count is reported); default
+  EmOverMissing,  // keep them; EM over the missing coordinates (Little & Rubin)
 };
 
 // What the fit does with a collapsing component.
@@ -43,24 +43,24 @@ using MixtureProgress = std::function<bool(const char* stage, double fraction)>;
 // already included.
 struct MixtureModel {
   CovarianceStructure structure = CovarianceStructure::Full;
-  Eigen::VectorXd weights;                  // K, positive, summing to 1
-  Eigen::MatrixXd means;                    // K x p, row k is the mean of component k
-  std::vector<Eigen::MatrixXd> covariances; // K matrices p x p
+  Eigen::VectorXd weights;                   // K, positive, summing to 1
+  Eigen::MatrixXd means;                     // K x p, row k is the mean of component k
+  std::vector<Eigen::MatrixXd> covariances;  // K matrices p x p
   Index components() const { return weights.size(); }
   Index dimension() const { return means.cols(); }
 };
 
 struct MixtureOptions {
-  Index components = 2;                                  // K >= 1
+  Index components = 2;  // K >= 1
   CovarianceStructure structure = CovarianceStructure::Full;
-  int restarts = 3;              // independent k-means++ starts; the best log-likelihood is kept
-  int max_iterations = 500;      // EM iterations per start
-  double tolerance = 1e-8;       // stop when |L_t - L_(t-1)| <= tolerance * |L_t|
+  int restarts = 3;          // independent k-means++ starts; the best log-likelihood is kept
+  int max_iterations = 500;  // EM iterations per start
+  double tolerance = 1e-8;   // stop when |L_t - L_(t-1)| <= tolerance * |L_t|
   // reg: reg * (mean of the column variances of the data) is added to every
   // diagonal entry of every covariance after each M-step. >= 0.
   double regularisation = 1e-6;
-  std::uint64_t seed = 0;        // same seed and data -> bit-identical result
-  int lloyd_steps = 5;           // Lloyd iterations after k-means++ seeding
+  std::uint64_t seed = 0;  // same seed and data -> bit-identical result
+  int lloyd_steps = 5;     // Lloyd iterations after k-means++ seeding
   MissingHandling missing = MissingHandling::CompleteRows;
   CollapseAction on_collapse = CollapseAction::Reseed;
   // A component whose summed responsibility (effective row count) falls below this
@@ -83,31 +83,31 @@ struct MixtureOptions {
 enum class CollapseReason { SmallWeight, NotPositiveDefinite };
 
 struct CollapseEvent {
-  int start = 0;          // which start (0-based) it happened in
-  int iteration = 0;      // EM iteration (0 = the initial M-step)
-  Index component = 0;    // index of the component at that moment
+  int start = 0;        // which start (0-based) it happened in
+  int iteration = 0;    // EM iteration (0 = the initial M-step)
+  Index component = 0;  // index of the component at that moment
   CollapseReason reason = CollapseReason::SmallWeight;
   CollapseAction action = CollapseAction::Reseed;
-  Index seed_row = -1;    // Reseed: the input row the component restarted from
+  Index seed_row = -1;  // Reseed: the input row the component restarted from
 };
 
 struct MixtureResult {
-  MixtureModel model;                 // K may be below the requested K after removals
+  MixtureModel model;  // K may be below the requested K after removals
   // Per input row (n rows, including dropped ones): responsibilities (n x K),
   // hard label (argmax, ties to the lower index), log-density under the mixture.
   // Dropped rows hold NaN / -1; score them with score_mixture().
   Eigen::MatrixXd responsibilities;
   Eigen::VectorXi labels;
   Eigen::VectorXd log_density;
-  double log_likelihood = 0.0;        // sum of log_density over the used rows
-  Index n_parameters = 0;             // free parameters, see mixture_parameter_count
-  double bic = 0.0;                   // -2 logL + n_parameters log(rows_used)
-  double icl = 0.0;                   // bic - 2 sum_i sum_k t_ik log t_ik
-  bool converged = false;             // the relative-change test was met before the cap
-  int iterations = 0;                 // EM iterations of the kept start
-  std::vector<double> loglik_trace;   // logL at the start and after each iteration (kept start)
-  std::vector<CollapseEvent> collapses; // of every start, in order
-  int best_start = 0;                 // which start was kept
+  double log_likelihood = 0.0;           // sum of log_density over the used rows
+  Index n_parameters = 0;                // free parameters, see mixture_parameter_count
+  double bic = 0.0;                      // -2 logL + n_parameters log(rows_used)
+  double icl = 0.0;                      // bic - 2 sum_i sum_k t_ik log t_ik
+  bool converged = false;                // the relative-change test was met before the cap
+  int iterations = 0;                    // EM iterations of the kept start
+  std::vector<double> loglik_trace;      // logL at the start and after each iteration (kept start)
+  std::vector<CollapseEvent> collapses;  // of every start, in order
+  int best_start = 0;                    // which start was kept
   Index rows_used = 0;
   Index rows_dropped = 0;             // rows with a missing value (CompleteRows only)
   double regularisation_added = 0.0;  // the absolute amount added to each diagonal entry

@@ -19,15 +19,15 @@ namespace ellipsa::core {
 // E-step for complete rows (Dempster, Laird & Rubin 1977): responsibilities
 // into t (n x K) and the posterior summary, on `threads` threads (the result
 // does not depend on it). factors: factor_components(model).
-Posterior mixture_e_step_complete(const MixtureModel& model, const std::vector<CholeskyFactor>& factors,
-                                  DataView x, Eigen::MatrixXd& t, int threads);
+Posterior mixture_e_step_complete(const MixtureModel& model, const std::vector<CholeskyFactor>& factors, DataView x,
+                                  Eigen::MatrixXd& t, int threads);
 
 // M-step: the parameters from the responsibility-weighted moments of each
 // component (weight, mean, centred cross-products) over `rows` rows, for the
 // structure, with regularisation_absolute added to every diagonal entry. A
 // component of weight 0 gets a NaN covariance (collapsed_components() finds it).
-MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double rows,
-                            CovarianceStructure structure, Index p, double regularisation_absolute);
+MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double rows, CovarianceStructure structure,
+                            Index p, double regularisation_absolute);
 
 // The effective row count below which a component has collapsed
 // (MixtureOptions::min_component_rows, or its default for the structure).

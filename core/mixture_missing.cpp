@@ -11,12 +11,10 @@
 namespace ellipsa::core {
 namespace {
 
-Eigen::MatrixXd sub_matrix(const Eigen::MatrixXd& s, const std::vector<Index>& r,
-                           const std::vector<Index>& c) {
+Eigen::MatrixXd sub_matrix(const Eigen::MatrixXd& s, const std::vector<Index>& r, const std::vector<Index>& c) {
   Eigen::MatrixXd out(static_cast<Index>(r.size()), static_cast<Index>(c.size()));
   for (std::size_t j = 0; j < c.size(); ++j)
-    for (std::size_t i = 0; i < r.size(); ++i)
-      out(static_cast<Index>(i), static_cast<Index>(j)) = s(r[i], c[j]);
+    for (std::size_t i = 0; i < r.size(); ++i) out(static_cast<Index>(i), static_cast<Index>(j)) = s(r[i], c[j]);
   return out;
 }
 
@@ -36,11 +34,9 @@ CholeskyFactor factor_or_throw(const Eigen::MatrixXd& s, Index k) {
 
 }  // namespace
 
-Eigen::MatrixXd observed_weighted_log_densities(const MixtureModel& model,
-                                                const MissingLayout& layout, DataView x) {
+Eigen::MatrixXd observed_weighted_log_densities(const MixtureModel& model, const MissingLayout& layout, DataView x) {
   const Index k_count = model.components();
-  Eigen::MatrixXd out = Eigen::MatrixXd::Constant(x.rows(), k_count,
-                                                  std::numeric_limits<double>::quiet_NaN());
+  Eigen::MatrixXd out = Eigen::MatrixXd::Constant(x.rows(), k_count, std::numeric_limits<double>::quiet_NaN());
   const double log_2pi = std::log(2.0 * std::numbers::pi);
   for (const MissingPattern& pat : layout.patterns) {
     const Eigen::MatrixXd xo = gather(x, pat.rows, pat.observed);
@@ -51,20 +47,17 @@ Eigen::MatrixXd observed_weighted_log_densities(const MixtureModel& model,
       const Eigen::VectorXd mu = sub_vector(model.means.row(k).transpose(), pat.observed);
       const Eigen::VectorXd d2 = f.squared_distances(make_view(xo), mu);
       const double offset = std::log(model.weights(k)) - 0.5 * (q * log_2pi + f.log_determinant());
-      for (std::size_t i = 0; i < pat.rows.size(); ++i)
-        out(pat.rows[i], k) = offset - 0.5 * d2(static_cast<Index>(i));
+      for (std::size_t i = 0; i < pat.rows.size(); ++i) out(pat.rows[i], k) = offset - 0.5 * d2(static_cast<Index>(i));
     }
   }
   return out;
 }
 
-ComponentMoments missing_component_moments(const MixtureModel& current, Index k,
-                                           const MissingLayout& layout, DataView x,
-                                           const Eigen::VectorXd& t) {
+ComponentMoments missing_component_moments(const MixtureModel& current, Index k, const MissingLayout& layout,
+                                           DataView x, const Eigen::VectorXd& t) {
   const Index p = x.cols();
   if (!layout.all_missing_rows.empty())
-    throw Error(ErrorKind::Data, "EM over missing values: row " +
-                                     std::to_string(layout.all_missing_rows.front()) +
+    throw Error(ErrorKind::Data, "EM over missing values: row " + std::to_string(layout.all_missing_rows.front()) +
                                      " has no observed value");
   const Eigen::MatrixXd& s = current.covariances[static_cast<std::size_t>(k)];
   const Eigen::VectorXd mu = current.means.row(k).transpose();
@@ -87,8 +80,7 @@ ComponentMoments missing_component_moments(const MixtureModel& current, Index k,
     for (Index i = 0; i < m; ++i) {
       const Index row = pat.rows[static_cast<std::size_t>(i)];
       weight += t(row);
-      for (std::size_t j = 0; j < pat.missing.size(); ++j)
-        filled(row, pat.missing[j]) = fill(static_cast<Index>(j), i);
+      for (std::size_t j = 0; j < pat.missing.size(); ++j) filled(row, pat.missing[j]) = fill(static_cast<Index>(j), i);
     }
     const Eigen::MatrixXd cond = sub_matrix(s, pat.missing, pat.missing) - w.transpose() * w;
     for (std::size_t b = 0; b < pat.missing.size(); ++b)
@@ -104,8 +96,7 @@ ComponentMoments missing_component_moments(const MixtureModel& current, Index k,
   return out;
 }
 
-MixtureModel provisional_missing_model(DataView x, const Eigen::MatrixXd& r,
-                                       CovarianceStructure structure) {
+MixtureModel provisional_missing_model(DataView x, const Eigen::MatrixXd& r, CovarianceStructure structure) {
   const Index p = x.cols();
   const Index k_count = r.cols();
   const Eigen::MatrixXd observed = (x.array().isNaN()).select(0.0, x.array()).matrix();
@@ -124,8 +115,8 @@ MixtureModel provisional_missing_model(DataView x, const Eigen::MatrixXd& r,
   for (Index k = 0; k < k_count; ++k) {
     for (Index j = 0; j < p; ++j) {
       const double w = (r.col(k).array() * seen.col(j).array()).sum();
-      model.means(k, j) = w > 0.0 ? (r.col(k).array() * observed.col(j).array()).sum() / w
-                                  : observed.col(j).sum() / seen.col(j).sum();
+      model.means(k, j) =
+          w > 0.0 ? (r.col(k).array() * observed.col(j).array()).sum() / w : observed.col(j).sum() / seen.col(j).sum();
     }
     model.covariances.push_back(variance.asDiagonal());
   }

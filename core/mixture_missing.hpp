@@ -15,8 +15,7 @@ namespace ellipsa::core {
 // marginal Gaussian of each row's observed coordinates O: n x K. Rows without an
 // observed value hold NaN. Throws Error(Singular) if a sub-matrix is not positive
 // definite.
-Eigen::MatrixXd observed_weighted_log_densities(const MixtureModel& model,
-                                                const MissingLayout& layout, DataView x);
+Eigen::MatrixXd observed_weighted_log_densities(const MixtureModel& model, const MissingLayout& layout, DataView x);
 
 // Sufficient statistics of one component for the M-step: the summed
 // responsibility, the weighted mean and the weighted centred scatter
@@ -36,9 +35,8 @@ struct ComponentMoments {
 // MomentAccumulator), and the scatter gains sum_i t_ik times the conditional
 // covariance on the missing block, which is what the expected complete-data
 // cross-products require. Every row must have an observed value.
-ComponentMoments missing_component_moments(const MixtureModel& current, Index k,
-                                           const MissingLayout& layout, DataView x,
-                                           const Eigen::VectorXd& responsibility);
+ComponentMoments missing_component_moments(const MixtureModel& current, Index k, const MissingLayout& layout,
+                                           DataView x, const Eigen::VectorXd& responsibility);
 
 // A model to take the first conditional expectations from, when EM over missing
 // coordinates starts from responsibilities rather than parameters: component

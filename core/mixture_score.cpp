@@ -15,13 +15,12 @@ std::vector<CholeskyFactor> factor_components(const MixtureModel& model) {
   std::vector<CholeskyFactor> factors(static_cast<std::size_t>(model.components()));
   for (Index k = 0; k < model.components(); ++k)
     if (!factors[static_cast<std::size_t>(k)].compute(model.covariances[static_cast<std::size_t>(k)]))
-      throw Error(ErrorKind::Singular, "mixture component " + std::to_string(k) +
-                                           ": covariance is not positive definite");
+      throw Error(ErrorKind::Singular,
+                  "mixture component " + std::to_string(k) + ": covariance is not positive definite");
   return factors;
 }
 
-Eigen::VectorXd component_log_offsets(const MixtureModel& model, const std::vector<CholeskyFactor>& factors,
-                                      Index p) {
+Eigen::VectorXd component_log_offsets(const MixtureModel& model, const std::vector<CholeskyFactor>& factors, Index p) {
   const double log_2pi_p = static_cast<double>(p) * std::log(2.0 * std::numbers::pi);
   Eigen::VectorXd offset(model.components());
   for (Index k = 0; k < model.components(); ++k)
@@ -29,8 +28,8 @@ Eigen::VectorXd component_log_offsets(const MixtureModel& model, const std::vect
   return offset;
 }
 
-Eigen::MatrixXd weighted_log_densities(const MixtureModel& model,
-                                       const std::vector<CholeskyFactor>& factors, DataView x) {
+Eigen::MatrixXd weighted_log_densities(const MixtureModel& model, const std::vector<CholeskyFactor>& factors,
+                                       DataView x) {
   const Index k_count = model.components();
   const Eigen::VectorXd offset = component_log_offsets(model, factors, x.cols());
   Eigen::MatrixXd out(x.rows(), k_count);

@@ -50,13 +50,12 @@ Eigen::VectorXi flag_outliers(const Eigen::VectorXd& log_density, const OutlierC
 std::vector<CholeskyFactor> factor_components(const MixtureModel& model);
 
 // log pi_k + log phi(x_i; mu_k, Sigma_k) for every (finite) row and component: n x K.
-Eigen::MatrixXd weighted_log_densities(const MixtureModel& model,
-                                       const std::vector<CholeskyFactor>& factors, DataView x);
+Eigen::MatrixXd weighted_log_densities(const MixtureModel& model, const std::vector<CholeskyFactor>& factors,
+                                       DataView x);
 
 // log w_k - (p log(2 pi) + log det Sigma_k) / 2 for each component k: the part
 // of the log of w_k N(x; mu_k, Sigma_k) that does not depend on x.
-Eigen::VectorXd component_log_offsets(const MixtureModel& model, const std::vector<CholeskyFactor>& factors,
-                                      Index p);
+Eigen::VectorXd component_log_offsets(const MixtureModel& model, const std::vector<CholeskyFactor>& factors, Index p);
 
 // Turns log_joint (n x K, as above) into responsibilities in place by a row-wise
 // log-sum-exp. Returns each row's log-density and sum_ik t_ik log t_ik (for ICL),

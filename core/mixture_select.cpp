@@ -8,12 +8,9 @@
 namespace ellipsa::core {
 
 MixtureSelection select_mixture(DataView x, const MixtureSelectionOptions& o) {
-  if (o.k_min < 1 || o.k_max < o.k_min)
-    throw Error(ErrorKind::Argument, "mixture selection: need 1 <= k_min <= k_max");
-  if (o.structures.empty())
-    throw Error(ErrorKind::Argument, "mixture selection: no covariance structure given");
-  const double total = static_cast<double>((o.k_max - o.k_min + 1) *
-                                           static_cast<Index>(o.structures.size()));
+  if (o.k_min < 1 || o.k_max < o.k_min) throw Error(ErrorKind::Argument, "mixture selection: need 1 <= k_min <= k_max");
+  if (o.structures.empty()) throw Error(ErrorKind::Argument, "mixture selection: no covariance structure given");
+  const double total = static_cast<double>((o.k_max - o.k_min + 1) * static_cast<Index>(o.structures.size()));
   const double nan = std::numeric_limits<double>::quiet_NaN();
   MixtureSelection out;
   double best_score = std::numeric_limits<double>::infinity();

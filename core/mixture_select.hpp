@@ -33,8 +33,8 @@ struct MixtureSelectionOptions {
 // criteria; the others still compete. A fitted candidate that stopped at
 // max_iterations has converged = false and competes like the others.
 struct MixtureCandidate {
-  Index k = 0;                  // requested K
-  Index k_final = 0;            // K after collapse removals
+  Index k = 0;        // requested K
+  Index k_final = 0;  // K after collapse removals
   CovarianceStructure structure = CovarianceStructure::Full;
   bool fitted = false;
   std::string message;

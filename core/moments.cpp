@@ -24,9 +24,8 @@ constexpr Index kCopyRows = 8;
 // lower += c' c for a column-major chunk c (rows x p), lower triangle only.
 void add_gram_lower(const Eigen::MatrixXd& c, Eigen::MatrixXd& lower) {
   if (c.rows() == 0 || c.cols() == 0) return;
-  cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(c.cols()),
-              static_cast<int>(c.rows()), 1.0, c.data(), static_cast<int>(c.rows()),
-              1.0, lower.data(), static_cast<int>(lower.outerStride()));
+  cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(c.cols()), static_cast<int>(c.rows()), 1.0,
+              c.data(), static_cast<int>(c.rows()), 1.0, lower.data(), static_cast<int>(lower.outerStride()));
 }
 
 }  // namespace
@@ -81,8 +80,7 @@ Eigen::MatrixXd MomentAccumulator::cross_products() const {
   return full;
 }
 
-void MomentAccumulator::merge_relative(double wb, Index rows_b, const Eigen::VectorXd& mb,
-                                       const Eigen::MatrixXd& Mb) {
+void MomentAccumulator::merge_relative(double wb, Index rows_b, const Eigen::VectorXd& mb, const Eigen::MatrixXd& Mb) {
   if (!(wb > 0.0)) return;
   const double wa = weight_;
   const double w = wa + wb;
@@ -92,14 +90,12 @@ void MomentAccumulator::merge_relative(double wb, Index rows_b, const Eigen::Vec
   relative_mean_ += delta * (wb / w);
   mean_ = shift_ + relative_mean_;
   lower_.triangularView<Eigen::Lower>() += Mb;
-  if (wa > 0.0)
-    lower_.selfadjointView<Eigen::Lower>().rankUpdate(delta, wa * wb / w);
+  if (wa > 0.0) lower_.selfadjointView<Eigen::Lower>().rankUpdate(delta, wa * wb / w);
   weight_ = w;
   rows_ += rows_b;
 }
 
-void MomentAccumulator::merge(double wb, Index rows_b, const Eigen::VectorXd& mb,
-                              const Eigen::MatrixXd& Mb) {
+void MomentAccumulator::merge(double wb, Index rows_b, const Eigen::VectorXd& mb, const Eigen::MatrixXd& Mb) {
   if (mb.size() != dimension() || Mb.rows() != dimension() || Mb.cols() != dimension())
     throw Error(ErrorKind::Shape, "moment merge: dimensions differ");
   if (!(wb > 0.0)) return;
@@ -119,8 +115,7 @@ void MomentAccumulator::merge(const MomentAccumulator& other) {
   }
   direct_rows_ += other.direct_rows_;
   // Shifts are data rows, so their difference is exact for nearby data.
-  merge_relative(other.weight_, other.rows_, (other.shift_ - shift_) + other.relative_mean_,
-                 other.cross_products());
+  merge_relative(other.weight_, other.rows_, (other.shift_ - shift_) + other.relative_mean_, other.cross_products());
 }
 
 namespace {
@@ -414,8 +409,8 @@ constexpr double kMaxShiftRatio = 4.0;
 
 }  // namespace
 
-std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd& w,
-                                              const Eigen::MatrixXd& shifts, int threads) {
+std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd& w, const Eigen::MatrixXd& shifts,
+                                              int threads) {
   const Index n = x.rows();
   const Index p = x.cols();
   const Index k_count = w.cols();
@@ -439,9 +434,9 @@ std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd&
   // Each fixed chunk's sums go to its own slot (on `threads` threads) and are
   // added in chunk order afterwards, as one thread would add them.
   struct ChunkSums {
-    Eigen::VectorXd weight;                // per weighting, 0 when skipped
-    Eigen::MatrixXd sums;                  // p x K
-    std::vector<Eigen::MatrixXd> lower;    // K lower triangles (empty when skipped)
+    Eigen::VectorXd weight;              // per weighting, 0 when skipped
+    Eigen::MatrixXd sums;                // p x K
+    std::vector<Eigen::MatrixXd> lower;  // K lower triangles (empty when skipped)
   };
   struct Scratch {
     std::unique_ptr<ColumnMajorChunks> chunks;
@@ -478,8 +473,8 @@ std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd&
       }
       Eigen::MatrixXd& gram = part.lower[static_cast<std::size_t>(k)];
       gram = Eigen::MatrixXd::Zero(p, p);  // dsyrk writes its lower triangle only
-      cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(p), static_cast<int>(m), 1.0,
-                  s.y.data(), static_cast<int>(s.y.rows()), 0.0, gram.data(), static_cast<int>(p));
+      cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, static_cast<int>(p), static_cast<int>(m), 1.0, s.y.data(),
+                  static_cast<int>(s.y.rows()), 0.0, gram.data(), static_cast<int>(p));
       part.weight(k) = ws;
     }
   });
@@ -523,10 +518,9 @@ std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd&
 Eigen::MatrixXd MomentAccumulator::covariance(Normalisation norm) const {
   const double divisor = norm == Normalisation::ByCount ? weight_ : weight_ - 1.0;
   if (!(divisor > 0.0))
-    throw Error(ErrorKind::Data,
-                norm == Normalisation::ByCount
-                    ? "covariance needs at least one row with positive weight"
-                    : "covariance with divisor n-1 needs a weight sum above 1 (at least 2 rows)");
+    throw Error(ErrorKind::Data, norm == Normalisation::ByCount
+                                     ? "covariance needs at least one row with positive weight"
+                                     : "covariance with divisor n-1 needs a weight sum above 1 (at least 2 rows)");
   return cross_products() / divisor;
 }
 

@@ -61,8 +61,7 @@ class MomentAccumulator {
   void merge(const MomentAccumulator& other);
   // Merges raw moments (count, mean, centred cross-products) from elsewhere,
   // e.g. a partial result received from another process.
-  void merge(double weight, Index rows, const Eigen::VectorXd& mean,
-             const Eigen::MatrixXd& cross_products);
+  void merge(double weight, Index rows, const Eigen::VectorXd& mean, const Eigen::MatrixXd& cross_products);
 
   // Covariance under the chosen divisor. Throws Error(Data) when the divisor is
   // not positive (fewer than 2 rows for ByCountMinusOne, no weight at all).
@@ -113,9 +112,9 @@ class MomentAccumulator {
 // Weighted mean and centred cross-products sum_i w_i (x_i - mean)(x_i - mean)'
 // of one weighting of the rows.
 struct WeightedMoments {
-  double weight = 0.0;              // sum of the weights
-  Eigen::VectorXd mean;             // zero when the weights sum to 0
-  Eigen::MatrixXd cross_products;   // full symmetric, p x p; zero when the weights sum to 0
+  double weight = 0.0;             // sum of the weights
+  Eigen::VectorXd mean;            // zero when the weights sum to 0
+  Eigen::MatrixXd cross_products;  // full symmetric, p x p; zero when the weights sum to 0
 };
 
 // The moments of the rows of x under every column of w (n x K, finite, >= 0) in
@@ -128,8 +127,8 @@ struct WeightedMoments {
 // MomentAccumulator::add(x, w). Throws Error(Shape) for mismatched sizes.
 // `threads`: fixed chunks whose sums are added in chunk order (parallel.hpp),
 // so the moments do not depend on it.
-std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd& w,
-                                              const Eigen::MatrixXd& shifts, int threads = 1);
+std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd& w, const Eigen::MatrixXd& shifts,
+                                              int threads = 1);
 
 // Rows start..start+m-1 of x into `raw`, column-major (m x p). Row-major views
 // are transposed in small blocks that stay in L1.

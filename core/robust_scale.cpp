@@ -48,7 +48,7 @@ double qn_consistency_constant() {
 struct ScaleWorkspace::Buffers {
   std::vector<std::uint64_t> key, tmp;  // radix sort
   std::vector<std::uint32_t> count;
-  std::vector<double> y;                // sorted sample + NaN sentinels
+  std::vector<double> y;  // sorted sample + NaN sentinels
   std::vector<Index> lo, hi, cut_lo, cut_hi;
   std::vector<double> sample, candidates;
 };
@@ -133,8 +133,7 @@ inline Index advance4(const double* y, Index j, double yi, double t) {
   return static_cast<Index>(((m0 + 1) >> 1) + ((m1 + 1) >> 1));
 #else
   auto below = [t](double d) { return strict ? (d <= t) : (d < t); };
-  return static_cast<Index>(below(y[j] - yi)) + below(y[j + 1] - yi) + below(y[j + 2] - yi) +
-         below(y[j + 3] - yi);
+  return static_cast<Index>(below(y[j] - yi)) + below(y[j + 1] - yi) + below(y[j + 2] - yi) + below(y[j + 3] - yi);
 #endif
 }
 
@@ -151,8 +150,7 @@ struct PairWindows {
   long long left_of_windows = 0;  // pairs excluded on the small side
   long long size = 0;             // pairs inside the windows
 
-  PairWindows(const std::vector<double>& sorted, std::size_t count, std::vector<Index>& lo_,
-              std::vector<Index>& hi_)
+  PairWindows(const std::vector<double>& sorted, std::size_t count, std::vector<Index>& lo_, std::vector<Index>& hi_)
       : y(sorted.data()), n(count), lo(lo_), hi(hi_) {
     lo.resize(n);
     hi.assign(n, static_cast<Index>(n));
@@ -259,7 +257,7 @@ void draw_stratified_sample(const PairWindows& w, long long sample_size, SplitMi
   for (long long q = 0; q < sample_size; ++q) {
     // run_end = floor(size (q+1) / s) without overflow.
     const long long run_end = run_base * (q + 1) + run_rest * (q + 1) / sample_size;
-    const long long width = run_end - run_start;  // >= 1: size >= 4 s here
+    const long long width = run_end - run_start;                              // >= 1: size >= 4 s here
     const double fraction = static_cast<double>(engine() >> 11) * 0x1.0p-53;  // in [0, 1)
     const long long u = run_start + std::min(width - 1, static_cast<long long>(fraction * static_cast<double>(width)));
     run_start = run_end;
@@ -367,13 +365,12 @@ bool narrow_windows(PairWindows& w, long long rank, const TrialValues& t, std::v
 // than a simple random sample. The sample only steers which counts are taken;
 // the result is the exact order statistic whatever it draws, and the generator
 // has a fixed seed, so the work done is also reproducible.
-double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x,
-                                           long long k, ScaleWorkspace& workspace) {
+double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x, long long k,
+                                           ScaleWorkspace& workspace) {
   const Index n = x.size();
   require_nonempty(n, "pairwise differences");
   const long long pairs = static_cast<long long>(n) * (n - 1) / 2;
-  if (k < 1 || k > pairs)
-    throw Error(ErrorKind::Argument, "pairwise difference order statistic: rank out of range");
+  if (k < 1 || k > pairs) throw Error(ErrorKind::Argument, "pairwise difference order statistic: rank out of range");
   ScaleWorkspace::Buffers& b = workspace.buffers();
   sorted_copy(x, b);
   const std::vector<double>& y = b.y;
@@ -394,8 +391,7 @@ double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorX
     draw_stratified_sample(w, sample_size, engine, sample);
     const long long rank = k - w.left_of_windows;  // 1-based among the candidates
     double answer = 0.0;
-    if (narrow_windows(w, rank, trial_values(sample, rank, w.size), sample, cut_lo, cut_hi, &answer))
-      return answer;
+    if (narrow_windows(w, rank, trial_values(sample, rank, w.size), sample, cut_lo, cut_hi, &answer)) return answer;
   }
   // Few candidates left: everything left of the windows is smaller than the
   // answer, everything right of them larger.
@@ -412,8 +408,7 @@ double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorX
   return *nth;
 }
 
-double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x,
-                                           long long k) {
+double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x, long long k) {
   ScaleWorkspace workspace;
   return pairwise_difference_order_statistic(x, k, workspace);
 }

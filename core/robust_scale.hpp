@@ -95,9 +95,8 @@ double qn_scale_asymptotic(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWork
 
 // The raw order statistic {|x_i - x_j|; i < j}_(k), k 1-based in
 // [1, n(n-1)/2]. Exposed for tests and for callers needing another quantile.
-double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x,
-                                           long long k);
-double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x,
-                                           long long k, ScaleWorkspace& workspace);
+double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x, long long k);
+double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorXd>& x, long long k,
+                                           ScaleWorkspace& workspace);
 
 }  // namespace ellipsa::core

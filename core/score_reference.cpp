@@ -13,9 +13,8 @@ namespace {
 
 void check_df(const ScoreReference& r, Index df) {
   if (df < 1 || df > reference_max_df(r))
-    throw Error(ErrorKind::Argument, "score reference: " + std::to_string(df) +
-                                         " coordinates need more than the " + std::to_string(r.rows) +
-                                         " reference rows of the profile");
+    throw Error(ErrorKind::Argument, "score reference: " + std::to_string(df) + " coordinates need more than the " +
+                                         std::to_string(r.rows) + " reference rows of the profile");
 }
 
 }  // namespace
@@ -33,7 +32,7 @@ double reference_limit(const ScoreReference& r, Index df, double level) {
   if (r.kind == ReferenceKind::ChiSquare) return chi2_quantile(level, static_cast<double>(df));
   check_df(r, df);
   const double t2 = r.kind == ReferenceKind::NewRows ? t2_phase2_limit_real(r.rows, df, 1.0 - level)
-                                                      : t2_phase1_limit_real(r.rows, df, 1.0 - level);
+                                                     : t2_phase1_limit_real(r.rows, df, 1.0 - level);
   return t2 / r.t2_scale;
 }
 

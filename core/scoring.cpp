@@ -23,8 +23,8 @@ constexpr Index kChunkRows = 1024;
 
 // What one factor needs to score a dense block of centred rows.
 struct Model {
-  const Eigen::MatrixXd* lower;   // L with S_oo = L L'
-  Eigen::VectorXd inverse_diagonal;  // diag(S_oo^-1), only for conditional drops
+  const Eigen::MatrixXd* lower;       // L with S_oo = L L'
+  Eigen::VectorXd inverse_diagonal;   // diag(S_oo^-1), only for conditional drops
   const std::vector<Index>* columns;  // observed columns, nullptr = all
 };
 
@@ -38,8 +38,8 @@ Eigen::VectorXd inverse_diagonal(const Eigen::MatrixXd& lower) {
 
 // Scores `block` (m x q, already centred; overwritten) whose rows are output
 // rows rows[0..m). `work` is scratch of at least m x q, used only when z is needed.
-void score_block(const Model& model, Eigen::Ref<Eigen::MatrixXd> block, Eigen::MatrixXd& work,
-                 const Index* rows, const ScoringOptions& opt, RowScores& out) {
+void score_block(const Model& model, Eigen::Ref<Eigen::MatrixXd> block, Eigen::MatrixXd& work, const Index* rows,
+                 const ScoringOptions& opt, RowScores& out) {
   const Index m = block.rows(), q = block.cols();
   const auto upper = model.lower->transpose().triangularView<Eigen::Upper>();
   // Row k of the result is (L^-1 d_k)': one triangular solve from the right with
@@ -72,9 +72,8 @@ void score_block(const Model& model, Eigen::Ref<Eigen::MatrixXd> block, Eigen::M
 MahalanobisScorer::MahalanobisScorer(const Eigen::VectorXd& location, const Eigen::MatrixXd& scatter)
     : location_(location), scatter_(scatter) {
   if (scatter.rows() != scatter.cols() || scatter.rows() != location.size())
-    throw Error(ErrorKind::Shape, "scorer: location has " + std::to_string(location.size()) +
-                                      " entries, scatter is " + std::to_string(scatter.rows()) + " x " +
-                                      std::to_string(scatter.cols()));
+    throw Error(ErrorKind::Shape, "scorer: location has " + std::to_string(location.size()) + " entries, scatter is " +
+                                      std::to_string(scatter.rows()) + " x " + std::to_string(scatter.cols()));
   if (location.size() == 0) throw Error(ErrorKind::Shape, "scorer: no variables");
   if (!location.allFinite()) throw Error(ErrorKind::Data, "scorer: location has a NaN or Inf entry");
   if (!factor_.compute(scatter))
@@ -94,10 +93,9 @@ MahalanobisScorer::MahalanobisScorer(const Eigen::VectorXd& location, const Chol
 RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const {
   const Index n = x.rows(), p = dimension();
   if (x.cols() != p)
-    throw Error(ErrorKind::Shape, "scorer: data have " + std::to_string(x.cols()) + " columns, model has " +
-                                      std::to_string(p));
-  if (!(opt.level > 0.0 && opt.level < 1.0))
-    throw Error(ErrorKind::Argument, "scorer: level must lie in (0, 1)");
+    throw Error(ErrorKind::Shape,
+                "scorer: data have " + std::to_string(x.cols()) + " columns, model has " + std::to_string(p));
+  if (!(opt.level > 0.0 && opt.level < 1.0)) throw Error(ErrorKind::Argument, "scorer: level must lie in (0, 1)");
 
   RowScores out;
   out.d2.resize(n);
@@ -171,12 +169,13 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
     Eigen::MatrixXd sub(q, q);
     for (Index b = 0; b < q; ++b)
       for (Index a = 0; a < q; ++a)
-        sub(a, b) = scatter_.size() ? scatter_(observed[a], observed[b])
-                                    : lower.row(observed[a]).dot(lower.row(observed[b]));
+        sub(a, b) =
+            scatter_.size() ? scatter_(observed[a], observed[b]) : lower.row(observed[a]).dot(lower.row(observed[b]));
     CholeskyFactor sub_factor;
     if (!sub_factor.compute(sub))
-      throw Error(ErrorKind::Singular, "scorer: the scatter sub-matrix of a missingness pattern is not positive "
-                                       "definite (the scatter is too ill-conditioned)");
+      throw Error(ErrorKind::Singular,
+                  "scorer: the scatter sub-matrix of a missingness pattern is not positive "
+                  "definite (the scatter is too ill-conditioned)");
     if (opt.log_densities)
       for (Index i : members) log_det(i) = sub_factor.log_determinant();
     Model marginal{&sub_factor.lower(), {}, &observed};
@@ -201,8 +200,9 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
     cutoff(df) = df <= reference_max_df(opt.reference) ? reference_limit(opt.reference, df, opt.level) : kNaN;
   for (Index i = 0; i < n; ++i)
     if (out.df(i) > 0 && std::isnan(cutoff(out.df(i))))
-      throw Error(ErrorKind::Argument, "scoring: row " + std::to_string(i) + " has " + std::to_string(out.df(i)) +
-                                           " observed coordinates, more than the reference rows of the profile support");
+      throw Error(ErrorKind::Argument,
+                  "scoring: row " + std::to_string(i) + " has " + std::to_string(out.df(i)) +
+                      " observed coordinates, more than the reference rows of the profile support");
   out.flagged.resize(n);
   for (Index i = 0; i < n; ++i) out.flagged(i) = out.df(i) > 0 && out.d2(i) > cutoff(out.df(i));
   if (opt.log_densities) {

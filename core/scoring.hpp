@@ -20,20 +20,21 @@ struct ScoringOptions {
   // is the usual screening convention, not a law.
   double level = 0.975;
   ScoreReference reference;
-  bool p_values = true;           // fill RowScores::p_value
-  bool contributions = false;     // fill RowScores::contributions
-  bool conditional_drops = false; // fill RowScores::conditional_drops
-  bool log_densities = false;     // fill RowScores::log_density
+  bool p_values = true;            // fill RowScores::p_value
+  bool contributions = false;      // fill RowScores::contributions
+  bool conditional_drops = false;  // fill RowScores::conditional_drops
+  bool log_densities = false;      // fill RowScores::log_density
   // Threads for the complete rows and the p-values (parallel.hpp); every row's
   // result is computed from that row alone, so it does not depend on this.
   int threads = 1;
 };
 
 struct RowScores {
-  Eigen::VectorXd d2;       // squared distance; NaN for an all-missing row
-  Eigen::VectorXd p_value;  // upper tail of the reference (P(chi2(df) > d2) by default), NaN when df = 0; empty unless asked
-  IndexVector df;           // observed coordinates used (p for a complete row)
-  FlagVector flagged;       // d2 > the reference's limit (chi2q(df, level)); never for an all-missing row
+  Eigen::VectorXd d2;  // squared distance; NaN for an all-missing row
+  Eigen::VectorXd
+      p_value;         // upper tail of the reference (P(chi2(df) > d2) by default), NaN when df = 0; empty unless asked
+  IndexVector df;      // observed coordinates used (p for a complete row)
+  FlagVector flagged;  // d2 > the reference's limit (chi2q(df, level)); never for an all-missing row
   // n x p, c_ij = (x_i - T)_j (S_oo^-1 (x_i - T)_o)_j; each row sums to d2_i.
   // NaN at missing coordinates. Empty unless asked.
   Eigen::MatrixXd contributions;

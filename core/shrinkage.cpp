@@ -92,8 +92,7 @@ ShrinkageEstimate shrinkage_from_moments(Index n, const Eigen::VectorXd& mean, c
   if (p < 1) throw Error(ErrorKind::Shape, "shrinkage estimate: no columns");
   if (cross_products.rows() != p || cross_products.cols() != p)
     throw Error(ErrorKind::Shape, "shrinkage estimate: cross-products do not match the mean");
-  if (n < 2)
-    throw Error(ErrorKind::Data, "shrinkage estimate: needs at least 2 rows, got " + std::to_string(n));
+  if (n < 2) throw Error(ErrorKind::Data, "shrinkage estimate: needs at least 2 rows, got " + std::to_string(n));
   ShrinkageEstimate out;
   out.rows = n;
   out.mean = mean;
@@ -101,8 +100,7 @@ ShrinkageEstimate shrinkage_from_moments(Index n, const Eigen::VectorXd& mean, c
   const Eigen::MatrixXd& s = out.sample_covariance;
   const double trace_s = s.trace();
   const double mu = trace_s / static_cast<double>(p);
-  if (!(mu > 0.0))
-    throw Error(ErrorKind::Data, "shrinkage estimate: every column is constant (trace of S is 0)");
+  if (!(mu > 0.0)) throw Error(ErrorKind::Data, "shrinkage estimate: every column is constant (trace of S is 0)");
   // Every term of the intensities is of degree 4 in the data: computed in
   // units of u^2 = shrinkage_unit(mu)^2 (exact: a power of two).
   const double unit = shrinkage_unit(mu), unit2 = unit * unit;
@@ -117,9 +115,8 @@ ShrinkageEstimate shrinkage_from_moments(Index n, const Eigen::VectorXd& mean, c
   const double fourth = sum_fourth_powers_of_norms * r2 * r2;
 
   out.target_scale = mu;
-  out.intensity = method == ShrinkageMethod::LedoitWolf
-                      ? ledoit_wolf_intensity(trace_s2, spread, fourth, nd, pd)
-                      : oas_intensity(trace_s2, trace_s / unit2, spread, nd, pd);
+  out.intensity = method == ShrinkageMethod::LedoitWolf ? ledoit_wolf_intensity(trace_s2, spread, fourth, nd, pd)
+                                                        : oas_intensity(trace_s2, trace_s / unit2, spread, nd, pd);
   out.covariance = (1.0 - out.intensity) * s;
   out.covariance.diagonal().array() += out.intensity * mu;
   return out;

@@ -15,12 +15,12 @@ enum class ShrinkageMethod {
 };
 
 struct ShrinkageEstimate {
-  Eigen::VectorXd mean;                // sample mean
-  Eigen::MatrixXd covariance;          // intensity*mu*I + (1-intensity)*S
-  Eigen::MatrixXd sample_covariance;   // S, divisor n (maximum likelihood)
-  double intensity = 0.0;              // weight on the target, in [0, 1]
-  double target_scale = 0.0;           // mu = tr(S)/p
-  Index rows = 0;                      // n
+  Eigen::VectorXd mean;               // sample mean
+  Eigen::MatrixXd covariance;         // intensity*mu*I + (1-intensity)*S
+  Eigen::MatrixXd sample_covariance;  // S, divisor n (maximum likelihood)
+  double intensity = 0.0;             // weight on the target, in [0, 1]
+  double target_scale = 0.0;          // mu = tr(S)/p
+  Index rows = 0;                     // n
 };
 
 // Throws Error(Data) for fewer than 2 rows or a NaN/Inf entry (select complete

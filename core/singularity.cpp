@@ -33,7 +33,10 @@ std::vector<std::vector<Index>> components(const Eigen::MatrixXd& proj, const st
   const std::size_t m = involved.size();
   std::vector<std::size_t> label(m);
   std::iota(label.begin(), label.end(), std::size_t{0});
-  auto root = [&](std::size_t a) { while (label[a] != a) a = label[a] = label[label[a]]; return a; };
+  auto root = [&](std::size_t a) {
+    while (label[a] != a) a = label[a] = label[label[a]];
+    return a;
+  };
   for (std::size_t a = 0; a < m; ++a)
     for (std::size_t b = a + 1; b < m; ++b)
       if (std::abs(proj(involved[a], involved[b])) > threshold) label[root(a)] = root(b);
@@ -41,7 +44,10 @@ std::vector<std::vector<Index>> components(const Eigen::MatrixXd& proj, const st
   std::vector<long> slot(m, -1);
   for (std::size_t a = 0; a < m; ++a) {
     const std::size_t r = root(a);
-    if (slot[r] < 0) { slot[r] = static_cast<long>(groups.size()); groups.emplace_back(); }
+    if (slot[r] < 0) {
+      slot[r] = static_cast<long>(groups.size());
+      groups.emplace_back();
+    }
     groups[static_cast<std::size_t>(slot[r])].push_back(involved[a]);
   }
   return groups;
@@ -59,8 +65,7 @@ SingularityReport diagnose_scatter(const Eigen::MatrixXd& s, const SingularityOp
 
   SingularityReport report;
   std::vector<Index> varying;
-  for (Index j = 0; j < s.rows(); ++j)
-    (s(j, j) > 0.0 ? varying : report.constant_columns).push_back(j);
+  for (Index j = 0; j < s.rows(); ++j) (s(j, j) > 0.0 ? varying : report.constant_columns).push_back(j);
 
   const Index q = static_cast<Index>(varying.size());
   if (q == 0) report.eigenvalue_ratio = 0.0;
@@ -89,7 +94,10 @@ SingularityReport diagnose_scatter(const Eigen::MatrixXd& s, const SingularityOp
       for (auto& group : components(proj, involved, options.loading_threshold)) {
         CollinearGroup g;
         double dim = 0.0;  // trace of the projector on the group = directions inside it
-        for (Index a : group) { g.columns.push_back(varying[a]); dim += proj(a, a); }
+        for (Index a : group) {
+          g.columns.push_back(varying[a]);
+          dim += proj(a, a);
+        }
         g.dimension = std::max<Index>(1, static_cast<Index>(std::lround(dim)));
         report.collinear_groups.push_back(std::move(g));
       }
@@ -103,11 +111,11 @@ SingularityReport diagnose_scatter(const Eigen::MatrixXd& s, const SingularityOp
     if (!report.constant_columns.empty())
       msg += " constant column(s)" + basis + " " + list_columns(report.constant_columns, options.index_base) + ";";
     for (const auto& g : report.collinear_groups)
-      msg += " columns" + basis + " " + list_columns(g.columns, options.index_base) +
-             " are collinear (" + std::to_string(g.dimension) + " dependent direction(s));";
+      msg += " columns" + basis + " " + list_columns(g.columns, options.index_base) + " are collinear (" +
+             std::to_string(g.dimension) + " dependent direction(s));";
     if (!report.collinear_groups.empty())
-      msg += " smallest/largest correlation eigenvalue " + format_g(report.eigenvalue_ratio) +
-             " below tolerance " + format_g(options.relative_tolerance) + ";";
+      msg += " smallest/largest correlation eigenvalue " + format_g(report.eigenvalue_ratio) + " below tolerance " +
+             format_g(options.relative_tolerance) + ";";
     msg += " remove these columns or use a shrinkage estimate";
     report.message = msg;
   }

@@ -30,8 +30,8 @@ struct CollinearGroup {
 };
 
 struct SingularityReport {
-  bool singular = false;               // a constant column or a degenerate direction
-  std::vector<Index> constant_columns; // variance <= 0 (0-based)
+  bool singular = false;                // a constant column or a degenerate direction
+  std::vector<Index> constant_columns;  // variance <= 0 (0-based)
   std::vector<CollinearGroup> collinear_groups;
   // Smallest / largest eigenvalue of the correlation matrix of the non-constant
   // columns (1 with one such column, 0 when none remains).

@@ -42,8 +42,7 @@ TwoSampleT2 two_sample_t2(const GroupSummary& a, const GroupSummary& b) {
   const double df2 = n1 + n2 - pd - 1.0;
   if (df2 < 1.0)
     throw Error(ErrorKind::Data, "two-sample T^2: needs n1 + n2 >= p + 2 rows, got " +
-                                     std::to_string(static_cast<long long>(n1 + n2)) + " for p = " +
-                                     std::to_string(p));
+                                     std::to_string(static_cast<long long>(n1 + n2)) + " for p = " + std::to_string(p));
   const Eigen::MatrixXd pooled = ((n1 - 1.0) * a.covariance + (n2 - 1.0) * b.covariance) / (n1 + n2 - 2.0);
   const CholeskyFactor chol(pooled);
   if (!chol.ok())
@@ -70,17 +69,15 @@ BoxM box_m_from_log_determinants(const std::vector<double>& n, const std::vector
   double big_n = 0.0, inv_sum = 0.0, weighted_log_det = 0.0;
   for (std::size_t i = 0; i < n.size(); ++i) {
     if (!(n[i] - 1.0 >= pd))
-      throw Error(ErrorKind::Data, "Box's M: group " + std::to_string(i + 1) + " needs at least p + 1 = " +
-                                       std::to_string(p + 1) + " rows");
+      throw Error(ErrorKind::Data, "Box's M: group " + std::to_string(i + 1) +
+                                       " needs at least p + 1 = " + std::to_string(p + 1) + " rows");
     if (!std::isfinite(log_det[i]))
-      throw Error(ErrorKind::Singular, "Box's M: the covariance of group " + std::to_string(i + 1) +
-                                           " is singular");
+      throw Error(ErrorKind::Singular, "Box's M: the covariance of group " + std::to_string(i + 1) + " is singular");
     big_n += n[i];
     inv_sum += 1.0 / (n[i] - 1.0);
     weighted_log_det += (n[i] - 1.0) * log_det[i];
   }
-  if (!std::isfinite(log_det_pooled))
-    throw Error(ErrorKind::Singular, "Box's M: the pooled covariance is singular");
+  if (!std::isfinite(log_det_pooled)) throw Error(ErrorKind::Singular, "Box's M: the pooled covariance is singular");
   BoxM out;
   out.m = (big_n - g) * log_det_pooled - weighted_log_det;
   out.correction = (inv_sum - 1.0 / (big_n - g)) * (2.0 * pd * pd + 3.0 * pd - 1.0) / (6.0 * (pd + 1.0) * (g - 1.0));
@@ -144,8 +141,7 @@ std::vector<double> holm_adjust(const std::vector<double>& p_values) {
     order.push_back(i);
   }
   // Stable, so tied p-values keep their input order (the result is the same).
-  std::stable_sort(order.begin(), order.end(),
-                   [&](std::size_t x, std::size_t y) { return p_values[x] < p_values[y]; });
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t x, std::size_t y) { return p_values[x] < p_values[y]; });
   std::vector<double> out(p_values.size(), kNaN);
   const double m = static_cast<double>(order.size());
   double running = 0.0;

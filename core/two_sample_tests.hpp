@@ -35,11 +35,11 @@ struct TwoSampleT2 {
 TwoSampleT2 two_sample_t2(const GroupSummary& a, const GroupSummary& b);
 
 struct BoxM {
-  double m = 0.0;          // (N - g) ln|S_pooled| - sum (n_i - 1) ln|S_i|
-  double correction = 0.0; // c1 (Box 1949)
-  double chi2 = 0.0;       // (1 - c1) M
-  double df = 0.0;         // p (p + 1) (g - 1) / 2
-  double p_value = 0.0;    // P(chi2(df) > chi2)
+  double m = 0.0;           // (N - g) ln|S_pooled| - sum (n_i - 1) ln|S_i|
+  double correction = 0.0;  // c1 (Box 1949)
+  double chi2 = 0.0;        // (1 - c1) M
+  double df = 0.0;          // p (p + 1) (g - 1) / 2
+  double p_value = 0.0;     // P(chi2(df) > chi2)
 };
 
 // Box (1949) M test of equal covariance matrices in g >= 2 groups with its

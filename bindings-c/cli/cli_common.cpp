@@ -77,8 +77,7 @@ Table read_table(const std::string& path, CsvOptions options, bool keep_fields) 
   t.columns = reader.selected_names();
   for (const auto& c : reader.columns())
     if (c.kind != ColumnKind::numeric) t.skipped.push_back(c.name + ": " + column_kind_text(c));
-  if (t.columns.empty())
-    throw CliError(kExitData, reader.source_name() + ": no numeric columns to use");
+  if (t.columns.empty()) throw CliError(kExitData, reader.source_name() + ": no numeric columns to use");
   CsvChunk chunk;
   while (reader.next_chunk(chunk, 65536)) {
     refuse_infinite_cells(reader, chunk);

@@ -53,10 +53,10 @@ struct DialectFlags {
 
 // A whole table in memory (fitting needs every row).
 struct Table {
-  std::vector<std::string> columns;  // used numeric columns
-  std::vector<std::string> skipped;  // header columns not used, with the reason
-  std::vector<double> values;        // row-major rows x columns.size()
-  std::vector<std::int64_t> lines;   // 1-based file line of each row
+  std::vector<std::string> columns;              // used numeric columns
+  std::vector<std::string> skipped;              // header columns not used, with the reason
+  std::vector<double> values;                    // row-major rows x columns.size()
+  std::vector<std::int64_t> lines;               // 1-based file line of each row
   std::vector<std::vector<std::string>> fields;  // all fields per row (when asked)
   std::vector<std::string> header;
   std::int64_t rows() const { return static_cast<std::int64_t>(lines.size()); }

@@ -42,8 +42,8 @@ Fitted fit_streaming(const FitArgs& a, Progress& progress) {
   CsvChunk chunk;
   while (reader.next_chunk(chunk, 65536)) {
     refuse_infinite_cells(reader, chunk);
-    const auto x = ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()),
-                                            static_cast<int64_t>(chunk.cols()));
+    const auto x =
+        ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()), static_cast<int64_t>(chunk.cols()));
     check(ellipsa_accumulator_add(acc.get(), &x), reader.source_name());
     f.rows_read += static_cast<int64_t>(chunk.rows());
     progress.rows("reading", f.rows_read);
@@ -70,8 +70,8 @@ nlohmann::json fit_summary(const Fitted& f, const std::string& method) {
   const ellipsa_model* m = f.model.get();
   int64_t used = 0, dropped = 0;
   check(ellipsa_model_rows(&used, &dropped, m), "reading the model");
-  nlohmann::json j{{"method", method}, {"rows_read", f.rows_read}, {"rows_used", used},
-                   {"rows_dropped", dropped}, {"columns", f.columns}, {"skipped_columns", f.skipped}};
+  nlohmann::json j{{"method", method},        {"rows_read", f.rows_read}, {"rows_used", used},
+                   {"rows_dropped", dropped}, {"columns", f.columns},     {"skipped_columns", f.skipped}};
   for (const char* name : {"shrinkage_intensity", "h", "consistency_factor", "log_likelihood", "bic", "icl",
                            "iterations", "converged", "log_det"}) {
     double v = 0.0;
@@ -84,7 +84,8 @@ nlohmann::json fit_summary(const Fitted& f, const std::string& method) {
 
 Command add_fit(CLI::App& parent) {
   auto args = std::make_shared<FitArgs>();
-  CLI::App* app = parent.add_subcommand("fit", "Fit a normal profile (location and scatter, or a mixture) to a CSV file");
+  CLI::App* app =
+      parent.add_subcommand("fit", "Fit a normal profile (location and scatter, or a mixture) to a CSV file");
   app->add_option("data", args->data, "CSV file with a header row ('-' reads standard input)")->required();
   app->add_option("-o,--output", args->output, "Model file to write (default: standard output)");
   add_fit_flags(*app, args->fit, true);
@@ -116,7 +117,7 @@ Command add_fit(CLI::App& parent) {
             // A mixture that stopped at its iteration cap is still written; the
             // exit code says it did not converge.
             return warn_not_converged(f.model.get(), "fit", args->data) ? static_cast<int>(kExitNumerical)
-                                                                         : static_cast<int>(kExitOk);
+                                                                        : static_cast<int>(kExitOk);
           }};
 }
 

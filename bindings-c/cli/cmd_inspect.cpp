@@ -14,8 +14,9 @@ Command add_inspect(CLI::App& parent) {
   auto dialect = std::make_shared<DialectFlags>();
   CLI::App* app = parent.add_subcommand("inspect", "Show what a model file holds");
   app->add_option("model", *path, "Model file ('-' reads standard input)")->required();
-  app->add_option("--data", *data,
-                  "The CSV file the model was fitted on: also check whether the rows of the fit look elliptical (Mardia)");
+  app->add_option(
+      "--data", *data,
+      "The CSV file the model was fitted on: also check whether the rows of the fit look elliptical (Mardia)");
   add_dialect_flags(*app, *dialect);
   add_output_flags(*app, *out);
   return {app, [path, out, data, dialect]() {
@@ -28,8 +29,11 @@ Command add_inspect(CLI::App& parent) {
             const auto names = model_columns(m.get());
             std::ostringstream h;
             nlohmann::json j{{"kind", kind == ELLIPSA_KIND_MIXTURE ? "mixture" : "gaussian"},
-                             {"method", ellipsa_method_name(method)}, {"columns", names},
-                             {"rows_used", used}, {"rows_dropped", dropped}, {"components", nlohmann::json::array()}};
+                             {"method", ellipsa_method_name(method)},
+                             {"columns", names},
+                             {"rows_used", used},
+                             {"rows_dropped", dropped},
+                             {"components", nlohmann::json::array()}};
             h << "model: " << ellipsa_method_name(method) << ", " << p << " columns, fitted on " << used << " rows";
             if (dropped > 0) h << " (" << dropped << " dropped for missing cells)";
             h << "\n";

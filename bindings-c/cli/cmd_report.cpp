@@ -58,8 +58,9 @@ std::vector<std::pair<std::string, std::string>> model_facts(const ellipsa_model
   std::vector<std::pair<std::string, std::string>> facts;
   int64_t used = 0, dropped = 0;
   check(ellipsa_model_rows(&used, &dropped, m), "reading the model");
-  facts.emplace_back("fitted on", std::to_string(used) + " rows" +
-                                      (dropped > 0 ? " (" + std::to_string(dropped) + " dropped for missing cells)" : ""));
+  facts.emplace_back("fitted on",
+                     std::to_string(used) + " rows" +
+                         (dropped > 0 ? " (" + std::to_string(dropped) + " dropped for missing cells)" : ""));
   auto diagnostic = [&](const char* name, double& v) { return ellipsa_model_diagnostic(&v, m, name) == ELLIPSA_OK; };
   double v = 0.0;
   if (diagnostic("h", v)) facts.emplace_back("h", number_text(v, "%.0f") + " rows in the core subset");
@@ -140,7 +141,8 @@ Command add_report(CLI::App& parent) {
             in.columns = model_columns(model.get());
             for (const auto& name : a->matrix_columns) {
               const auto it = std::find(in.columns.begin(), in.columns.end(), name);
-              if (it == in.columns.end()) throw CliError(kExitUsage, "--columns: the model has no variable '" + name + "'");
+              if (it == in.columns.end())
+                throw CliError(kExitUsage, "--columns: the model has no variable '" + name + "'");
               in.matrix_columns.push_back(static_cast<std::size_t>(it - in.columns.begin()));
             }
             if (!a->matrix_columns.empty() &&
@@ -155,8 +157,9 @@ Command add_report(CLI::App& parent) {
 
             const auto p = static_cast<std::size_t>(cols.p);
             const auto n = static_cast<std::size_t>(t.rows());
-            in.title = a->title.empty() ? "Screening report: " + (a->data == "-" ? std::string("standard input") : a->data)
-                                        : a->title;
+            in.title = a->title.empty()
+                           ? "Screening report: " + (a->data == "-" ? std::string("standard input") : a->data)
+                           : a->title;
             in.model_file = a->model;
             in.data_file = a->data == "-" ? "standard input" : a->data;
             in.version = ellipsa_version();
@@ -182,7 +185,8 @@ Command add_report(CLI::App& parent) {
             for (std::size_t r = 0; r < n; ++r) {
               ReportRow& row = in.rows[r];
               row.line = t.lines[r];
-              if (id >= 0 && static_cast<std::size_t>(id) < t.fields[r].size()) row.id = t.fields[r][static_cast<std::size_t>(id)];
+              if (id >= 0 && static_cast<std::size_t>(id) < t.fields[r].size())
+                row.id = t.fields[r][static_cast<std::size_t>(id)];
               row.d2 = block.d2[r];
               row.p_value = block.p_value[r];
               row.observed = block.observed[r];
@@ -226,14 +230,19 @@ Command add_report(CLI::App& parent) {
               lines.push_back(row.line);
             }
             std::ostringstream human;
-            human << "report on " << n << " rows: " << flagged << " flagged at level " << a->level << " ("
-                  << in.method << " model)";
+            human << "report on " << n << " rows: " << flagged << " flagged at level " << a->level << " (" << in.method
+                  << " model)";
             if (!in.have_classical) human << "; no distance-distance plot: " << in.classical_note;
             human << "\n";
             if (a->output != "-") human << "report written to " << a->output << "\n";
             emit_summary(a->out, human.str(),
-                         {{"rows", n}, {"flagged", flagged}, {"unscorable", unscorable}, {"level", a->level},
-                          {"method", in.method}, {"flagged_lines", lines}, {"classical_plot", in.have_classical},
+                         {{"rows", n},
+                          {"flagged", flagged},
+                          {"unscorable", unscorable},
+                          {"level", a->level},
+                          {"method", in.method},
+                          {"flagged_lines", lines},
+                          {"classical_plot", in.have_classical},
                           {"output", a->output}});
             return static_cast<int>(kExitOk);
           }};

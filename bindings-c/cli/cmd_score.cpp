@@ -41,91 +41,96 @@ Command add_score(CLI::App& parent) {
   add_digits_flag(*app, a->digits);
   add_dialect_flags(*app, a->dialect);
   add_output_flags(*app, a->out);
-  return {app, [a]() {
-            const int digits = parse_digits(a->digits);
-            const int32_t reference = parse_reference(a->reference);
-            if (a->out.json && a->output == "-")
-              throw CliError(kExitUsage, "--json prints the summary on standard output: give the scores a file with -o");
-            if (!(a->level > 0.0 && a->level < 1.0)) throw CliError(kExitUsage, "--level must lie in (0, 1)");
-            const ModelPtr model = load_model_file(a->model);
-            const ScoreColumns cols = score_columns(model.get());
-            CsvOptions options = a->dialect.to_options();
-            options.columns = model_columns(model.get());
-            options.keep_row_text = true;
-            CsvReader reader(a->data, options);
-            std::vector<std::string> header = reader.header();
-            header.insert(header.end(), cols.names.begin(), cols.names.end());
+  return {
+      app, [a]() {
+        const int digits = parse_digits(a->digits);
+        const int32_t reference = parse_reference(a->reference);
+        if (a->out.json && a->output == "-")
+          throw CliError(kExitUsage, "--json prints the summary on standard output: give the scores a file with -o");
+        if (!(a->level > 0.0 && a->level < 1.0)) throw CliError(kExitUsage, "--level must lie in (0, 1)");
+        const ModelPtr model = load_model_file(a->model);
+        const ScoreColumns cols = score_columns(model.get());
+        CsvOptions options = a->dialect.to_options();
+        options.columns = model_columns(model.get());
+        options.keep_row_text = true;
+        CsvReader reader(a->data, options);
+        std::vector<std::string> header = reader.header();
+        header.insert(header.end(), cols.names.begin(), cols.names.end());
 
-            AtomicOutput out(a->output);
-            CsvWriteOptions wo;
-            wo.name = out.to_stdout() ? std::string("standard output") : out.path();
-            wo.separator = reader.separator();
-            wo.decimal = options.decimal;
-            wo.digits = digits;
-            CsvWriter writer(out.stream(), wo);
-            writer.header(header);
+        AtomicOutput out(a->output);
+        CsvWriteOptions wo;
+        wo.name = out.to_stdout() ? std::string("standard output") : out.path();
+        wo.separator = reader.separator();
+        wo.decimal = options.decimal;
+        wo.digits = digits;
+        CsvWriter writer(out.stream(), wo);
+        writer.header(header);
 
-            CsvChunk chunk;
-            ScoreBlock block;
-            Progress progress(progress_wanted(a->out.quiet || a->out.json));
-            int64_t rows = 0, flagged = 0, unscorable = 0;
-            std::ostringstream first_flags;
-            int listed = 0;
-            while (reader.next_chunk(chunk, kChunkRows)) {
-              refuse_infinite_cells(reader, chunk);
-              const auto x = ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()),
-                                                      static_cast<int64_t>(chunk.cols()));
-              block.score(model.get(), cols, x, a->level, reference);
-              const auto p = static_cast<std::size_t>(cols.p);
-              for (std::size_t r = 0; r < chunk.rows(); ++r) {
-                writer.raw(chunk.row_text(r));
-                if (cols.kind == ELLIPSA_KIND_MIXTURE) {
-                  writer.integer(block.component[r] + 1);
-                  for (int32_t k = 0; k < cols.components; ++k)
-                    writer.number(block.membership[r * static_cast<std::size_t>(cols.components) + static_cast<std::size_t>(k)]);
-                  writer.number(block.log_density[r]).integer(block.low_density[r]);
-                }
-                writer.number(block.d2[r]).number(block.p_value[r]).integer(block.flag[r]).integer(block.observed[r]);
-                for (std::size_t j = 0; j < p; ++j) writer.number(block.contribution[r * p + j]);
-                writer.end_row();
-                const bool is_flagged = block.flag[r] == 1 ||
-                                        (cols.kind == ELLIPSA_KIND_MIXTURE && block.low_density[r] == 1);
-                if (is_flagged) {
-                  ++flagged;
-                  if (listed++ < 20)
-                    first_flags << "  line " << chunk.line(r) << ": squared distance " << block.d2[r]
-                                << "; most from " << top_contributors(block, cols, r, 3) << "\n";
-                }
-                if (block.flag[r] == -1) ++unscorable;
-              }
-              rows += static_cast<int64_t>(chunk.rows());
-              progress.rows("scoring", rows);
+        CsvChunk chunk;
+        ScoreBlock block;
+        Progress progress(progress_wanted(a->out.quiet || a->out.json));
+        int64_t rows = 0, flagged = 0, unscorable = 0;
+        std::ostringstream first_flags;
+        int listed = 0;
+        while (reader.next_chunk(chunk, kChunkRows)) {
+          refuse_infinite_cells(reader, chunk);
+          const auto x = ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()),
+                                                  static_cast<int64_t>(chunk.cols()));
+          block.score(model.get(), cols, x, a->level, reference);
+          const auto p = static_cast<std::size_t>(cols.p);
+          for (std::size_t r = 0; r < chunk.rows(); ++r) {
+            writer.raw(chunk.row_text(r));
+            if (cols.kind == ELLIPSA_KIND_MIXTURE) {
+              writer.integer(block.component[r] + 1);
+              for (int32_t k = 0; k < cols.components; ++k)
+                writer.number(
+                    block.membership[r * static_cast<std::size_t>(cols.components) + static_cast<std::size_t>(k)]);
+              writer.number(block.log_density[r]).integer(block.low_density[r]);
             }
-            progress.finish();
-            if (rows == 0) throw CliError(kExitData, reader.source_name() + ": the file has a header but no data rows");
-            writer.flush();
-            out.commit();
-            std::ostringstream human;
-            const std::string limit = reference_description(model.get(), reference);
-            human << "scored " << rows << " rows; " << flagged << " flagged at level " << a->level << " by the "
-                  << limit;
-            if (unscorable > 0) human << "; " << unscorable << " rows with no observed value";
-            human << "\n" << first_flags.str();
-            if (flagged > 20) human << "  ... and " << flagged - 20 << " more\n";
-            if (a->output != "-") human << "scores written to " << a->output << "\n";
-            ellipsa_method method = ELLIPSA_METHOD_CLASSICAL;
-            check(ellipsa_model_describe(nullptr, &method, nullptr, nullptr, model.get()), "reading the model");
-            if (method == ELLIPSA_METHOD_MRCD)
-              // Measured in docs/calibration.md: 97% of clean new rows flagged at
-              // n = 30, p = 20; no calibrated new-rows reference exists for MRCD.
-              human << "note: an mrcd profile is calibrated on its own fitting rows only; on new rows its flag "
-                       "rate is not calibrated and can be far above the level when rows were few for the "
-                       "columns (docs/calibration.md)\n";
-            emit_summary(a->out, human.str(),
-                         {{"rows", rows}, {"flagged", flagged}, {"unscorable", unscorable},
-                          {"level", a->level}, {"limit", limit}, {"output", a->output}});
-            return a->fail_on_flag && flagged > 0 ? static_cast<int>(kExitFlagged) : static_cast<int>(kExitOk);
-          }};
+            writer.number(block.d2[r]).number(block.p_value[r]).integer(block.flag[r]).integer(block.observed[r]);
+            for (std::size_t j = 0; j < p; ++j) writer.number(block.contribution[r * p + j]);
+            writer.end_row();
+            const bool is_flagged =
+                block.flag[r] == 1 || (cols.kind == ELLIPSA_KIND_MIXTURE && block.low_density[r] == 1);
+            if (is_flagged) {
+              ++flagged;
+              if (listed++ < 20)
+                first_flags << "  line " << chunk.line(r) << ": squared distance " << block.d2[r] << "; most from "
+                            << top_contributors(block, cols, r, 3) << "\n";
+            }
+            if (block.flag[r] == -1) ++unscorable;
+          }
+          rows += static_cast<int64_t>(chunk.rows());
+          progress.rows("scoring", rows);
+        }
+        progress.finish();
+        if (rows == 0) throw CliError(kExitData, reader.source_name() + ": the file has a header but no data rows");
+        writer.flush();
+        out.commit();
+        std::ostringstream human;
+        const std::string limit = reference_description(model.get(), reference);
+        human << "scored " << rows << " rows; " << flagged << " flagged at level " << a->level << " by the " << limit;
+        if (unscorable > 0) human << "; " << unscorable << " rows with no observed value";
+        human << "\n" << first_flags.str();
+        if (flagged > 20) human << "  ... and " << flagged - 20 << " more\n";
+        if (a->output != "-") human << "scores written to " << a->output << "\n";
+        ellipsa_method method = ELLIPSA_METHOD_CLASSICAL;
+        check(ellipsa_model_describe(nullptr, &method, nullptr, nullptr, model.get()), "reading the model");
+        if (method == ELLIPSA_METHOD_MRCD)
+          // Measured in docs/calibration.md: 97% of clean new rows flagged at
+          // n = 30, p = 20; no calibrated new-rows reference exists for MRCD.
+          human << "note: an mrcd profile is calibrated on its own fitting rows only; on new rows its flag "
+                   "rate is not calibrated and can be far above the level when rows were few for the "
+                   "columns (docs/calibration.md)\n";
+        emit_summary(a->out, human.str(),
+                     {{"rows", rows},
+                      {"flagged", flagged},
+                      {"unscorable", unscorable},
+                      {"level", a->level},
+                      {"limit", limit},
+                      {"output", a->output}});
+        return a->fail_on_flag && flagged > 0 ? static_cast<int>(kExitFlagged) : static_cast<int>(kExitOk);
+      }};
 }
 
 }  // namespace ellipsa::cli

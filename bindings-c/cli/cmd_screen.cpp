@@ -101,10 +101,11 @@ Command add_screen(CLI::App& parent) {
               g.rows = rows;
               std::vector<double> values;
               values.reserve(rows.size() * p);
-              for (auto r : rows) values.insert(values.end(), t.values.begin() + static_cast<std::ptrdiff_t>(r * p),
-                                                t.values.begin() + static_cast<std::ptrdiff_t>((r + 1) * p));
-              const auto x = ellipsa_matrix_row_major(values.data(), static_cast<int64_t>(rows.size()),
-                                                      static_cast<int64_t>(p));
+              for (auto r : rows)
+                values.insert(values.end(), t.values.begin() + static_cast<std::ptrdiff_t>(r * p),
+                              t.values.begin() + static_cast<std::ptrdiff_t>((r + 1) * p));
+              const auto x =
+                  ellipsa_matrix_row_major(values.data(), static_cast<int64_t>(rows.size()), static_cast<int64_t>(p));
               Progress progress(progress_wanted(a->out.quiet || a->out.json));
               const auto fit_options = make_fit_options(a->fit, t.columns, &progress);
               ellipsa_model* raw = nullptr;
@@ -146,13 +147,16 @@ Command add_screen(CLI::App& parent) {
             }
 
             std::ostringstream human;
-            nlohmann::json machine{{"method", a->fit.method}, {"level", a->level}, {"rows", t.rows()},
-                                   {"columns", t.columns}, {"groups", nlohmann::json::array()}};
+            nlohmann::json machine{{"method", a->fit.method},
+                                   {"level", a->level},
+                                   {"rows", t.rows()},
+                                   {"columns", t.columns},
+                                   {"groups", nlohmann::json::array()}};
             int64_t total_flagged = 0;
             bool not_converged = false;
             machine["reference"] = a->reference;
-            human << "screened " << t.rows() << " rows on " << p << " columns with " << a->fit.method
-                  << " at level " << a->level << (a->by.empty() ? "" : ", per " + a->by) << "\n";
+            human << "screened " << t.rows() << " rows on " << p << " columns with " << a->fit.method << " at level "
+                  << a->level << (a->by.empty() ? "" : ", per " + a->by) << "\n";
             for (const auto& g : groups) {
               int64_t used = 0, dropped = 0;
               check(ellipsa_model_rows(&used, &dropped, g.model.get()), "reading the model");
@@ -165,16 +169,24 @@ Command add_screen(CLI::App& parent) {
                 const std::string top = top_contributors(g.block, g.cols, k, 3);
                 lines << "    line " << t.lines[r] << " (" << who << "): squared distance " << g.block.d2[k]
                       << "; most from " << top << "\n";
-                flagged.push_back({{"line", t.lines[r]}, {"row", r + 1}, {"id", who}, {"sq_distance", g.block.d2[k]},
-                                   {"p_value", g.block.p_value[k]}, {"top", top}});
+                flagged.push_back({{"line", t.lines[r]},
+                                   {"row", r + 1},
+                                   {"id", who},
+                                   {"sq_distance", g.block.d2[k]},
+                                   {"p_value", g.block.p_value[k]},
+                                   {"top", top}});
               }
               total_flagged += static_cast<int64_t>(flagged.size());
               human << "  " << (a->by.empty() ? "" : a->by + " = ") << g.name << ": " << used << " rows used";
-              if (dropped > 0) human << " (" << dropped << " with missing cells left out of the fit, scored on observed cells)";
+              if (dropped > 0)
+                human << " (" << dropped << " with missing cells left out of the fit, scored on observed cells)";
               const std::string limit = reference_description(g.model.get(), reference);
               human << ", " << flagged.size() << " flagged by the " << limit << "\n" << lines.str();
-              machine["groups"].push_back({{"group", g.name}, {"rows_used", used}, {"rows_dropped", dropped},
-                                           {"limit", limit}, {"flagged", flagged}});
+              machine["groups"].push_back({{"group", g.name},
+                                           {"rows_used", used},
+                                           {"rows_dropped", dropped},
+                                           {"limit", limit},
+                                           {"flagged", flagged}});
               if (warn_not_converged(g.model.get(), "screen",
                                      a->by.empty() ? a->data : a->data + ", " + a->by + " = " + g.name)) {
                 not_converged = true;

@@ -37,11 +37,11 @@ struct FitFlags {
   int restarts = 5;
   std::string divisor = "n-1";
   std::string missing = "drop";
-  std::string small_sample = "on";  // mcd, detmcd: small-sample factors on|off
+  std::string small_sample = "on";     // mcd, detmcd: small-sample factors on|off
   std::string consistency = "normal";  // mcd, detmcd: raw scatter scaling, normal|median
-  std::string reference;            // fit: scoring reference recorded in the model ("" = library default)
-  int max_iterations = 500;         // mixture: EM iteration cap (the library's documented default)
-  double tolerance = 1e-6;          // mixture: relative log-likelihood change (the library's documented default)
+  std::string reference;               // fit: scoring reference recorded in the model ("" = library default)
+  int max_iterations = 500;            // mixture: EM iteration cap (the library's documented default)
+  double tolerance = 1e-6;             // mixture: relative log-likelihood change (the library's documented default)
   // The flags the user gave: only those are passed to the library, whose own
   // defaults (and its refusal of settings a method does not use) then apply.
   CLI::Option* alpha_flag = nullptr;
@@ -58,8 +58,7 @@ struct FitFlags {
 };
 void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method);
 // progress, when given and enabled, receives the fit's progress reports.
-OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& columns,
-                            Progress* progress = nullptr);
+OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& columns, Progress* progress = nullptr);
 // A mixture whose chosen EM run stopped at its iteration cap: prints a warning
 // on stderr ("ellipsa <command>: warning: <what>: ...") and returns true, so
 // the command can exit with kExitNumerical after writing its outputs. False
@@ -90,8 +89,7 @@ struct ScoreBlock {
   std::vector<double> d2, p_value, contribution, membership, log_density;
   std::vector<int32_t> flag, observed, component, low_density;
   // reference: an ELLIPSA_REFERENCE_ value (ELLIPSA_REFERENCE_MODEL: the model's own).
-  void score(const ellipsa_model* m, const ScoreColumns& c, const ellipsa_matrix& x, double level,
-             int32_t reference);
+  void score(const ellipsa_model* m, const ScoreColumns& c, const ellipsa_matrix& x, double level, int32_t reference);
 };
 
 // --reference NAME for scoring (model, chi2, new-rows, fitting-rows); the

@@ -50,10 +50,10 @@ void add_fit_flags(CLI::App& app, FitFlags& f, bool with_method) {
   f.structure_flag =
       app.add_option("--structure", f.structure, "Mixture covariance: full, diagonal, tied, spherical or all")
           ->capture_default_str();
-  f.restarts_flag = app.add_option("--restarts", f.restarts, "Mixture: EM runs from different starts")
-                        ->capture_default_str();
-  f.divisor_flag = app.add_option("--divisor", f.divisor, "Classical covariance divisor: n or n-1")
-                       ->capture_default_str();
+  f.restarts_flag =
+      app.add_option("--restarts", f.restarts, "Mixture: EM runs from different starts")->capture_default_str();
+  f.divisor_flag =
+      app.add_option("--divisor", f.divisor, "Classical covariance divisor: n or n-1")->capture_default_str();
   if (with_method)
     f.small_sample_flag = app.add_option("--small-sample", f.small_sample,
                                          "mcd, detmcd: small-sample factors of the scatter, on or off "
@@ -96,7 +96,8 @@ namespace {
 int32_t parse_int(const std::string& s, const char* what) {
   int32_t v = 0;
   auto [p, ec] = std::from_chars(s.data(), s.data() + s.size(), v);
-  if (ec != std::errc() || p != s.data() + s.size()) throw CliError(kExitUsage, std::string(what) + ": '" + s + "' is not a whole number");
+  if (ec != std::errc() || p != s.data() + s.size())
+    throw CliError(kExitUsage, std::string(what) + ": '" + s + "' is not a whole number");
   return v;
 }
 }  // namespace
@@ -127,8 +128,7 @@ OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& c
   if (given(f.components_flag) || (mixture && f.components_default)) {
     const auto dash = f.components.find('-');
     const int32_t kmin = parse_int(f.components.substr(0, dash), "--components");
-    const int32_t kmax =
-        dash == std::string::npos ? kmin : parse_int(f.components.substr(dash + 1), "--components");
+    const int32_t kmax = dash == std::string::npos ? kmin : parse_int(f.components.substr(dash + 1), "--components");
     check(ellipsa_fit_options_set_components(o.get(), kmin, kmax), "--components");
   }
   if (given(f.structure_flag) || (mixture && f.components_default)) {
@@ -141,19 +141,21 @@ OptionsPtr make_fit_options(const FitFlags& f, const std::vector<std::string>& c
   if (given(f.iterations_flag) || given(f.tolerance_flag)) {
     // One setter takes both; the one not given keeps its default.
     if (f.max_iterations < 1) throw CliError(kExitUsage, "--max-iterations must be at least 1");
-    if (!(f.tolerance > 0.0 && f.tolerance < HUGE_VAL)) throw CliError(kExitUsage, "--tolerance must be a positive number");
+    if (!(f.tolerance > 0.0 && f.tolerance < HUGE_VAL))
+      throw CliError(kExitUsage, "--tolerance must be a positive number");
     check(ellipsa_fit_options_set_iterations(o.get(), f.max_iterations, f.tolerance),
           given(f.iterations_flag) ? "--max-iterations" : "--tolerance");
   }
   if (given(f.small_sample_flag)) {
-    if (f.small_sample != "on" && f.small_sample != "off") throw CliError(kExitUsage, "--small-sample must be on or off");
+    if (f.small_sample != "on" && f.small_sample != "off")
+      throw CliError(kExitUsage, "--small-sample must be on or off");
     check(ellipsa_fit_options_set_small_sample(o.get(), f.small_sample == "on" ? 1 : 0), "--small-sample");
   }
   if (given(f.consistency_flag)) {
     if (f.consistency != "normal" && f.consistency != "median")
       throw CliError(kExitUsage, "--consistency must be normal or median");
-    check(ellipsa_fit_options_set_consistency(o.get(), f.consistency == "median" ? ELLIPSA_CONSISTENCY_MEDIAN
-                                                                                : ELLIPSA_CONSISTENCY_NORMAL),
+    check(ellipsa_fit_options_set_consistency(
+              o.get(), f.consistency == "median" ? ELLIPSA_CONSISTENCY_MEDIAN : ELLIPSA_CONSISTENCY_NORMAL),
           "--consistency");
   }
   if (!f.reference.empty()) {

@@ -28,8 +28,8 @@ int main(int argc, char** argv) {
   app.set_version_flag("--version", std::string("ellipsa ") + ellipsa_version());
   app.require_subcommand(0, 1);
   app.footer(kExitCodes);
-  std::vector<Command> commands{add_fit(app), add_score(app), add_screen(app), add_cluster(app), add_inspect(app), add_report(app),
-                                add_compare(app)};
+  std::vector<Command> commands{add_fit(app),     add_score(app),  add_screen(app), add_cluster(app),
+                                add_inspect(app), add_report(app), add_compare(app)};
   // --threads on every subcommand: the library's thread count for fitting and
   // scoring, handed over as ELLIPSA_THREADS (the library's default rule), so
   // every call of this process uses it. Results do not depend on it.

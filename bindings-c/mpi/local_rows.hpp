@@ -14,7 +14,7 @@ namespace ellipsa::mpi {
 struct LocalRows {
   std::vector<double> values;  // row-major, complete rows only
   int64_t p = 0;
-  int64_t dropped = 0;         // rows with a missing value, not kept
+  int64_t dropped = 0;  // rows with a missing value, not kept
   int64_t rows() const { return p > 0 ? static_cast<int64_t>(values.size()) / p : 0; }
   ellipsa_matrix view() const { return ellipsa_matrix_row_major(values.data(), rows(), p); }
 };

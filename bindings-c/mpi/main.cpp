@@ -44,10 +44,12 @@ int main(int argc, char** argv) {
   fit_app->add_option("-o,--output", fit.output, "Model file to write (rank 0)")->required();
   cli::add_fit_flags(*fit_app, fit.fit, true);
   fit_app->add_option("--reference", fit.fit.reference, "Scoring reference recorded in the model (as ellipsa fit)");
-  fit_app->add_option("--start", fit.start,
-                      "mixture, mcd: start from this model file (read by rank 0) instead of a fit on a gathered sample");
-  fit_app->add_option("--sample-rows", fit.sample_rows,
-                      "mixture, mcd: rows gathered on rank 0 (evenly from every rank) to choose the start")
+  fit_app->add_option(
+      "--start", fit.start,
+      "mixture, mcd: start from this model file (read by rank 0) instead of a fit on a gathered sample");
+  fit_app
+      ->add_option("--sample-rows", fit.sample_rows,
+                   "mixture, mcd: rows gathered on rank 0 (evenly from every rank) to choose the start")
       ->capture_default_str()
       ->check(CLI::Range(int64_t{2}, int64_t{100000000}));
   add_common(*fit_app, fit.common);
@@ -55,8 +57,9 @@ int main(int argc, char** argv) {
   mpi::ScoreArgs score;
   CLI::App* score_app = app.add_subcommand("score", "Score every rank's rows; each rank writes its own part");
   score_app->add_option("model", score.model, "Model file (read by rank 0 and sent to every rank)")->required();
-  score_app->add_option("--output-dir", score.output_dir,
-                        "Folder for scores-rank-R.csv of each rank and summary.json (rank 0)")
+  score_app
+      ->add_option("--output-dir", score.output_dir,
+                   "Folder for scores-rank-R.csv of each rank and summary.json (rank 0)")
       ->required();
   score_app->add_option("--level", score.level, "Flag level")->capture_default_str();
   score_app->add_option("--reference", score.reference, "model, chi2, new-rows or fitting-rows")->capture_default_str();

@@ -19,7 +19,8 @@ using AccPtr = std::unique_ptr<ellipsa_accumulator, AccumulatorDeleter>;
 
 AccPtr load(const std::string& bytes) {
   ellipsa_accumulator* a = nullptr;
-  cli::check(ellipsa_accumulator_load(&a, bytes.data(), static_cast<int64_t>(bytes.size())), "reading accumulator bytes");
+  cli::check(ellipsa_accumulator_load(&a, bytes.data(), static_cast<int64_t>(bytes.size())),
+             "reading accumulator bytes");
   return AccPtr(a);
 }
 
@@ -46,8 +47,8 @@ void fit_streaming(Comm& comm, const FitArgs& a, const std::vector<std::string>&
     read_part(part, part_options(a.common, columns), comm.rank(), comm.size(),
               [&](const cli::CsvChunk& chunk, std::size_t first, std::size_t count, const std::string& file,
                   cli::CsvReader&) {
-                const auto x = ellipsa_matrix_row_major(chunk.data() + first * chunk.cols(),
-                                                        static_cast<int64_t>(count), p);
+                const auto x =
+                    ellipsa_matrix_row_major(chunk.data() + first * chunk.cols(), static_cast<int64_t>(count), p);
                 cli::check(ellipsa_accumulator_add(acc.get(), &x), file);
                 report.rows_read += static_cast<int64_t>(count);
               });
@@ -57,11 +58,14 @@ void fit_streaming(Comm& comm, const FitArgs& a, const std::vector<std::string>&
   const int64_t before = comm.bytes_sent();
   std::string merged;
   step(comm, [&] {
-    merged = comm.tree_reduce(save(acc.get()), [](std::string& into, const std::string& from) {
-      AccPtr x = load(into), y = load(from);
-      cli::check(ellipsa_accumulator_merge(x.get(), y.get()), "merging accumulators");
-      into = save(x.get());
-    }, "merging accumulators");
+    merged = comm.tree_reduce(
+        save(acc.get()),
+        [](std::string& into, const std::string& from) {
+          AccPtr x = load(into), y = load(from);
+          cli::check(ellipsa_accumulator_merge(x.get(), y.get()), "merging accumulators");
+          into = save(x.get());
+        },
+        "merging accumulators");
   });
   report.reduce_seconds = seconds_since(t);
   report.bytes_per_reduction = comm.sum(comm.bytes_sent() - before, "counting bytes");

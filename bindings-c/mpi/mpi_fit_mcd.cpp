@@ -41,7 +41,8 @@ AccPtr new_accumulator(int64_t p) {
 
 AccPtr load(const std::string& bytes) {
   ellipsa_accumulator* a = nullptr;
-  cli::check(ellipsa_accumulator_load(&a, bytes.data(), static_cast<int64_t>(bytes.size())), "reading accumulator bytes");
+  cli::check(ellipsa_accumulator_load(&a, bytes.data(), static_cast<int64_t>(bytes.size())),
+             "reading accumulator bytes");
   return AccPtr(a);
 }
 
@@ -55,11 +56,14 @@ std::string save(const ellipsa_accumulator* a) {
 }
 
 std::string reduce(Comm& comm, const ellipsa_accumulator* a, const char* what) {
-  return comm.tree_reduce(save(a), [](std::string& into, const std::string& from) {
-    AccPtr x = load(into), y = load(from);
-    cli::check(ellipsa_accumulator_merge(x.get(), y.get()), "merging accumulators");
-    into = save(x.get());
-  }, what);
+  return comm.tree_reduce(
+      save(a),
+      [](std::string& into, const std::string& from) {
+        AccPtr x = load(into), y = load(from);
+        cli::check(ellipsa_accumulator_merge(x.get(), y.get()), "merging accumulators");
+        into = save(x.get());
+      },
+      what);
 }
 
 cli::ModelPtr model_from_text(const std::string& text) {
@@ -120,7 +124,8 @@ std::string mcd_start_text(Comm& comm, const FitArgs& a, const std::vector<std::
     int64_t count = 0;
     cli::check(ellipsa_model_row_set(nullptr, 0, &count, fit.get(), ELLIPSA_ROWS_H_SUBSET), "the sample's subset");
     std::vector<int64_t> rows(static_cast<std::size_t>(count));
-    cli::check(ellipsa_model_row_set(rows.data(), count, &count, fit.get(), ELLIPSA_ROWS_H_SUBSET), "the sample's subset");
+    cli::check(ellipsa_model_row_set(rows.data(), count, &count, fit.get(), ELLIPSA_ROWS_H_SUBSET),
+               "the sample's subset");
     AccPtr acc = new_accumulator(sample.p);
     for (int64_t r : rows) {
       const ellipsa_matrix one = ellipsa_matrix_row_major(sample.values.data() + r * sample.p, 1, sample.p);
@@ -172,8 +177,7 @@ void fit_mcd_mpi(Comm& comm, const FitArgs& a, const std::vector<std::string>& c
     step(comm, [&] {
       acc = new_accumulator(p);
       const ellipsa_matrix x = local.view();
-      cli::check(ellipsa_accumulator_add_within(acc.get(), &x, d2.data(), std::nextafter(cut, -1.0), &below),
-                 "C-step");
+      cli::check(ellipsa_accumulator_add_within(acc.get(), &x, d2.data(), std::nextafter(cut, -1.0), &below), "C-step");
       for (int64_t i = 0; i < local.rows(); ++i) {
         inside[static_cast<std::size_t>(i)] = d2[static_cast<std::size_t>(i)] <= cut;
         if (d2[static_cast<std::size_t>(i)] == cut) {
@@ -207,7 +211,8 @@ void fit_mcd_mpi(Comm& comm, const FitArgs& a, const std::vector<std::string>& c
           }
         std::sort(rows.begin(), rows.end());
         std::vector<double> take;
-        for (int64_t i = 0; i < need; ++i) take.insert(take.end(), rows[static_cast<std::size_t>(i)].begin(), rows[static_cast<std::size_t>(i)].end());
+        for (int64_t i = 0; i < need; ++i)
+          take.insert(take.end(), rows[static_cast<std::size_t>(i)].begin(), rows[static_cast<std::size_t>(i)].end());
         const ellipsa_matrix x = ellipsa_matrix_row_major(take.data(), need, p);
         cli::check(ellipsa_accumulator_add(acc.get(), &x), "C-step ties");
       });

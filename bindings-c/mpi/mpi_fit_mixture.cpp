@@ -118,18 +118,20 @@ void fit_mixture_mpi(Comm& comm, const FitArgs& a, const std::vector<std::string
       mine = save(stats.get());
     });
     step(comm, [&] {
-      merged = comm.tree_reduce(std::move(mine), [&](std::string& into, const std::string& from) {
-        StatsPtr u = load(into, parameters.get()), v = load(from, parameters.get());
-        cli::check(ellipsa_em_statistics_merge(u.get(), v.get()), "merging EM statistics");
-        into = save(u.get());
-      }, "merging EM statistics");
+      merged = comm.tree_reduce(
+          std::move(mine),
+          [&](std::string& into, const std::string& from) {
+            StatsPtr u = load(into, parameters.get()), v = load(from, parameters.get());
+            cli::check(ellipsa_em_statistics_merge(u.get(), v.get()), "merging EM statistics");
+            into = save(u.get());
+          },
+          "merging EM statistics");
     });
     std::string next;
     step(comm, [&] {
       if (comm.rank() != 0) return;
       double ll = 0.0;
-      cli::check(ellipsa_em_statistics_summary(&ll, nullptr, nullptr, load(merged, parameters.get()).get()),
-                 "E-step");
+      cli::check(ellipsa_em_statistics_summary(&ll, nullptr, nullptr, load(merged, parameters.get()).get()), "E-step");
       if (m_steps >= 2 && std::abs(ll - previous) <= tolerance * std::abs(ll)) converged = true;
       previous = ll;
       if (converged || m_steps > max_iterations) return;  // empty text: stop
@@ -168,8 +170,8 @@ void fit_mixture_mpi(Comm& comm, const FitArgs& a, const std::vector<std::string
   step(comm, [&] {
     if (comm.rank() != 0) return;
     ellipsa_model* m = nullptr;
-    cli::check(ellipsa_em_statistics_model(&m, load(merged, parameters.get()).get(), cutoff, converged ? 1 : 0,
-                                           m_steps, options.get()),
+    cli::check(ellipsa_em_statistics_model(&m, load(merged, parameters.get()).get(), cutoff, converged ? 1 : 0, m_steps,
+                                           options.get()),
                "making the model");
     report.model.reset(m);
   });

@@ -65,66 +65,71 @@ int run_score(Comm& comm, const ScoreArgs& a) {
     std::vector<std::string> first_header;
     std::string first_file;
     cli::ScoreBlock block;
-    read_part(part, options, comm.rank(), comm.size(),
-              [&](const cli::CsvChunk& chunk, std::size_t first, std::size_t count, const std::string& file,
-                  cli::CsvReader& reader) {
-                if (!writer) {
-                  first_header = reader.header();
-                  first_file = file;
-                  std::vector<std::string> header = first_header;
-                  header.insert(header.end(), cols.names.begin(), cols.names.end());
-                  out = std::make_unique<cli::AtomicOutput>(path);
-                  cli::CsvWriteOptions wo;
-                  wo.separator = reader.separator();
-                  wo.decimal = options.decimal;
-                  wo.digits = digits;
-                  writer = std::make_unique<cli::CsvWriter>(out->stream(), wo);
-                  writer->header(header);
-                } else if (reader.header() != first_header) {
-                  throw cli::CliError(cli::kExitData, file + ": its header differs from that of " + first_file +
-                                                          " (one output per rank needs one header)");
-                }
-                const auto x = ellipsa_matrix_row_major(chunk.data() + first * chunk.cols(),
-                                                        static_cast<int64_t>(count), cols.p);
-                block.score(model.get(), cols, x, a.level, reference);
-                const auto p = static_cast<std::size_t>(cols.p);
-                for (std::size_t r = 0; r < count; ++r) {
-                  writer->raw(chunk.row_text(first + r));
-                  if (cols.kind == ELLIPSA_KIND_MIXTURE) {
-                    writer->integer(block.component[r] + 1);
-                    for (int32_t k = 0; k < cols.components; ++k)
-                      writer->number(block.membership[r * static_cast<std::size_t>(cols.components) +
-                                                      static_cast<std::size_t>(k)]);
-                    writer->number(block.log_density[r]).integer(block.low_density[r]);
-                  }
-                  writer->number(block.d2[r]).number(block.p_value[r]).integer(block.flag[r]).integer(block.observed[r]);
-                  for (std::size_t j = 0; j < p; ++j) writer->number(block.contribution[r * p + j]);
-                  writer->end_row();
-                  if (block.flag[r] == 1 || (cols.kind == ELLIPSA_KIND_MIXTURE && block.low_density[r] == 1))
-                    ++s.flagged;
-                  if (block.flag[r] == -1) ++s.unscorable;
-                }
-                s.rows += static_cast<int64_t>(count);
-              });
+    read_part(
+        part, options, comm.rank(), comm.size(),
+        [&](const cli::CsvChunk& chunk, std::size_t first, std::size_t count, const std::string& file,
+            cli::CsvReader& reader) {
+          if (!writer) {
+            first_header = reader.header();
+            first_file = file;
+            std::vector<std::string> header = first_header;
+            header.insert(header.end(), cols.names.begin(), cols.names.end());
+            out = std::make_unique<cli::AtomicOutput>(path);
+            cli::CsvWriteOptions wo;
+            wo.separator = reader.separator();
+            wo.decimal = options.decimal;
+            wo.digits = digits;
+            writer = std::make_unique<cli::CsvWriter>(out->stream(), wo);
+            writer->header(header);
+          } else if (reader.header() != first_header) {
+            throw cli::CliError(cli::kExitData, file + ": its header differs from that of " + first_file +
+                                                    " (one output per rank needs one header)");
+          }
+          const auto x =
+              ellipsa_matrix_row_major(chunk.data() + first * chunk.cols(), static_cast<int64_t>(count), cols.p);
+          block.score(model.get(), cols, x, a.level, reference);
+          const auto p = static_cast<std::size_t>(cols.p);
+          for (std::size_t r = 0; r < count; ++r) {
+            writer->raw(chunk.row_text(first + r));
+            if (cols.kind == ELLIPSA_KIND_MIXTURE) {
+              writer->integer(block.component[r] + 1);
+              for (int32_t k = 0; k < cols.components; ++k)
+                writer->number(
+                    block.membership[r * static_cast<std::size_t>(cols.components) + static_cast<std::size_t>(k)]);
+              writer->number(block.log_density[r]).integer(block.low_density[r]);
+            }
+            writer->number(block.d2[r]).number(block.p_value[r]).integer(block.flag[r]).integer(block.observed[r]);
+            for (std::size_t j = 0; j < p; ++j) writer->number(block.contribution[r * p + j]);
+            writer->end_row();
+            if (block.flag[r] == 1 || (cols.kind == ELLIPSA_KIND_MIXTURE && block.low_density[r] == 1)) ++s.flagged;
+            if (block.flag[r] == -1) ++s.unscorable;
+          }
+          s.rows += static_cast<int64_t>(count);
+        });
     if (writer) writer->flush();
   });
   // Every rank scored its rows: the parts become visible.
   step(comm, [&] {
     if (out) out->commit();
   });
-  nlohmann::json mine{{"rank", comm.rank()}, {"files", part.files}, {"rows", s.rows}, {"flagged", s.flagged},
-                      {"unscorable", s.unscorable}, {"output", out ? path : std::string()}};
+  nlohmann::json mine{{"rank", comm.rank()},  {"files", part.files},        {"rows", s.rows},
+                      {"flagged", s.flagged}, {"unscorable", s.unscorable}, {"output", out ? path : std::string()}};
   if (part.split_rows) mine["data_rows"] = {part.first_row, part.end_row};
   const auto parts = comm.gather(mine.dump(), "gathering the summaries");
   step(comm, [&] {
     if (comm.rank() != 0) return;
-    nlohmann::json summary{{"model", a.model}, {"level", a.level},
+    nlohmann::json summary{{"model", a.model},
+                           {"level", a.level},
                            {"limit", cli::reference_description(model.get(), reference)},
-                           {"ranks", comm.size()}, {"rows", 0}, {"flagged", 0}, {"unscorable", 0},
+                           {"ranks", comm.size()},
+                           {"rows", 0},
+                           {"flagged", 0},
+                           {"unscorable", 0},
                            {"parts", nlohmann::json::array()}};
     for (const auto& t : parts) {
       auto j = nlohmann::json::parse(t);
-      for (const char* k : {"rows", "flagged", "unscorable"}) summary[k] = summary[k].get<int64_t>() + j[k].get<int64_t>();
+      for (const char* k : {"rows", "flagged", "unscorable"})
+        summary[k] = summary[k].get<int64_t>() + j[k].get<int64_t>();
       summary["parts"].push_back(j);
     }
     summary["seconds"] = seconds_since(start);

@@ -39,8 +39,7 @@ void read_part(Part& part, const cli::CsvOptions& options, int rank, int ranks, 
   while (at < part.end_row && reader.next_chunk(chunk, kChunkRows)) {
     const auto rows = static_cast<std::int64_t>(chunk.rows());
     const std::int64_t lo = std::max(at, part.first_row), hi = std::min(at + rows, part.end_row);
-    if (lo < hi)
-      visit(chunk, static_cast<std::size_t>(lo - at), static_cast<std::size_t>(hi - lo), file, reader);
+    if (lo < hi) visit(chunk, static_cast<std::size_t>(lo - at), static_cast<std::size_t>(hi - lo), file, reader);
     at += rows;
   }
 }

@@ -55,10 +55,10 @@ class AtomicOutput {
 
  private:
   std::string path_;
-  std::string target_;     ///< path_ with a final symbolic link resolved
+  std::string target_;  ///< path_ with a final symbolic link resolved
   std::string temp_path_;
   std::FILE* file_ = nullptr;
-  int slot_ = -1;          ///< entry in the signal-cleanup registry
+  int slot_ = -1;  ///< entry in the signal-cleanup registry
   bool to_stdout_ = false;
   bool committed_ = false;
 };

@@ -37,16 +37,27 @@ std::size_t invalid_utf8_offset(std::string_view s) {
     const unsigned c = b[i];
     std::size_t len = 0;
     unsigned lo = 0x80, hi = 0xBF;
-    if (c < 0x80) { ++i; continue; }
+    if (c < 0x80) {
+      ++i;
+      continue;
+    }
     if (c >= 0xC2 && c <= 0xDF) len = 2;
-    else if (c == 0xE0) { len = 3; lo = 0xA0; }
-    else if (c >= 0xE1 && c <= 0xEC) len = 3;
-    else if (c == 0xED) { len = 3; hi = 0x9F; }
-    else if (c >= 0xEE && c <= 0xEF) len = 3;
-    else if (c == 0xF0) { len = 4; lo = 0x90; }
-    else if (c >= 0xF1 && c <= 0xF3) len = 4;
-    else if (c == 0xF4) { len = 4; hi = 0x8F; }
-    else return i;
+    else if (c == 0xE0) {
+      len = 3;
+      lo = 0xA0;
+    } else if (c >= 0xE1 && c <= 0xEC) len = 3;
+    else if (c == 0xED) {
+      len = 3;
+      hi = 0x9F;
+    } else if (c >= 0xEE && c <= 0xEF) len = 3;
+    else if (c == 0xF0) {
+      len = 4;
+      lo = 0x90;
+    } else if (c >= 0xF1 && c <= 0xF3) len = 4;
+    else if (c == 0xF4) {
+      len = 4;
+      hi = 0x8F;
+    } else return i;
     if (i + len > s.size()) return i;
     if (b[i + 1] < lo || b[i + 1] > hi) return i;
     for (std::size_t k = 2; k < len; ++k)
@@ -56,9 +67,7 @@ std::size_t invalid_utf8_offset(std::string_view s) {
   return std::string_view::npos;
 }
 
-std::string separator_name(char c) {
-  return c == '\t' ? std::string("tab") : "'" + std::string(1, c) + "'";
-}
+std::string separator_name(char c) { return c == '\t' ? std::string("tab") : "'" + std::string(1, c) + "'"; }
 
 // Counts each candidate separator outside quotes (a quote opens a quoted field
 // only at the start of a field, where any candidate may have ended the last one).
@@ -139,8 +148,7 @@ CsvReader::CsvReader(CsvSource source, CsvOptions options)
       record_(std::make_unique<detail::CsvRecord>()),
       blank_(std::make_unique<detail::CsvRecord>()) {
   const char s = options_.separator;
-  if (s != 0 && s != ',' && s != ';' && s != '\t')
-    throw std::invalid_argument("CSV separator must be ',', ';' or tab");
+  if (s != 0 && s != ',' && s != ';' && s != '\t') throw std::invalid_argument("CSV separator must be ',', ';' or tab");
   if (options_.decimal != '.' && options_.decimal != ',')
     throw std::invalid_argument("decimal mark must be '.' or ','");
   if (options_.decimal == ',' && s == ',')
@@ -148,8 +156,7 @@ CsvReader::CsvReader(CsvSource source, CsvOptions options)
   if (options_.detect_rows == 0) throw std::invalid_argument("detect_rows must be at least 1");
   if (options_.buffer_size == 0) throw std::invalid_argument("buffer_size must be at least 1");
   if (options_.max_record_bytes == 0) throw std::invalid_argument("max_record_bytes must be at least 1");
-  stream_ = std::make_unique<detail::RecordStream>(std::move(source), options_.buffer_size,
-                                                   options_.max_record_bytes);
+  stream_ = std::make_unique<detail::RecordStream>(std::move(source), options_.buffer_size, options_.max_record_bytes);
   blank_->fields.assign(1, std::string_view());
 }
 
@@ -165,9 +172,9 @@ void CsvReader::fail(std::int64_t line, std::size_t column, const std::string& m
 
 const std::vector<std::string>& CsvReader::header() {
   if (header_read_) return header_;
-  std::string candidates = options_.separator != 0 ? std::string(1, options_.separator)
-                           : options_.decimal == ','  ? std::string(";\t")
-                                                      : std::string(",;\t");
+  std::string candidates = options_.separator != 0   ? std::string(1, options_.separator)
+                           : options_.decimal == ',' ? std::string(";\t")
+                                                     : std::string(",;\t");
   stream_->set_separators(candidates);
   detail::RecordStream::Mark start{};
   do {
@@ -195,12 +202,11 @@ const std::vector<std::string>& CsvReader::header() {
   for (std::size_t j = 0; j < header_.size(); ++j) {
     const std::size_t bad = invalid_utf8_offset(header_[j]);
     if (bad != std::string_view::npos)
-      fail(line, j + 1, "the column name is not valid UTF-8 (byte " + std::to_string(bad + 1) +
-                            "); save the file as UTF-8");
+      fail(line, j + 1,
+           "the column name is not valid UTF-8 (byte " + std::to_string(bad + 1) + "); save the file as UTF-8");
     if (header_[j].empty()) continue;
     const auto [it, inserted] = seen.emplace(header_[j], j);
-    if (!inserted)
-      fail(line, j + 1, "duplicate column name (also column " + std::to_string(it->second + 1) + ")");
+    if (!inserted) fail(line, j + 1, "duplicate column name (also column " + std::to_string(it->second + 1) + ")");
   }
   header_read_ = true;
   stream_->set_column_names(&header_);
@@ -261,8 +267,7 @@ void CsvReader::append_row(CsvChunk& chunk, std::int64_t line, std::string_view 
     const std::size_t j = selected_[k];
     if (parse_cell(fields[j], options_.decimal, out[k]) == CellValue::invalid) {
       double ignored = 0;
-      const bool comma_hint = options_.decimal == '.' &&
-                              parse_cell(fields[j], ',', ignored) == CellValue::number;
+      const bool comma_hint = options_.decimal == '.' && parse_cell(fields[j], ',', ignored) == CellValue::number;
       fail(line, j + 1,
            "cannot read '" + shown_cell(fields[j]) + "' as a number" +
                (comma_hint ? " (decimal comma? choose the decimal-comma option)" : ""));
@@ -303,8 +308,9 @@ void CsvReader::detect() {
       if (header_[j] == name) return j;
     std::string known;
     for (std::size_t j = 0; j < header_.size() && j < 20; ++j) known += (j ? ", " : "") + header_[j];
-    fail(0, 0, std::string("no column named \"") + name + "\" (" + role + "); the header has: " + known +
-                   (header_.size() > 20 ? ", ..." : ""));
+    fail(0, 0,
+         std::string("no column named \"") + name + "\" (" + role + "); the header has: " + known +
+             (header_.size() > 20 ? ", ..." : ""));
   };
 
   if (!options_.columns.empty()) {
@@ -316,7 +322,8 @@ void CsvReader::detect() {
       selected_.push_back(j);
     }
   } else {
-    for (const std::string& name : options_.exclude) columns_[find_column(name, "to exclude")].kind = ColumnKind::excluded;
+    for (const std::string& name : options_.exclude)
+      columns_[find_column(name, "to exclude")].kind = ColumnKind::excluded;
     for (std::size_t j = 0; j < header_.size(); ++j) {
       ColumnInfo& c = columns_[j];
       if (c.kind == ColumnKind::excluded) continue;
@@ -350,8 +357,7 @@ void CsvReader::detect() {
   std::vector<std::string_view> fields(header_.size());
   for (std::size_t r = 0; r < ahead_.rows(); ++r) {
     for (std::size_t j = 0; j < header_.size(); ++j) fields[j] = ahead_.field(r, j);
-    append_row(converted, ahead_.line(r), ahead_.row_text(r), fields, options_.keep_row_text,
-               options_.keep_fields);
+    append_row(converted, ahead_.line(r), ahead_.row_text(r), fields, options_.keep_row_text, options_.keep_fields);
   }
   ahead_ = std::move(converted);
   detected_ = true;
@@ -400,8 +406,7 @@ bool CsvReader::next_chunk(CsvChunk& chunk, std::size_t max_rows) {
   if (ahead_pos_ == ahead_.rows() && ahead_.rows() > 0) ahead_ = CsvChunk();  // release
   detail::CsvRecord* record = nullptr;
   while (chunk.rows() < max_rows && next_data_record(record))
-    append_row(chunk, record->line, record->text, record->fields, options_.keep_row_text,
-               options_.keep_fields);
+    append_row(chunk, record->line, record->text, record->fields, options_.keep_row_text, options_.keep_fields);
   delivered_ += static_cast<std::int64_t>(chunk.rows());
   return chunk.rows() > 0;
 }

@@ -44,13 +44,13 @@ struct CsvRecord;
 }  // namespace detail
 
 struct CsvOptions {
-  char separator = 0;                 ///< ',', ';', '\t', or 0 to detect from the header
-  char decimal = '.';                 ///< '.' or ','
-  std::vector<std::string> columns;   ///< use exactly these (by name); empty = detect
-  std::vector<std::string> exclude;   ///< names never used by detection (e.g. an id)
-  std::size_t detect_rows = 1000;     ///< data rows examined to detect numeric columns
-  bool keep_row_text = false;         ///< CsvChunk::row_text() available
-  bool keep_fields = false;           ///< CsvChunk::field() available
+  char separator = 0;                              ///< ',', ';', '\t', or 0 to detect from the header
+  char decimal = '.';                              ///< '.' or ','
+  std::vector<std::string> columns;                ///< use exactly these (by name); empty = detect
+  std::vector<std::string> exclude;                ///< names never used by detection (e.g. an id)
+  std::size_t detect_rows = 1000;                  ///< data rows examined to detect numeric columns
+  bool keep_row_text = false;                      ///< CsvChunk::row_text() available
+  bool keep_fields = false;                        ///< CsvChunk::field() available
   std::size_t buffer_size = std::size_t{1} << 20;  ///< read size; small values are for tests
   /// Longest record (one row, line end excluded; a quoted field may span
   /// lines) that is buffered: a longer one is refused with a CsvError naming
@@ -71,10 +71,10 @@ enum class ColumnKind {
 
 struct ColumnInfo {
   std::string name;
-  std::size_t index = 0;          ///< 1-based position in the header
+  std::size_t index = 0;  ///< 1-based position in the header
   ColumnKind kind = ColumnKind::numeric;
-  std::string example;            ///< text: the first cell that is not a number
-  std::int64_t example_line = 0;  ///< text: its line
+  std::string example;              ///< text: the first cell that is not a number
+  std::int64_t example_line = 0;    ///< text: its line
   bool decimal_comma_hint = false;  ///< text: the example reads as a number with decimal comma
 };
 
@@ -104,8 +104,8 @@ class CsvChunk {
   std::size_t fields_per_row_ = 0;
   std::vector<double> values_;
   std::vector<std::int64_t> lines_;
-  std::string text_;                   ///< arena for row texts and fields
-  std::vector<std::size_t> row_span_;  ///< begin, end per row
+  std::string text_;                     ///< arena for row texts and fields
+  std::vector<std::size_t> row_span_;    ///< begin, end per row
   std::vector<std::size_t> field_span_;  ///< begin, end per field per row
 };
 
@@ -139,8 +139,8 @@ class CsvReader {
 
  private:
   bool next_data_record(detail::CsvRecord*& record);
-  void append_row(CsvChunk& chunk, std::int64_t line, std::string_view text,
-                  std::span<const std::string_view> fields, bool keep_text, bool keep_fields);
+  void append_row(CsvChunk& chunk, std::int64_t line, std::string_view text, std::span<const std::string_view> fields,
+                  bool keep_text, bool keep_fields);
   void detect();
   [[noreturn]] void fail(std::int64_t line, std::size_t column, const std::string& message) const;
 
@@ -156,10 +156,10 @@ class CsvReader {
   std::vector<std::size_t> selected_;
   std::int64_t pending_blank_line_ = 0;  ///< first blank line not yet resolved
   std::int64_t pending_blanks_ = 0;
-  std::int64_t blanks_to_emit_ = 0;      ///< one-column file: blank lines that are rows
+  std::int64_t blanks_to_emit_ = 0;  ///< one-column file: blank lines that are rows
   std::int64_t blank_next_line_ = 0;
-  bool held_ = false;                    ///< record_ waits behind blank rows
-  CsvChunk ahead_;                       ///< rows read for detection, delivered first
+  bool held_ = false;  ///< record_ waits behind blank rows
+  CsvChunk ahead_;     ///< rows read for detection, delivered first
   std::size_t ahead_pos_ = 0;
   std::int64_t delivered_ = 0;
 };

@@ -129,9 +129,9 @@ bool RecordStream::next(CsvRecord& record) {
     const Parse parsed = parse(record_end, next_pos, lines_used);
     const std::size_t length = parsed == Parse::need_more ? filled_ - pos_ : record_end - pos_;
     if (length > max_record_)
-      fail(line_, 0, "a row longer than " + std::to_string(max_record_) +
-                         " bytes starts here; the reader's limit is " + std::to_string(max_record_) +
-                         " bytes per row (is a line end missing, or the file not text?)");
+      fail(line_, 0,
+           "a row longer than " + std::to_string(max_record_) + " bytes starts here; the reader's limit is " +
+               std::to_string(max_record_) + " bytes per row (is a line end missing, or the file not text?)");
     if (parsed == Parse::need_more) {
       refill();
       continue;
@@ -153,8 +153,7 @@ bool RecordStream::next(CsvRecord& record) {
 // One record from pos_. Fields are recorded in refs_ (offsets, not pointers, as
 // scratch_ may move while it grows). need_more when the record (or the meaning
 // of its last byte) reaches past the data read so far.
-RecordStream::Parse RecordStream::parse(std::size_t& record_end, std::size_t& next_pos,
-                                        std::int64_t& lines_used) {
+RecordStream::Parse RecordStream::parse(std::size_t& record_end, std::size_t& next_pos, std::int64_t& lines_used) {
   const char* b = buffer_.data();
   const std::size_t n = filled_;
   std::size_t i = pos_;
@@ -225,8 +224,7 @@ RecordStream::Parse RecordStream::parse(std::size_t& record_end, std::size_t& ne
           break;
         }
       }
-      fail(line_ + newlines, ref_count_,
-           "unexpected character '" + printable_char(c) + "' after the closing quote");
+      fail(line_ + newlines, ref_count_, "unexpected character '" + printable_char(c) + "' after the closing quote");
     }
     // Unquoted field: runs to a separator or the end of the line.
     const std::size_t start = i;

@@ -19,9 +19,9 @@
 namespace ellipsa::cli::detail {
 
 struct CsvRecord {
-  std::int64_t line = 0;                  ///< physical line (1-based) where the record starts
-  std::string_view text;                  ///< raw bytes of the record, without its line end
-  std::vector<std::string_view> fields;   ///< decoded fields (quotes removed, "" -> ")
+  std::int64_t line = 0;                 ///< physical line (1-based) where the record starts
+  std::string_view text;                 ///< raw bytes of the record, without its line end
+  std::vector<std::string_view> fields;  ///< decoded fields (quotes removed, "" -> ")
   bool blank() const noexcept { return text.empty(); }
 };
 
@@ -67,16 +67,16 @@ class RecordStream {
 
   CsvSource source_;
   std::vector<char> buffer_;
-  std::size_t max_record_;           ///< longest record accepted, bytes
-  std::size_t pos_ = 0;              ///< start of the next record in buffer_
-  std::size_t filled_ = 0;           ///< bytes of buffer_ holding data
-  std::uint64_t discarded_ = 0;      ///< bytes dropped before buffer_[0]
+  std::size_t max_record_;       ///< longest record accepted, bytes
+  std::size_t pos_ = 0;          ///< start of the next record in buffer_
+  std::size_t filled_ = 0;       ///< bytes of buffer_ holding data
+  std::uint64_t discarded_ = 0;  ///< bytes dropped before buffer_[0]
   bool eof_ = false;
   bool started_ = false;
-  std::int64_t line_ = 1;            ///< physical line of the next record
+  std::int64_t line_ = 1;  ///< physical line of the next record
   std::array<bool, 256> separator_{};
-  std::array<bool, 256> stop_{};     ///< separator or '\n': ends an unquoted scan
-  char single_separator_ = ',';      ///< the separator when there is one ('\0' while detecting)
+  std::array<bool, 256> stop_{};  ///< separator or '\n': ends an unquoted scan
+  char single_separator_ = ',';   ///< the separator when there is one ('\0' while detecting)
   // Fields of the record being parsed: refs_[0, ref_count_). Appended through
   // add_ref, which stays inline in the scanning loop (a push_back did not).
   void add_ref(std::size_t offset, std::size_t length, bool in_scratch) {

@@ -17,8 +17,7 @@ class CsvError : public std::runtime_error {
  public:
   /// line: 1-based physical line, 0 when the problem has no line (empty file,
   /// open failure). column: 1-based column index, 0 when not about one column.
-  CsvError(std::string file, std::int64_t line, std::int64_t column, std::string column_name,
-           std::string message);
+  CsvError(std::string file, std::int64_t line, std::int64_t column, std::string column_name, std::string message);
   const std::string& file() const noexcept { return file_; }
   std::int64_t line() const noexcept { return line_; }
   std::int64_t column() const noexcept { return column_; }

@@ -56,8 +56,7 @@ class CsvWriter {
 
   char separator() const noexcept { return options_.separator; }
   /// The text number() writes for `value`.
-  static std::string format_number(double value, char decimal = '.', std::string_view missing = "NA",
-                                   int digits = 0);
+  static std::string format_number(double value, char decimal = '.', std::string_view missing = "NA", int digits = 0);
 
  private:
   std::string write_error() const;
@@ -72,7 +71,7 @@ class CsvWriter {
 
   std::FILE* out_;
   CsvWriteOptions options_;
-  std::string buffer_;    // fixed size; buffer_[0, used_) waits to be written
+  std::string buffer_;  // fixed size; buffer_[0, used_) waits to be written
   std::size_t used_ = 0;
   std::size_t fields_in_row_ = 0;
   bool last_field_empty_ = false;

@@ -95,7 +95,7 @@ std::size_t emit_general(char* out, bool negative, std::uint64_t n, int digits, 
       std::memcpy(p + 1, d + x + 1, 16);
       p += used - x;
     }
-  } else {  // fixed, 0.000ddd
+  } else {                         // fixed, 0.000ddd
     std::memcpy(p, "0.00000", 8);  // 8 bytes with the terminator
     p += 1 - x;
     std::memcpy(p, d, 16);
@@ -139,7 +139,7 @@ std::size_t format_significant(char* out, double value, int digits) noexcept {
       --x;
       continue;
     }
-    const auto whole = static_cast<std::uint64_t>(s);      // s < 10^15: exact truncation
+    const auto whole = static_cast<std::uint64_t>(s);        // s < 10^15: exact truncation
     const double fraction = s - static_cast<double>(whole);  // exact
     // Round to nearest only when the exact product cannot lie on the other side
     // of the half-way point (the margin is twice the error bound). Near ties,

@@ -31,12 +31,18 @@ bool is_digit(char c) noexcept { return c >= '0' && c <= '9'; }
 double out_of_range_value(std::string_view s) noexcept {
   bool negative = false;
   std::size_t i = 0;
-  if (i < s.size() && s[i] == '-') { negative = true; ++i; }
+  if (i < s.size() && s[i] == '-') {
+    negative = true;
+    ++i;
+  }
   std::int64_t leading_exponent = 0;
   bool found_significant = false;
   std::int64_t integer_digits = 0;
   while (i < s.size() && is_digit(s[i])) {
-    if (s[i] != '0' || found_significant) { found_significant = true; ++integer_digits; }
+    if (s[i] != '0' || found_significant) {
+      found_significant = true;
+      ++integer_digits;
+    }
     ++i;
   }
   if (found_significant) {
@@ -44,14 +50,20 @@ double out_of_range_value(std::string_view s) noexcept {
   } else if (i < s.size() && s[i] == '.') {
     ++i;
     std::int64_t zeros = 0;
-    while (i < s.size() && s[i] == '0') { ++zeros; ++i; }
+    while (i < s.size() && s[i] == '0') {
+      ++zeros;
+      ++i;
+    }
     leading_exponent = -(zeros + 1);
   }
   while (i < s.size() && (is_digit(s[i]) || s[i] == '.')) ++i;
   if (i < s.size() && (s[i] == 'e' || s[i] == 'E')) {
     ++i;
     bool exponent_negative = false;
-    if (i < s.size() && (s[i] == '+' || s[i] == '-')) { exponent_negative = s[i] == '-'; ++i; }
+    if (i < s.size() && (s[i] == '+' || s[i] == '-')) {
+      exponent_negative = s[i] == '-';
+      ++i;
+    }
     std::int64_t exponent = 0;
     for (; i < s.size() && is_digit(s[i]); ++i)
       exponent = exponent > 1'000'000'000 ? exponent : exponent * 10 + (s[i] - '0');  // saturate
@@ -60,7 +72,6 @@ double out_of_range_value(std::string_view s) noexcept {
   const double magnitude = leading_exponent > 0 ? std::numeric_limits<double>::infinity() : 0.0;
   return negative ? -magnitude : magnitude;
 }
-
 
 // The common cell, [-]digits[.digits] with at most 15 digits in all, read
 // exactly without std::from_chars: the digits form an integer below 10^15 <
@@ -150,8 +161,8 @@ bool is_missing_marker(std::string_view t) noexcept {
     case 1: return t[0] == '-' || t[0] == '.' || t[0] == '?';
     case 2: return equals_ignoring_case(t, "na");
     case 3: return equals_ignoring_case(t, "n/a");
-    case 4: return equals_ignoring_case(t, "#n/a") || equals_ignoring_case(t, "null") ||
-                   equals_ignoring_case(t, "none");
+    case 4:
+      return equals_ignoring_case(t, "#n/a") || equals_ignoring_case(t, "null") || equals_ignoring_case(t, "none");
     default: return false;
   }
 }

@@ -9,7 +9,7 @@
 #define N 40
 #define P 3
 
-static int report(ellipsa_status s, const char *what) {
+static int report(ellipsa_status s, const char* what) {
   if (s == ELLIPSA_OK) return 0;
   fprintf(stderr, "%s failed: %s (%s)\n", what, ellipsa_last_error(), ellipsa_status_string(s));
   return 1;
@@ -33,12 +33,12 @@ int main(void) {
     shots[i][1] = 850.0 - 6.0 * u[0] + 10.0 * u[1];
     shots[i][2] = 2.85 + 0.002 * u[1] + 0.001 * u[2];
   }
-  shots[N - 2][2] = 2.80; /* short shot: mass low for its pressure */
+  shots[N - 2][2] = 2.80;  /* short shot: mass low for its pressure */
   shots[N - 1][1] = 905.0; /* pressure spike */
 
-  ellipsa_fit_options *options = NULL;
-  ellipsa_model *model = NULL;
-  const char *names[P] = {"melt_temp_C", "injection_pressure_bar", "cap_mass_g"};
+  ellipsa_fit_options* options = NULL;
+  ellipsa_model* model = NULL;
+  const char* names[P] = {"melt_temp_C", "injection_pressure_bar", "cap_mass_g"};
   ellipsa_matrix x = ellipsa_matrix_row_major(&shots[0][0], N, P);
   if (report(ellipsa_fit_options_create(&options, ELLIPSA_METHOD_MCD), "options") ||
       report(ellipsa_fit_options_set_seed(options, 7), "seed") ||
@@ -65,7 +65,7 @@ int main(void) {
     if (i >= N - 2) ++flagged_faults;
   }
 
-  char *text = NULL;
+  char* text = NULL;
   int64_t length = 0;
   failed = failed || report(ellipsa_model_save(&text, &length, model), "save");
   if (!failed) printf("model file: %lld bytes of JSON\n", (long long)length);

@@ -187,10 +187,11 @@ int main(int argc, char** argv) try {
     if (methods.size() == 6) methods = {"mcd", "detmcd"};
     return effective_rows_table(methods, ns, ps, uses, base, target_rows);
   }
-  std::printf("Flag rates on clean data, level %.4g (nominal %.2f%%), seed %llu, small-sample correction %s, "
-              "consistency %s, reference %s\n\n",
-              base.level, 100.0 * (1.0 - base.level), static_cast<unsigned long long>(base.seed),
-              correction_text.c_str(), consistency_text.c_str(), reference_text.c_str());
+  std::printf(
+      "Flag rates on clean data, level %.4g (nominal %.2f%%), seed %llu, small-sample correction %s, "
+      "consistency %s, reference %s\n\n",
+      base.level, 100.0 * (1.0 - base.level), static_cast<unsigned long long>(base.seed), correction_text.c_str(),
+      consistency_text.c_str(), reference_text.c_str());
   std::printf("| bulk | method | n | p | use | fits | refused | rows scored | rate %% | s.e. %% |\n");
   std::printf("|---|---|---|---|---|---|---|---|---|---|\n");
   for (cal::Bulk bulk : bulks)

@@ -42,9 +42,9 @@ namespace {
 struct Point {
   long n;
   long reps;
-  double factor;    // 1 / median(det(S)^(1/p))
-  double se;        // its standard error (delta method, normal approximation of the median)
-  double trace;     // mean tr(S)/p, for comparison
+  double factor;  // 1 / median(det(S)^(1/p))
+  double se;      // its standard error (delta method, normal approximation of the median)
+  double trace;   // mean tr(S)/p, for comparison
 };
 
 struct Settings {
@@ -73,18 +73,18 @@ Point simulate(const Settings& s, long n, long p, long reps) {
     const core::SmallSample mode = s.reweighted ? core::SmallSample::RawOnly : core::SmallSample::Off;
     core::RobustFit r;
     try {
-    if (s.fast) {
-      core::FastMcdOptions o;
-      o.alpha = s.alpha;
-      o.seed = stream.next();
-      o.small_sample = mode;
-      r = core::fast_mcd(v, o);
-    } else {
-      core::DetMcdOptions o;
-      o.alpha = s.alpha;
-      o.small_sample = mode;
-      r = core::det_mcd(v, o);
-    }
+      if (s.fast) {
+        core::FastMcdOptions o;
+        o.alpha = s.alpha;
+        o.seed = stream.next();
+        o.small_sample = mode;
+        r = core::fast_mcd(v, o);
+      } else {
+        core::DetMcdOptions o;
+        o.alpha = s.alpha;
+        o.small_sample = mode;
+        r = core::det_mcd(v, o);
+      }
     } catch (const core::Error&) {
       continue;  // DetMCD refuses samples where no start has more than p rows (n < 2p + 2)
     }
@@ -183,8 +183,8 @@ int main(int argc, char** argv) {
     const CurveFit c = fit_curve(pts, p);
     for (const auto& q : pts) {
       const double f = 1.0 + c.g * std::pow(static_cast<double>(q.n - p), -c.b);
-      std::printf("| %ld | %ld | %ld | %.4f | %.4f | %.4f | %.4f | %+.2f |\n", p, q.n, q.reps, q.factor, q.se,
-                  q.trace, f, (f - q.factor) / q.se);
+      std::printf("| %ld | %ld | %ld | %.4f | %.4f | %.4f | %.4f | %+.2f |\n", p, q.n, q.reps, q.factor, q.se, q.trace,
+                  f, (f - q.factor) / q.se);
     }
     for (const auto& q : pts) {
       char pb[96];
@@ -193,8 +193,8 @@ int main(int argc, char** argv) {
     }
     std::fflush(stdout);
     char buf[160];
-    std::snprintf(buf, sizeof buf, "    {%ld, %.6g, %.6g},  // max |residual| %.4f, chi2 %.1f on %zu points", p, c.g, c.b,
-                  c.max_abs, c.chi2, pts.size() - 2);
+    std::snprintf(buf, sizeof buf, "    {%ld, %.6g, %.6g},  // max |residual| %.4f, chi2 %.1f on %zu points", p, c.g,
+                  c.b, c.max_abs, c.chi2, pts.size() - 2);
     lines.push_back(buf);
   }
   std::printf("\nFitted curves (factor = 1 + g / (n - p)^b), for core/mcd_small_sample_tables.inc:\n\n```\n");

@@ -131,7 +131,8 @@ int main(int argc, char** argv) {
     const std::string a = argv[i];
     if ((a == "--seed" || a == "--reps") && i + 1 < argc) {
       const unsigned long long v = std::strtoull(argv[++i], nullptr, 10);
-      if (a == "--seed") seed = v; else reps = static_cast<long>(v);
+      if (a == "--seed") seed = v;
+      else reps = static_cast<long>(v);
     } else if (a == "--quick") {
       quick = true;
     } else {
@@ -146,8 +147,7 @@ int main(int argc, char** argv) {
   }
   std::vector<long> ns;
   for (long n = 2; n <= 60; ++n) ns.push_back(n);
-  for (long n : {61, 62, 63, 64, 79, 80, 99, 100, 149, 150, 199, 200, 299, 300, 499, 500, 999, 1000})
-    ns.push_back(n);
+  for (long n : {61, 62, 63, 64, 79, 80, 99, 100, 149, 150, 199, 200, 299, 300, 499, 500, 999, 1000}) ns.push_back(n);
   std::printf("## Finite-sample factors of Qn: seed %llu, %ld replicates per n (fewer above n = 100)\n\n",
               static_cast<unsigned long long>(seed), reps);
   std::printf("| n | replicates | mean Qn | d_n = 1/mean | s.e. | n (mean - 1) | from memory | difference |\n");
@@ -186,10 +186,10 @@ int main(int argc, char** argv) {
               kTableEnd - 1);
   for (const SizeEstimate& p : pts)
     if (p.n < kTableEnd) std::printf("    %.4f,  // n = %ld, s.e. %.5f\n", p.factor, p.n, p.se);
-  std::printf("constexpr double kQnOddA = %.4f;   // s.e. %.4f, max |residual| %.5f, chi2 %.1f on %d points\n",
-              odd.a, odd.se_a, odd.max_abs, odd.chi2, odd.points);
-  std::printf("constexpr double kQnEvenA = %.4f;  // s.e. %.4f, max |residual| %.5f, chi2 %.1f on %d points\n",
-              even.a, even.se_a, even.max_abs, even.chi2, even.points);
+  std::printf("constexpr double kQnOddA = %.4f;   // s.e. %.4f, max |residual| %.5f, chi2 %.1f on %d points\n", odd.a,
+              odd.se_a, odd.max_abs, odd.chi2, odd.points);
+  std::printf("constexpr double kQnEvenA = %.4f;  // s.e. %.4f, max |residual| %.5f, chi2 %.1f on %d points\n", even.a,
+              even.se_a, even.max_abs, even.chi2, even.points);
   std::printf("```\n");
   return 0;
 }

@@ -15,8 +15,8 @@ class Stream {
  public:
   explicit Stream(uint64_t seed) : state_(seed) {}
   uint64_t next();
-  double uniform();   // in (0, 1), never 0 or 1
-  double normal();    // standard normal by the Box-Muller transform, pairs cached
+  double uniform();     // in (0, 1), never 0 or 1
+  double normal();      // standard normal by the Box-Muller transform, pairs cached
   double chi2(int df);  // sum of df squared normals (df is small here)
 
  private:

@@ -22,17 +22,17 @@ const char* use_name(Use u);
 struct CellSettings {
   ellipsa_method method = ELLIPSA_METHOD_MCD;
   double level = 0.975;
-  uint64_t seed = 1;          // base seed of the study; each replicate derives its own
-  int64_t fresh_rows = 200;   // rows scored per replicate in the fresh use
-  int32_t correction = -1;    // ellipsa_fit_options_set_small_sample: 0 off, 1 on
-  int32_t consistency = -1;   // ellipsa_fit_options_set_consistency: ELLIPSA_CONSISTENCY_*
-  int32_t reference = -1;     // ELLIPSA_REFERENCE_* passed to ellipsa_model_score_v2
+  uint64_t seed = 1;         // base seed of the study; each replicate derives its own
+  int64_t fresh_rows = 200;  // rows scored per replicate in the fresh use
+  int32_t correction = -1;   // ellipsa_fit_options_set_small_sample: 0 off, 1 on
+  int32_t consistency = -1;  // ellipsa_fit_options_set_consistency: ELLIPSA_CONSISTENCY_*
+  int32_t reference = -1;    // ELLIPSA_REFERENCE_* passed to ellipsa_model_score_v2
 };
 
 struct CellResult {
   int64_t replicates = 0;
-  int64_t failed = 0;        // fits the library refused (counted, not scored)
-  int64_t rows = 0;          // rows scored
+  int64_t failed = 0;  // fits the library refused (counted, not scored)
+  int64_t rows = 0;    // rows scored
   int64_t flagged = 0;
   double rate() const { return rows > 0 ? static_cast<double>(flagged) / static_cast<double>(rows) : 0.0; }
   // Standard error of the rate from the spread of the replicate rates (rows of

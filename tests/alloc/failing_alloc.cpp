@@ -58,9 +58,7 @@ void uncount(void* p) {
   if (t_tracking && p != nullptr) t_live -= static_cast<std::int64_t>(malloc_usable_size(p));
 }
 
-void* real_malloc(std::size_t n) {
-  return counted(__interceptor_malloc ? __interceptor_malloc(n) : __libc_malloc(n));
-}
+void* real_malloc(std::size_t n) { return counted(__interceptor_malloc ? __interceptor_malloc(n) : __libc_malloc(n)); }
 void* real_calloc(std::size_t n, std::size_t s) {
   return counted(__interceptor_calloc ? __interceptor_calloc(n, s) : __libc_calloc(n, s));
 }
@@ -70,10 +68,8 @@ void* real_realloc(void* p, std::size_t n) {
 }
 void real_free(void* p) {
   uncount(p);
-  if (__interceptor_free)
-    __interceptor_free(p);
-  else
-    __libc_free(p);
+  if (__interceptor_free) __interceptor_free(p);
+  else __libc_free(p);
 }
 
 void* new_impl(std::size_t n) {

@@ -137,20 +137,28 @@ int main() {
 
   std::vector<Case> cases;
   ellipsa_fit_options* out_options = nullptr;
-  cases.push_back({"ellipsa_fit_options_create", [&] { return ellipsa_fit_options_create(&out_options, ELLIPSA_METHOD_MCD); },
-                   [&] { ellipsa_fit_options_destroy(out_options); out_options = nullptr; }});
+  cases.push_back({"ellipsa_fit_options_create",
+                   [&] { return ellipsa_fit_options_create(&out_options, ELLIPSA_METHOD_MCD); },
+                   [&] {
+                     ellipsa_fit_options_destroy(out_options);
+                     out_options = nullptr;
+                   }});
   ellipsa_fit_options* named = options(ELLIPSA_METHOD_CLASSICAL);
   const char* const names[] = {"temperature", "pressure", "a rather long column name beyond small strings"};
   cases.push_back({"ellipsa_fit_options_set_column_names",
                    [&] { return ellipsa_fit_options_set_column_names(named, names, 3); }, [] {}});
   ellipsa_method parsed = 0;
-  cases.push_back({"ellipsa_method_from_name", [&] { return ellipsa_method_from_name(&parsed, "ledoit-wolf"); }, [] {}});
+  cases.push_back(
+      {"ellipsa_method_from_name", [&] { return ellipsa_method_from_name(&parsed, "ledoit-wolf"); }, [] {}});
 
   // Fits: one case per method (one entry point, every fitting path).
   ellipsa_model* out_model = nullptr;
-  auto release_model = [&] { ellipsa_model_destroy(out_model); out_model = nullptr; };
+  auto release_model = [&] {
+    ellipsa_model_destroy(out_model);
+    out_model = nullptr;
+  };
   const ellipsa_method methods[] = {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS,
-                                    ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_DETMCD, ELLIPSA_METHOD_MIXTURE};
+                                    ELLIPSA_METHOD_MCD,       ELLIPSA_METHOD_DETMCD,      ELLIPSA_METHOD_MIXTURE};
   std::vector<ellipsa_fit_options*> fit_options;
   for (ellipsa_method m : methods) {
     ellipsa_fit_options* o = options(m);
@@ -181,12 +189,13 @@ int main() {
   scores.membership = membership.data();
   scores.log_density = ld.data();
   scores.low_density = low.data();
-  cases.push_back({"ellipsa_model_score/mcd", [&] { return ellipsa_model_score(&scores, mcd, &nan_view, 0.975); }, [] {}});
-  cases.push_back({"ellipsa_model_score/mixture",
-                   [&] { return ellipsa_model_score(&scores, mixture, &nan_view, 0.975); }, [] {}});
-  cases.push_back({"ellipsa_model_score_v2", [&] {
-                     return ellipsa_model_score_v2(&scores, classical, &nan_view, 0.99, ELLIPSA_REFERENCE_NEW_ROWS);
-                   }, [] {}});
+  cases.push_back(
+      {"ellipsa_model_score/mcd", [&] { return ellipsa_model_score(&scores, mcd, &nan_view, 0.975); }, [] {}});
+  cases.push_back(
+      {"ellipsa_model_score/mixture", [&] { return ellipsa_model_score(&scores, mixture, &nan_view, 0.975); }, [] {}});
+  cases.push_back(
+      {"ellipsa_model_score_v2",
+       [&] { return ellipsa_model_score_v2(&scores, classical, &nan_view, 0.99, ELLIPSA_REFERENCE_NEW_ROWS); }, [] {}});
 
   // Model files (ellipsa_model_save, ellipsa_model_load) are not swept: the
   // JSON library (nlohmann 3.11) allocates inside the destructor of every
@@ -195,25 +204,28 @@ int main() {
   // nlohmann values on the failure path (docs/bad-input-catalogue.md).
   // Queries that allocate (or may).
   double value = 0;
-  cases.push_back({"ellipsa_model_diagnostic", [&] { return ellipsa_model_diagnostic(&value, mcd, "raw_log_det"); }, [] {}});
+  cases.push_back(
+      {"ellipsa_model_diagnostic", [&] { return ellipsa_model_diagnostic(&value, mcd, "raw_log_det"); }, [] {}});
   std::vector<std::int64_t> rows(n);
   std::int64_t row_count = 0;
-  cases.push_back({"ellipsa_model_row_set", [&] {
-                     return ellipsa_model_row_set(rows.data(), n, &row_count, mcd, ELLIPSA_ROWS_H_SUBSET);
-                   }, [] {}});
+  cases.push_back({"ellipsa_model_row_set",
+                   [&] { return ellipsa_model_row_set(rows.data(), n, &row_count, mcd, ELLIPSA_ROWS_H_SUBSET); },
+                   [] {}});
   std::vector<ellipsa_candidate> candidates(4);
   for (auto& c : candidates) c.struct_size = sizeof(ellipsa_candidate);
   std::int64_t candidate_count = 0;
-  cases.push_back({"ellipsa_model_selection", [&] {
-                     return ellipsa_model_selection(candidates.data(), 4, &candidate_count, mixture);
-                   }, [] {}});
+  cases.push_back({"ellipsa_model_selection",
+                   [&] { return ellipsa_model_selection(candidates.data(), 4, &candidate_count, mixture); }, [] {}});
   const char* reason = nullptr;
   cases.push_back({"ellipsa_candidate_explain", [&] { return ellipsa_candidate_explain(&reason, mixture, 0); }, [] {}});
 
   // Streaming.
   ellipsa_accumulator* out_acc = nullptr;
   cases.push_back({"ellipsa_accumulator_create", [&] { return ellipsa_accumulator_create(&out_acc, p); },
-                   [&] { ellipsa_accumulator_destroy(out_acc); out_acc = nullptr; }});
+                   [&] {
+                     ellipsa_accumulator_destroy(out_acc);
+                     out_acc = nullptr;
+                   }});
   ellipsa_accumulator *acc = nullptr, *acc2 = nullptr;
   ellipsa_accumulator_create(&acc, p);
   ellipsa_accumulator_create(&acc2, p);
@@ -221,28 +233,30 @@ int main() {
   cases.push_back({"ellipsa_accumulator_add", [&] { return ellipsa_accumulator_add(acc, &nan_view); }, [] {}});
   cases.push_back({"ellipsa_accumulator_merge", [&] { return ellipsa_accumulator_merge(acc, acc2); }, [] {}});
   ellipsa_fit_options* lw = options(ELLIPSA_METHOD_LEDOIT_WOLF);
-  cases.push_back({"ellipsa_model_from_accumulator", [&] { return ellipsa_model_from_accumulator(&out_model, acc, lw); },
-                   release_model});
+  cases.push_back({"ellipsa_model_from_accumulator",
+                   [&] { return ellipsa_model_from_accumulator(&out_model, acc, lw); }, release_model});
 
   // Comparison and shape.
   ellipsa_comparison* comparison = nullptr;
   ellipsa_compare_options compare_options = ELLIPSA_COMPARE_OPTIONS_INIT;
   compare_options.permutations = 9;
-  cases.push_back({"ellipsa_batch_compare", [&] { return ellipsa_batch_compare(&comparison, &view, &batch, &compare_options); },
-                   [&] { ellipsa_comparison_destroy(comparison); comparison = nullptr; }});
+  cases.push_back({"ellipsa_batch_compare",
+                   [&] { return ellipsa_batch_compare(&comparison, &view, &batch, &compare_options); },
+                   [&] {
+                     ellipsa_comparison_destroy(comparison);
+                     comparison = nullptr;
+                   }});
   ellipsa_comparison* kept = nullptr;
   ellipsa_batch_compare(&kept, &view, &batch, &compare_options);
   std::vector<ellipsa_variable_shift> shifts(p);
   for (auto& s : shifts) s.struct_size = sizeof(ellipsa_variable_shift);
   std::int64_t shift_count = 0;
-  cases.push_back({"ellipsa_comparison_variables", [&] {
-                     return ellipsa_comparison_variables(shifts.data(), p, &shift_count, kept);
-                   }, [] {}});
+  cases.push_back({"ellipsa_comparison_variables",
+                   [&] { return ellipsa_comparison_variables(shifts.data(), p, &shift_count, kept); }, [] {}});
   ellipsa_test_result test_result{};
   test_result.struct_size = sizeof test_result;
-  cases.push_back({"ellipsa_comparison_test", [&] {
-                     return ellipsa_comparison_test(&test_result, kept, ELLIPSA_TEST_COVARIANCE_CHANGE);
-                   }, [] {}});
+  cases.push_back({"ellipsa_comparison_test",
+                   [&] { return ellipsa_comparison_test(&test_result, kept, ELLIPSA_TEST_COVARIANCE_CHANGE); }, [] {}});
   ellipsa_shape_test shape{};
   shape.struct_size = sizeof shape;
   cases.push_back({"ellipsa_data_shape", [&] { return ellipsa_data_shape(&shape, &view); }, [] {}});
@@ -250,16 +264,19 @@ int main() {
 
   // Distributions (documented to allocate nothing; checked by the count).
   cases.push_back({"ellipsa_chi2_quantile", [&] { return ellipsa_chi2_quantile(&value, 0.975, 3.0); }, [] {}});
-  cases.push_back({"ellipsa_hotelling_limit", [&] {
-                     return ellipsa_hotelling_limit(&value, ELLIPSA_PHASE_ONE, 30, 3, 0.99);
-                   }, [] {}});
+  cases.push_back({"ellipsa_hotelling_limit",
+                   [&] { return ellipsa_hotelling_limit(&value, ELLIPSA_PHASE_ONE, 30, 3, 0.99); }, [] {}});
 
   // Sheet functions.
   ellipsa_sheet_cache* out_cache = nullptr;
   cases.push_back({"ellipsa_sheet_cache_create", [&] { return ellipsa_sheet_cache_create(&out_cache, 8, 1 << 20); },
-                   [&] { ellipsa_sheet_cache_destroy(out_cache); out_cache = nullptr; }});
+                   [&] {
+                     ellipsa_sheet_cache_destroy(out_cache);
+                     out_cache = nullptr;
+                   }});
   std::int32_t function = 0;
-  cases.push_back({"ellipsa_sheet_function_find", [&] { return ellipsa_sheet_function_find(&function, "ell.dist2"); }, [] {}});
+  cases.push_back(
+      {"ellipsa_sheet_function_find", [&] { return ellipsa_sheet_function_find(&function, "ell.dist2"); }, [] {}});
   ellipsa_sheet_value args[3] = {ELLIPSA_SHEET_VALUE_INIT, ELLIPSA_SHEET_VALUE_INIT, ELLIPSA_SHEET_VALUE_INIT};
   args[0].kind = ELLIPSA_SHEET_ARG_RANGE;
   args[0].range = nan_view;
@@ -271,18 +288,15 @@ int main() {
   std::int32_t dist2 = 0, regime = 0;
   ellipsa_sheet_function_find(&dist2, "ELL.DIST2");
   ellipsa_sheet_function_find(&regime, "ELL.REGIMETABLE");
-  cases.push_back({"ellipsa_sheet_result_shape", [&] {
-                     return ellipsa_sheet_result_shape(&result_rows, &result_cols, dist2, args, 3);
-                   }, [] {}});
+  cases.push_back({"ellipsa_sheet_result_shape",
+                   [&] { return ellipsa_sheet_result_shape(&result_rows, &result_cols, dist2, args, 3); }, [] {}});
   std::vector<ellipsa_sheet_cell> cells(64 * 8);
-  cases.push_back({"ellipsa_sheet_evaluate/ELL.DIST2", [&] {
-                     return ellipsa_sheet_evaluate(cells.data(), n, 1, nullptr, dist2, args, 3);
-                   }, [] {}});
+  cases.push_back({"ellipsa_sheet_evaluate/ELL.DIST2",
+                   [&] { return ellipsa_sheet_evaluate(cells.data(), n, 1, nullptr, dist2, args, 3); }, [] {}});
   ellipsa_sheet_cache* cache = nullptr;
   ellipsa_sheet_cache_create(&cache, 4, 1 << 20);
-  cases.push_back({"ellipsa_sheet_evaluate/cached", [&] {
-                     return ellipsa_sheet_evaluate(cells.data(), n, 1, cache, dist2, args, 3);
-                   }, [] {}});
+  cases.push_back({"ellipsa_sheet_evaluate/cached",
+                   [&] { return ellipsa_sheet_evaluate(cells.data(), n, 1, cache, dist2, args, 3); }, [] {}});
   // K 1-2, one structure: every allocation of a selection table is still
   // failed in turn, and the run count (quadratic in the allocations of the
   // call) stays small; the default (four structures, more K) made about
@@ -294,9 +308,8 @@ int main() {
   table_args[1].text = "1-2";
   table_args[2].kind = ELLIPSA_SHEET_ARG_TEXT;
   table_args[2].text = "full";
-  cases.push_back({"ellipsa_sheet_evaluate/ELL.REGIMETABLE", [&] {
-                     return ellipsa_sheet_evaluate(cells.data(), 64, 8, nullptr, regime, table_args, 3);
-                   }, [] {}});
+  cases.push_back({"ellipsa_sheet_evaluate/ELL.REGIMETABLE",
+                   [&] { return ellipsa_sheet_evaluate(cells.data(), 64, 8, nullptr, regime, table_args, 3); }, [] {}});
 
   for (const Case& c : cases) run(c);
 

@@ -30,7 +30,8 @@ std::vector<double> data(std::int64_t n, std::int64_t p, bool holes) {
   std::uint64_t s = 2026;
   for (std::size_t i = 0; i < x.size(); ++i) {
     s = s * 6364136223846793005ULL + 1442695040888963407ULL;
-    x[i] = static_cast<double>(s >> 11) / 9007199254740992.0 + 0.1 * static_cast<double>(i % static_cast<std::size_t>(p));
+    x[i] =
+        static_cast<double>(s >> 11) / 9007199254740992.0 + 0.1 * static_cast<double>(i % static_cast<std::size_t>(p));
     if (holes && i % 37 == 5) x[i] = std::nan("");
   }
   return x;
@@ -53,17 +54,17 @@ void measure(ellipsa_method method, std::int64_t n, std::int64_t p, bool em) {
   failing_alloc::track_bytes();
   const ellipsa_status st = ellipsa_model_fit(&m, &view, o);
   const std::int64_t peak = failing_alloc::peak_bytes();
-  const std::string what = std::string(ellipsa_method_name(method)) + (em ? " (EM)" : "") + " n=" +
-                           std::to_string(n) + " p=" + std::to_string(p);
-  std::printf("%-28s status %-22s peak %11lld estimate %11lld ratio %.2f\n", what.c_str(),
-              ellipsa_status_string(st), static_cast<long long>(peak), static_cast<long long>(estimate),
+  const std::string what = std::string(ellipsa_method_name(method)) + (em ? " (EM)" : "") + " n=" + std::to_string(n) +
+                           " p=" + std::to_string(p);
+  std::printf("%-28s status %-22s peak %11lld estimate %11lld ratio %.2f\n", what.c_str(), ellipsa_status_string(st),
+              static_cast<long long>(peak), static_cast<long long>(estimate),
               static_cast<double>(estimate) / static_cast<double>(peak));
   if (st != ELLIPSA_OK) {
     std::fprintf(stderr, "FAIL %s: %s\n", what.c_str(), ellipsa_last_error());
     ++g_failures;
   } else if (peak > estimate) {
-    std::fprintf(stderr, "FAIL %s: peak %lld above the estimate %lld\n", what.c_str(),
-                 static_cast<long long>(peak), static_cast<long long>(estimate));
+    std::fprintf(stderr, "FAIL %s: peak %lld above the estimate %lld\n", what.c_str(), static_cast<long long>(peak),
+                 static_cast<long long>(estimate));
     ++g_failures;
   }
   ellipsa_model_destroy(m);
@@ -86,9 +87,10 @@ int main() {
   const ellipsa_method all[] = {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS,
                                 ELLIPSA_METHOD_MCD,       ELLIPSA_METHOD_DETMCD,      ELLIPSA_METHOD_MIXTURE};
   for (ellipsa_method method : all) {
-    measure(method, 5000, 6, false);   // tall (FAST-MCD: nested scheme)
-    measure(method, 400, method == ELLIPSA_METHOD_MIXTURE ? 12 : 30, false);  // wider (a mixture needs rows > parameters)
-    measure(method, 60, 3, false);     // small: the fixed overhead dominates
+    measure(method, 5000, 6, false);  // tall (FAST-MCD: nested scheme)
+    measure(method, 400, method == ELLIPSA_METHOD_MIXTURE ? 12 : 30,
+            false);                 // wider (a mixture needs rows > parameters)
+    measure(method, 60, 3, false);  // small: the fixed overhead dominates
   }
   measure(ELLIPSA_METHOD_MIXTURE, 3000, 5, true);
   measure(ELLIPSA_METHOD_MRCD, 40, 120, false);  // MRCD is for n <= p

@@ -119,7 +119,8 @@ TEST(Calibration, MaskingResistanceIsKept) {
   std::vector<double> x(static_cast<size_t>(n * p));
   for (int64_t i = 0; i < n; ++i) {
     double z[p];
-    for (int k = 0; k < p; ++k) z[k] = std::sqrt(lambda[k]) * s.normal() + (i < shifted && k == p - 1 ? 8.0 * std::sqrt(lambda[k]) : 0.0);
+    for (int k = 0; k < p; ++k)
+      z[k] = std::sqrt(lambda[k]) * s.normal() + (i < shifted && k == p - 1 ? 8.0 * std::sqrt(lambda[k]) : 0.0);
     for (int a = 0; a < p; ++a) {
       double v = 0.0;
       for (int k = 0; k < p; ++k) v += q[a][k] * z[k];
@@ -159,8 +160,7 @@ TEST(Calibration, DemoNewBatchFlagsThePlantedFaultsAndFewCleanShots) {
     if (fault) faults_flagged += flag[static_cast<size_t>(i)] == 1;
     else clean_flags += flag[static_cast<size_t>(i)] == 1;
   }
-  std::printf("demo new batch, mould A: %d of 3 faults flagged, %d of 117 clean shots\n", faults_flagged,
-              clean_flags);
+  std::printf("demo new batch, mould A: %d of 3 faults flagged, %d of 117 clean shots\n", faults_flagged, clean_flags);
   EXPECT_EQ(faults_flagged, 3);
   EXPECT_LE(clean_flags, 8);
 }

@@ -74,8 +74,16 @@ struct ScoreBuffers {
   std::vector<int32_t> flag, observed, component, low_density;
   ellipsa_scores scores = ELLIPSA_SCORES_INIT;
   ScoreBuffers(int64_t n, int64_t p, int64_t k = 1)
-      : d2(n), p_value(n), contribution(n * p), conditional_drop(n * p), membership(n * k), log_density(n),
-        flag(n), observed(n), component(n), low_density(n) {
+      : d2(n),
+        p_value(n),
+        contribution(n * p),
+        conditional_drop(n * p),
+        membership(n * k),
+        log_density(n),
+        flag(n),
+        observed(n),
+        component(n),
+        low_density(n) {
     scores.squared_distance = d2.data();
     scores.p_value = p_value.data();
     scores.flag = flag.data();
@@ -98,16 +106,14 @@ inline std::vector<double> correlated_rows(int64_t n, int64_t p, uint64_t seed, 
   std::vector<double> x(static_cast<size_t>(n * p));
   for (int64_t i = 0; i < n; ++i) {
     double common = z(gen);
-    for (int64_t j = 0; j < p; ++j)
-      x[static_cast<size_t>(i * p + j)] = offset + (j + 1) * (0.6 * common + z(gen));
+    for (int64_t j = 0; j < p; ++j) x[static_cast<size_t>(i * p + j)] = offset + (j + 1) * (0.6 * common + z(gen));
   }
   return x;
 }
 
 // Reads a CSV with a header; returns the numeric columns listed (by name) as
 // row-major values.
-inline std::vector<double> read_columns(const std::string& path, const std::vector<std::string>& names,
-                                        int64_t* rows) {
+inline std::vector<double> read_columns(const std::string& path, const std::vector<std::string>& names, int64_t* rows) {
   std::ifstream in(path);
   std::string line;
   std::getline(in, line);

@@ -9,8 +9,7 @@
 
 namespace sheet_test {
 
-inline ellipsa_sheet_value range(const double* data, int64_t rows, int64_t cols,
-                                 const uint8_t* kinds = nullptr) {
+inline ellipsa_sheet_value range(const double* data, int64_t rows, int64_t cols, const uint8_t* kinds = nullptr) {
   ellipsa_sheet_value v = ELLIPSA_SHEET_VALUE_INIT;
   v.kind = ELLIPSA_SHEET_ARG_RANGE;
   v.range = ellipsa_matrix_row_major(data, rows, cols);

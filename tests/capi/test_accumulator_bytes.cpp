@@ -215,17 +215,18 @@ TEST(AccumulatorBytes, ImpossibleStatesAreRefused) {
   EXPECT_NE(msg.find("p = 4"), std::string::npos) << msg;
   EXPECT_EQ(load_status(with_u64(24, 0), &msg), ELLIPSA_ERR_FORMAT);
   EXPECT_EQ(load_status(with_u64(24, uint64_t{1} << 62), &msg), ELLIPSA_ERR_FORMAT);
-  EXPECT_EQ(load_status(with_u64(32, 499), &msg), ELLIPSA_ERR_FORMAT);  // rows != weight
-  EXPECT_EQ(load_status(with_u64(40, 501), &msg), ELLIPSA_ERR_FORMAT);  // direct rows > rows
+  EXPECT_EQ(load_status(with_u64(32, 499), &msg), ELLIPSA_ERR_FORMAT);                        // rows != weight
+  EXPECT_EQ(load_status(with_u64(40, 501), &msg), ELLIPSA_ERR_FORMAT);                        // direct rows > rows
   EXPECT_EQ(load_status(with_u64(48, static_cast<uint64_t>(-1)), &msg), ELLIPSA_ERR_FORMAT);  // skipped < 0
-  EXPECT_EQ(load_status(with_u64(56, 0), &msg), ELLIPSA_ERR_FORMAT);  // rows but no shift
+  EXPECT_EQ(load_status(with_u64(56, 0), &msg), ELLIPSA_ERR_FORMAT);                          // rows but no shift
   EXPECT_NE(msg.find("shift"), std::string::npos) << msg;
-  EXPECT_EQ(load_status(with_u64(56, 2), &msg), ELLIPSA_ERR_FORMAT);  // shifted flag 2
+  EXPECT_EQ(load_status(with_u64(56, 2), &msg), ELLIPSA_ERR_FORMAT);                        // shifted flag 2
   EXPECT_EQ(load_status(with_u64(56, 1 | (uint64_t{1} << 32)), &msg), ELLIPSA_ERR_FORMAT);  // reserved 1
   EXPECT_EQ(load_status(with_u64(72, std::bit_cast<uint64_t>(std::numeric_limits<double>::quiet_NaN())), &msg),
             ELLIPSA_ERR_FORMAT);
   EXPECT_NE(msg.find("finite"), std::string::npos) << msg;
-  EXPECT_EQ(load_status(with_u64(72, std::bit_cast<uint64_t>(std::numeric_limits<double>::infinity())), &msg), ELLIPSA_ERR_FORMAT);
+  EXPECT_EQ(load_status(with_u64(72, std::bit_cast<uint64_t>(std::numeric_limits<double>::infinity())), &msg),
+            ELLIPSA_ERR_FORMAT);
   // First cross-product (the first diagonal entry) made negative.
   const size_t cross = 72 + 2 * 8 * kP;
   EXPECT_EQ(load_status(with_u64(cross, std::bit_cast<uint64_t>(-1.0)), &msg), ELLIPSA_ERR_FORMAT);

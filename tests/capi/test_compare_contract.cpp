@@ -85,7 +85,7 @@ TEST(Compare, IrisValuesThroughTheInterface) {
   EXPECT_EQ(ellipsa_comparison_variables(v.data(), 3, &count, c.get()), ELLIPSA_ERR_SHAPE);
   EXPECT_EQ(count, 4);
   ASSERT_EQ(ellipsa_comparison_variables(v.data(), 4, &count, c.get()), ELLIPSA_OK);
-  EXPECT_NEAR(v[3].t, 14.6253670474101, 1e-10);                // base R t.test (Welch)
+  EXPECT_NEAR(v[3].t, 14.6253670474101, 1e-10);  // base R t.test (Welch)
   EXPECT_NEAR(v[3].df, 89.0433751125165, 1e-9);
   EXPECT_NEAR(v[1].p_holm / 1.81948348210493e-03, 1.0, 1e-7);  // base R p.adjust(, "holm")
   EXPECT_NEAR(v[0].reference_mean, 5.936, 1e-12);              // Fisher (1936), versicolor sepal length mean
@@ -198,7 +198,8 @@ TEST(Compare, NaNRowsAreCountedAndLeftOut) {
   const auto b = correlated_rows(30, 2, 9);
   std::vector<double> with_nan = a;
   with_nan.insert(with_nan.end(), {NAN, 1.0, 2.0, NAN});
-  const ellipsa_matrix va = ellipsa_matrix_row_major(a.data(), 40, 2), vn = ellipsa_matrix_row_major(with_nan.data(), 42, 2);
+  const ellipsa_matrix va = ellipsa_matrix_row_major(a.data(), 40, 2),
+                       vn = ellipsa_matrix_row_major(with_nan.data(), 42, 2);
   const ellipsa_matrix vb = ellipsa_matrix_row_major(b.data(), 30, 2);
   const auto o = classical_only();
   auto c = compare(vn, vb, &o), d = compare(va, vb, &o);

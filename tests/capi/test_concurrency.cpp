@@ -41,10 +41,8 @@ struct Config {
 };
 
 const Config kConfigs[] = {
-    {"classical", ELLIPSA_METHOD_CLASSICAL, 0, 1},
-    {"ledoit-wolf", ELLIPSA_METHOD_LEDOIT_WOLF, 0, 1},
-    {"mcd", ELLIPSA_METHOD_MCD, 20240611, 1},
-    {"detmcd", ELLIPSA_METHOD_DETMCD, 0, 1},
+    {"classical", ELLIPSA_METHOD_CLASSICAL, 0, 1}, {"ledoit-wolf", ELLIPSA_METHOD_LEDOIT_WOLF, 0, 1},
+    {"mcd", ELLIPSA_METHOD_MCD, 20240611, 1},      {"detmcd", ELLIPSA_METHOD_DETMCD, 0, 1},
     {"mixture", ELLIPSA_METHOD_MIXTURE, 77, 2},
 };
 constexpr int kConfigCount = static_cast<int>(sizeof(kConfigs) / sizeof(kConfigs[0]));
@@ -211,9 +209,9 @@ namespace {
 thread_local int t_fitting_thread = -1;
 
 struct ProgressLog {
-  std::atomic<int> off_thread{0};                 // calls on a thread not inside one of our fits
+  std::atomic<int> off_thread{0};                      // calls on a thread not inside one of our fits
   std::array<std::atomic<int>, kThreads> by_thread{};  // calls per fitting thread
-  std::atomic<int> serial{0};                     // calls during the serial reference
+  std::atomic<int> serial{0};                          // calls during the serial reference
 };
 
 int log_progress(const char*, double, void* user) {

@@ -82,8 +82,8 @@ TEST(ConsistencyRule, StatusesAndTheMethodsThatTakeIt) {
         << ellipsa_last_error();
     EXPECT_EQ(ellipsa_fit_options_set_consistency(o.get(), -1), ELLIPSA_ERR_ARGUMENT);
   }
-  for (ellipsa_method method : {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_MRCD,
-                                ELLIPSA_METHOD_MIXTURE}) {
+  for (ellipsa_method method :
+       {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_MRCD, ELLIPSA_METHOD_MIXTURE}) {
     auto o = options(method);
     EXPECT_EQ(ellipsa_fit_options_set_consistency(o.get(), ELLIPSA_CONSISTENCY_MEDIAN), ELLIPSA_ERR_ARGUMENT)
         << ellipsa_method_name(method);
@@ -107,12 +107,11 @@ TEST(ConsistencyRule, MedianRulePutsHalfOfTheRowsInsideTheChiSquareMedian) {
     ASSERT_EQ(ellipsa_model_raw_estimate(mu_n.data(), p, s_n.data(), p * p, normal.get()), ELLIPSA_OK);
     // Rousseeuw & Van Driessen (1999), the defining property: with the rescaled
     // raw scatter, the median squared distance of all rows is chi2_p(0.5).
-    EXPECT_NEAR(median(distances(x, n, p, mu, s)), kChi2Median3, 1e-9 * kChi2Median3)
-        << ellipsa_method_name(method);
+    EXPECT_NEAR(median(distances(x, n, p, mu, s)), kChi2Median3, 1e-9 * kChi2Median3) << ellipsa_method_name(method);
     // The h-subset does not depend on the rule: same raw location, and the two
     // raw scatters differ by the ratio of the reported factors.
-    const double ratio = diagnostic(med.get(), "consistency_factor") /
-                         (diagnostic(normal.get(), "consistency_factor") * diagnostic(normal.get(), "small_sample_raw"));
+    const double ratio = diagnostic(med.get(), "consistency_factor") / (diagnostic(normal.get(), "consistency_factor") *
+                                                                        diagnostic(normal.get(), "small_sample_raw"));
     for (int64_t j = 0; j < p; ++j) EXPECT_DOUBLE_EQ(mu[j], mu_n[j]);
     for (int64_t k = 0; k < p * p; ++k) EXPECT_NEAR(s[k], ratio * s_n[k], 1e-12 * std::abs(s[k]) + 1e-15);
     // Hawkins, Bradu & Kass (1984): rows 1-14 are the planted outliers (1-10

@@ -42,7 +42,8 @@ std::vector<double> demo_complete_rows(const std::vector<std::string>& names, in
     std::vector<double> row;
     for (const auto& n : names)
       for (size_t j = 0; j < header.size(); ++j)
-        if (header[j] == n && j < cells.size() && cells[j] != "NA" && !cells[j].empty()) row.push_back(std::stod(cells[j]));
+        if (header[j] == n && j < cells.size() && cells[j] != "NA" && !cells[j].empty())
+          row.push_back(std::stod(cells[j]));
     if (row.size() != names.size()) continue;
     out.insert(out.end(), row.begin(), row.end());
     ++*rows;
@@ -326,7 +327,8 @@ TEST(EmStatistics, StatusesOfTheHeader) {
     ASSERT_EQ(load(save(fit_mixture(x, n, p, 2, "full").get()), &m_other), ELLIPSA_OK);
     // The same fit again is the same parameters: loads.
     ASSERT_EQ(ellipsa_em_statistics_load(&s, bytes.data(), static_cast<int64_t>(bytes.size()), m_other.get()),
-              ELLIPSA_OK) << ellipsa_last_error();
+              ELLIPSA_OK)
+        << ellipsa_last_error();
     ellipsa_em_statistics_destroy(s);
     s = nullptr;
     Stats c = stats_of(fit_mixture(two_clusters(n, 6), n, p, 2, "full").get(), x, p, {0, n});

@@ -126,7 +126,8 @@ TEST(Fit, DataProblemsGetAStatusAndAMessageNamingTheColumn) {
 
   // Collinear columns: mass = melt + pressure exactly.
   refill(5);
-  for (int i = 0; i < 30; ++i) x[static_cast<size_t>(i * 3 + 2)] = x[static_cast<size_t>(i * 3)] + x[static_cast<size_t>(i * 3 + 1)];
+  for (int i = 0; i < 30; ++i)
+    x[static_cast<size_t>(i * 3 + 2)] = x[static_cast<size_t>(i * 3)] + x[static_cast<size_t>(i * 3 + 1)];
   const ellipsa_status s = ellipsa_model_fit(&m, &v, o.get());
   EXPECT_EQ(s, ELLIPSA_NUM_SINGULAR) << ellipsa_status_string(s) << ": " << last();
   EXPECT_TRUE(mentions("collinear")) << last();
@@ -189,8 +190,10 @@ TEST(Fit, RowMajorColumnMajorAndSlicedViewsGiveIdenticalModels) {
   const int64_t wide = p + 2;
   std::vector<double> big(static_cast<size_t>(2 * n * wide), -9.0);
   for (int64_t i = 0; i < n; ++i)
-    for (int64_t j = 0; j < p; ++j) big[static_cast<size_t>((2 * i) * wide + 1 + j)] = rm[static_cast<size_t>(i * p + j)];
-  const ellipsa_matrix views[] = {ellipsa_matrix_row_major(rm.data(), n, p), ellipsa_matrix_col_major(cm.data(), n, p),
+    for (int64_t j = 0; j < p; ++j)
+      big[static_cast<size_t>((2 * i) * wide + 1 + j)] = rm[static_cast<size_t>(i * p + j)];
+  const ellipsa_matrix views[] = {ellipsa_matrix_row_major(rm.data(), n, p),
+                                  ellipsa_matrix_col_major(cm.data(), n, p),
                                   {big.data() + 1, n, p, 2 * wide, 1}};
   for (ellipsa_method method : {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_MCD,
                                 ELLIPSA_METHOD_DETMCD, ELLIPSA_METHOD_MIXTURE}) {
@@ -217,10 +220,10 @@ TEST(Fit, ProgressCallbackCanCancel) {
   ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), 200, 3);
   auto o = options(ELLIPSA_METHOD_MCD);
   int calls = 0;
-  ASSERT_EQ(ellipsa_fit_options_set_progress(
-                o.get(), [](const char*, double, void* user) { return ++*static_cast<int*>(user) >= 2 ? 1 : 0; },
-                &calls),
-            ELLIPSA_OK);
+  ASSERT_EQ(
+      ellipsa_fit_options_set_progress(
+          o.get(), [](const char*, double, void* user) { return ++*static_cast<int*>(user) >= 2 ? 1 : 0; }, &calls),
+      ELLIPSA_OK);
   ellipsa_model* m = nullptr;
   EXPECT_EQ(ellipsa_model_fit(&m, &v, o.get()), ELLIPSA_ERR_CANCELLED);
   EXPECT_EQ(m, nullptr);
@@ -230,12 +233,14 @@ TEST(Fit, ProgressCallbackCanCancel) {
 TEST(Fit, ExactFitIsReportedWithTheHyperplane) {
   // 30 rows, 24 of them on the plane z = x + 2y + 1: more than h = 17 rows.
   std::vector<double> x = correlated_rows(30, 3, 10);
-  for (int i = 0; i < 24; ++i) x[static_cast<size_t>(i * 3 + 2)] = x[static_cast<size_t>(i * 3)] + 2 * x[static_cast<size_t>(i * 3 + 1)] + 1;
+  for (int i = 0; i < 24; ++i)
+    x[static_cast<size_t>(i * 3 + 2)] = x[static_cast<size_t>(i * 3)] + 2 * x[static_cast<size_t>(i * 3 + 1)] + 1;
   ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), 30, 3);
   for (ellipsa_method method : {ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_DETMCD}) {
     auto o = options(method);
     ellipsa_model* m = nullptr;
-    EXPECT_EQ(ellipsa_model_fit(&m, &v, o.get()), ELLIPSA_NUM_EXACT_FIT) << ellipsa_method_name(method) << ": " << last();
+    EXPECT_EQ(ellipsa_model_fit(&m, &v, o.get()), ELLIPSA_NUM_EXACT_FIT)
+        << ellipsa_method_name(method) << ": " << last();
     EXPECT_TRUE(mentions("rows lie on the hyperplane")) << last();
     EXPECT_TRUE(mentions("24 of 30")) << last();
     EXPECT_EQ(m, nullptr);

@@ -35,7 +35,8 @@ TEST(FitStarts, RangeAndMethods) {
   EXPECT_EQ(ellipsa_fit_options_set_starts(o.get(), 1), ELLIPSA_OK);
   EXPECT_EQ(ellipsa_fit_options_set_starts(o.get(), 100000), ELLIPSA_OK);
   EXPECT_EQ(ellipsa_fit_options_set_starts(nullptr, 5), ELLIPSA_ERR_NULL);
-  for (ellipsa_method m : {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_DETMCD, ELLIPSA_METHOD_MRCD, ELLIPSA_METHOD_MIXTURE}) {
+  for (ellipsa_method m :
+       {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_DETMCD, ELLIPSA_METHOD_MRCD, ELLIPSA_METHOD_MIXTURE}) {
     auto other = make(m);
     EXPECT_EQ(ellipsa_fit_options_set_starts(other.get(), 5), ELLIPSA_ERR_ARGUMENT) << ellipsa_method_name(m);
   }

@@ -12,16 +12,15 @@
 
 TEST(Foundation, VersionOfHeaderAndLibraryAgree) {
   EXPECT_EQ(ellipsa_version_number(), ELLIPSA_VERSION_NUMBER);
-  const std::string expected = std::to_string(ELLIPSA_VERSION_MAJOR) + "." +
-                               std::to_string(ELLIPSA_VERSION_MINOR) + "." +
-                               std::to_string(ELLIPSA_VERSION_PATCH);
+  const std::string expected = std::to_string(ELLIPSA_VERSION_MAJOR) + "." + std::to_string(ELLIPSA_VERSION_MINOR) +
+                               "." + std::to_string(ELLIPSA_VERSION_PATCH);
   EXPECT_EQ(expected, ellipsa_version());
 }
 
 TEST(Foundation, EveryStatusHasADistinctName) {
-  const ellipsa_status codes[] = {ELLIPSA_OK,          ELLIPSA_ERR_NULL,     ELLIPSA_ERR_ARGUMENT,
-                                  ELLIPSA_ERR_SHAPE,   ELLIPSA_ERR_STATE,    ELLIPSA_ERR_DATA,
-                                  ELLIPSA_ERR_FORMAT,  ELLIPSA_ERR_MEMORY,   ELLIPSA_ERR_CANCELLED,
+  const ellipsa_status codes[] = {ELLIPSA_OK,           ELLIPSA_ERR_NULL,     ELLIPSA_ERR_ARGUMENT,
+                                  ELLIPSA_ERR_SHAPE,    ELLIPSA_ERR_STATE,    ELLIPSA_ERR_DATA,
+                                  ELLIPSA_ERR_FORMAT,   ELLIPSA_ERR_MEMORY,   ELLIPSA_ERR_CANCELLED,
                                   ELLIPSA_ERR_INTERNAL, ELLIPSA_NUM_SINGULAR, ELLIPSA_NUM_NOT_CONVERGED,
                                   ELLIPSA_NUM_EXACT_FIT};
   std::set<std::string> names;

@@ -39,7 +39,8 @@ std::vector<double> demo_complete_rows(const std::vector<std::string>& names, in
     std::vector<double> row;
     for (const auto& n : names)
       for (size_t j = 0; j < header.size(); ++j)
-        if (header[j] == n && j < cells.size() && cells[j] != "NA" && !cells[j].empty()) row.push_back(std::stod(cells[j]));
+        if (header[j] == n && j < cells.size() && cells[j] != "NA" && !cells[j].empty())
+          row.push_back(std::stod(cells[j]));
     if (row.size() != names.size()) continue;
     out.insert(out.end(), row.begin(), row.end());
     ++*rows;
@@ -47,8 +48,8 @@ std::vector<double> demo_complete_rows(const std::vector<std::string>& names, in
   return out;
 }
 
-const std::vector<std::string> kColumns = {"melt_temp_C", "cooling_water_C", "injection_pressure_bar",
-                                           "hold_time_s", "cap_mass_g"};
+const std::vector<std::string> kColumns = {"melt_temp_C", "cooling_water_C", "injection_pressure_bar", "hold_time_s",
+                                           "cap_mass_g"};
 
 std::vector<int64_t> row_set(const ellipsa_model* m, int32_t which) {
   int64_t count = 0;
@@ -62,7 +63,8 @@ Acc accumulate(const std::vector<double>& x, int64_t p, const std::vector<char>&
   Acc a = make_accumulator(p);
   std::vector<double> rows;
   for (size_t i = 0; i < take.size(); ++i)
-    if (take[i]) rows.insert(rows.end(), x.begin() + static_cast<long>(i * p), x.begin() + static_cast<long>((i + 1) * p));
+    if (take[i])
+      rows.insert(rows.end(), x.begin() + static_cast<long>(i * p), x.begin() + static_cast<long>((i + 1) * p));
   const ellipsa_matrix v = ellipsa_matrix_row_major(rows.data(), static_cast<int64_t>(rows.size()) / p, p);
   EXPECT_EQ(ellipsa_accumulator_add(a.get(), &v), ELLIPSA_OK) << ellipsa_last_error();
   return a;

@@ -140,8 +140,8 @@ TEST(MemoryCeiling, ProductsThatOverflowAreRefused) {
   const Case cases[] = {{1, int64_t{1} << 31, ELLIPSA_ERR_MEMORY},
                         {3, int64_t{1} << 33, ELLIPSA_ERR_MEMORY},
                         {int64_t{1} << 40, int64_t{1} << 30, ELLIPSA_ERR_SHAPE}};
-  for (ellipsa_method method : {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_OAS, ELLIPSA_METHOD_MCD,
-                                ELLIPSA_METHOD_DETMCD, ELLIPSA_METHOD_MRCD, ELLIPSA_METHOD_MIXTURE}) {
+  for (ellipsa_method method : {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_OAS, ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_DETMCD,
+                                ELLIPSA_METHOD_MRCD, ELLIPSA_METHOD_MIXTURE}) {
     auto o = make(method);
     for (const Case& c : cases) {
       SCOPED_TRACE(std::string(ellipsa_method_name(method)) + " " + std::to_string(c.rows) + " x " +

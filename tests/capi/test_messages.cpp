@@ -60,8 +60,9 @@ TEST(Messages, FitNamesTheCellByColumnNameAndDataRowUnderEveryPolicy) {
   Options refuse = named_options(ELLIPSA_METHOD_CLASSICAL);
   ASSERT_EQ(ellipsa_fit_options_set_missing(refuse.get(), ELLIPSA_MISSING_REFUSE), ELLIPSA_OK);
   EXPECT_EQ(fit(refused, refuse), ELLIPSA_ERR_DATA);
-  EXPECT_EQ(last(), "ellipsa_model_fit: data row 3, column \"pressure\" is missing (NaN), and missing values are "
-                    "refused here");
+  EXPECT_EQ(last(),
+            "ellipsa_model_fit: data row 3, column \"pressure\" is missing (NaN), and missing values are "
+            "refused here");
 }
 
 TEST(Messages, FitNamesAColumnByItsName) {
@@ -89,13 +90,15 @@ TEST(Messages, ScoringNamesTheCellWithTheModelsColumnNames) {
   const ellipsa_matrix s = ellipsa_matrix_row_major(rows.data(), 4, 3);
   ScoreBuffers b(4, 3);
   EXPECT_EQ(ellipsa_model_score(&b.scores, m.get(), &s, 0.975), ELLIPSA_ERR_DATA);
-  EXPECT_EQ(last(), "ellipsa_model_score: data row 3, column \"pressure\" is infinite (-Inf); NaN marks a missing "
-                    "value, Inf is not accepted");
+  EXPECT_EQ(last(),
+            "ellipsa_model_score: data row 3, column \"pressure\" is infinite (-Inf); NaN marks a missing "
+            "value, Inf is not accepted");
   ellipsa_shape_test shape;
   shape.struct_size = sizeof shape;
   EXPECT_EQ(ellipsa_data_shape(&shape, &s), ELLIPSA_ERR_DATA);
-  EXPECT_EQ(last(), "ellipsa_data_shape: data row 3, column \"x2\" is infinite (-Inf); NaN marks a missing "
-                    "value, Inf is not accepted");
+  EXPECT_EQ(last(),
+            "ellipsa_data_shape: data row 3, column \"x2\" is infinite (-Inf); NaN marks a missing "
+            "value, Inf is not accepted");
 }
 
 TEST(Messages, MixtureScoringNamesTheCellLikeTheSingleProfile) {
@@ -107,8 +110,8 @@ TEST(Messages, MixtureScoringNamesTheCellLikeTheSingleProfile) {
   ASSERT_EQ(ellipsa_model_fit(&raw, &v, o.get()), ELLIPSA_OK);
   Model m(raw);
   std::vector<double> rows = correlated_rows(4, 3, 43);
-  rows[1 * 3 + 0] = NAN;        // an incomplete row before it is scored on its pattern
-  rows[2 * 3 + 2] = INFINITY;   // data row 3, "mass"
+  rows[1 * 3 + 0] = NAN;       // an incomplete row before it is scored on its pattern
+  rows[2 * 3 + 2] = INFINITY;  // data row 3, "mass"
   const ellipsa_matrix s = ellipsa_matrix_row_major(rows.data(), 4, 3);
   ScoreBuffers b(4, 3);
   EXPECT_EQ(ellipsa_model_score(&b.scores, m.get(), &s, 0.975), ELLIPSA_ERR_DATA);

@@ -35,14 +35,13 @@ std::string reason(const ellipsa_model* m, int64_t index) {
   return r == nullptr ? std::string("(null)") : std::string(r);
 }
 
-Model fit_mixture(const std::vector<double>& x, int64_t n, int64_t p, int32_t k_min, int32_t k_max,
-                  int32_t structure, int32_t max_iterations, double tolerance, ellipsa_status* status) {
+Model fit_mixture(const std::vector<double>& x, int64_t n, int64_t p, int32_t k_min, int32_t k_max, int32_t structure,
+                  int32_t max_iterations, double tolerance, ellipsa_status* status) {
   auto o = capi_test::options(ELLIPSA_METHOD_MIXTURE);
   EXPECT_EQ(ellipsa_fit_options_set_components(o.get(), k_min, k_max), ELLIPSA_OK);
   EXPECT_EQ(ellipsa_fit_options_set_structure(o.get(), structure), ELLIPSA_OK);
   EXPECT_EQ(ellipsa_fit_options_set_seed(o.get(), 17), ELLIPSA_OK);
-  if (max_iterations > 0)
-    EXPECT_EQ(ellipsa_fit_options_set_iterations(o.get(), max_iterations, tolerance), ELLIPSA_OK);
+  if (max_iterations > 0) EXPECT_EQ(ellipsa_fit_options_set_iterations(o.get(), max_iterations, tolerance), ELLIPSA_OK);
   const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
   ellipsa_model* m = nullptr;
   *status = ellipsa_model_fit(&m, &v, o.get());

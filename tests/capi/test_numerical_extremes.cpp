@@ -143,7 +143,8 @@ TEST(NumericalExtremes, ColumnScalesDifferingBy1e12) {
     ellipsa_method method;
     int32_t structure;
   };
-  for (const Case c : {Case{ELLIPSA_METHOD_CLASSICAL, 0}, Case{ELLIPSA_METHOD_MCD, 0}, Case{ELLIPSA_METHOD_DETMCD, 0}}) {
+  for (const Case c :
+       {Case{ELLIPSA_METHOD_CLASSICAL, 0}, Case{ELLIPSA_METHOD_MCD, 0}, Case{ELLIPSA_METHOD_DETMCD, 0}}) {
     SCOPED_TRACE(std::string(ellipsa_method_name(c.method)) + " structure " + std::to_string(c.structure));
     const Fit base = fit(c.method, x, n, p, c.structure);
     const Fit f = fit(c.method, y, n, p, c.structure);
@@ -152,10 +153,12 @@ TEST(NumericalExtremes, ColumnScalesDifferingBy1e12) {
     ASSERT_TRUE(all_finite(f.location) && all_finite(f.scatter) && all_finite(f.d2));
     expect_close(f.d2, base.d2, 1.0, "squared distance");
     for (int64_t j = 0; j < p; ++j) {
-      EXPECT_NEAR(f.location[j] / scale[j], base.location[j], kRelativeTolerance * std::max(1.0, std::abs(base.location[j])));
+      EXPECT_NEAR(f.location[j] / scale[j], base.location[j],
+                  kRelativeTolerance * std::max(1.0, std::abs(base.location[j])));
       for (int64_t k = 0; k < p; ++k) {
         const double want = base.scatter[j * p + k];
-        EXPECT_NEAR(f.scatter[j * p + k] / (scale[j] * scale[k]), want, kRelativeTolerance * std::max(1.0, std::abs(want)));
+        EXPECT_NEAR(f.scatter[j * p + k] / (scale[j] * scale[k]), want,
+                    kRelativeTolerance * std::max(1.0, std::abs(want)));
       }
     }
   }

@@ -17,7 +17,8 @@ namespace {
 Model fit(ellipsa_method method, const std::vector<double>& x, int64_t n, int64_t p,
           int32_t reference = ELLIPSA_REFERENCE_MODEL, int32_t divisor = 0) {
   auto o = options(method);
-  if (reference != ELLIPSA_REFERENCE_MODEL) EXPECT_EQ(ellipsa_fit_options_set_reference(o.get(), reference), ELLIPSA_OK);
+  if (reference != ELLIPSA_REFERENCE_MODEL)
+    EXPECT_EQ(ellipsa_fit_options_set_reference(o.get(), reference), ELLIPSA_OK);
   if (divisor != 0) EXPECT_EQ(ellipsa_fit_options_set_divisor(o.get(), divisor), ELLIPSA_OK);
   ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
   ellipsa_model* raw = nullptr;
@@ -39,8 +40,8 @@ std::string drop_object(std::string s, const std::string& key) {
 }  // namespace
 
 TEST(ScoreReference, NamesRoundTripAndUnknownNamesAreRefused) {
-  for (int32_t r : {ELLIPSA_REFERENCE_MODEL, ELLIPSA_REFERENCE_CHI2, ELLIPSA_REFERENCE_NEW_ROWS,
-                    ELLIPSA_REFERENCE_FITTING_ROWS}) {
+  for (int32_t r :
+       {ELLIPSA_REFERENCE_MODEL, ELLIPSA_REFERENCE_CHI2, ELLIPSA_REFERENCE_NEW_ROWS, ELLIPSA_REFERENCE_FITTING_ROWS}) {
     int32_t back = -1;
     ASSERT_EQ(ellipsa_reference_from_name(&back, ellipsa_reference_name(r)), ELLIPSA_OK);
     EXPECT_EQ(back, r);
@@ -70,7 +71,7 @@ TEST(ScoreReference, ClassicalNewRowsFollowTheTracyYoungMasonPhaseTwoLimit) {
   int between = 0;
   for (int64_t i = 0; i < n; ++i) {
     EXPECT_EQ(b.flag[i], b.d2[i] > limit ? 1 : 0) << i;
-    EXPECT_EQ(b.p_value[i] < 1.0 - level, b.d2[i] > limit) << i;
+    EXPECT_EQ(b.p_value[i]<1.0 - level, b.d2[i]> limit) << i;
     between += b.d2[i] > chi2 && b.d2[i] <= limit;
   }
   EXPECT_GT(between, 0);  // some rows lie where the two limits disagree (else the test proves nothing)
@@ -210,7 +211,8 @@ TEST(ScoreReference, RobustFitsUseThePhaseTwoFormWithTheirEffectiveRows) {
     EXPECT_EQ(diagnostic(mcd.get(), "reference"), ELLIPSA_REFERENCE_NEW_ROWS);
     ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
     for (int32_t r : {ELLIPSA_REFERENCE_NEW_ROWS, ELLIPSA_REFERENCE_FITTING_ROWS}) {
-      const double m = diagnostic(mcd.get(), r == ELLIPSA_REFERENCE_NEW_ROWS ? "reference_rows" : "fitting_reference_rows");
+      const double m =
+          diagnostic(mcd.get(), r == ELLIPSA_REFERENCE_NEW_ROWS ? "reference_rows" : "fitting_reference_rows");
       EXPECT_GT(m, p + 1.0);
       const double limit = phase2_limit(m, p, 0.975);
       ScoreBuffers a(n, p);
@@ -280,7 +282,8 @@ TEST(SmallSample, SwitchScalesTheRawAndFinalScatterByTheReportedFactors) {
     std::vector<double> loc0(p), s0(p * p), loc1(p), s1(p * p);
     ASSERT_EQ(ellipsa_model_raw_estimate(loc0.data(), p, s0.data(), p * p, on_off[0].get()), ELLIPSA_OK);
     ASSERT_EQ(ellipsa_model_raw_estimate(loc1.data(), p, s1.data(), p * p, on_off[1].get()), ELLIPSA_OK);
-    for (int64_t k = 0; k < p * p; ++k) EXPECT_NEAR(s1[k], raw_factor * s0[k], 1e-12 * std::abs(raw_factor * s0[k]) + 1e-15);
+    for (int64_t k = 0; k < p * p; ++k)
+      EXPECT_NEAR(s1[k], raw_factor * s0[k], 1e-12 * std::abs(raw_factor * s0[k]) + 1e-15);
   }
   // The switch exists for mcd and detmcd only.
   for (ellipsa_method method : {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_MRCD, ELLIPSA_METHOD_MIXTURE}) {

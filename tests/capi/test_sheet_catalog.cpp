@@ -275,8 +275,7 @@ TEST(SheetCatalog, ShapesFollowTheCatalog) {
   for (const auto& c : cases) {
     SCOPED_TRACE(c.name);
     int64_t r = 0, k = 0;
-    ASSERT_EQ(ellipsa_sheet_result_shape(&r, &k, index_of(c.name), c.args.data(),
-                                         static_cast<int32_t>(c.args.size())),
+    ASSERT_EQ(ellipsa_sheet_result_shape(&r, &k, index_of(c.name), c.args.data(), static_cast<int32_t>(c.args.size())),
               ELLIPSA_OK)
         << ellipsa_last_error();
     EXPECT_EQ(r, c.rows);

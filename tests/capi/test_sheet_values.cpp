@@ -241,8 +241,7 @@ TEST(SheetValues, LimitsAndDistributionsEqualTheCFunctions) {
 // T^2 = n * ELL.DIST2(mu0, reference = the data, "classical").
 TEST(SheetValues, SweatExampleThroughTheSheetFunctions) {
   int64_t n = 0;
-  const auto x = capi_test::read_columns(std::string(ELLIPSA_REFERENCE_DIR) +
-                                             "/hotelling/sweat_johnson_wichern.csv",
+  const auto x = capi_test::read_columns(std::string(ELLIPSA_REFERENCE_DIR) + "/hotelling/sweat_johnson_wichern.csv",
                                          {"sweat_rate", "sodium", "potassium"}, &n);
   ASSERT_EQ(n, 20);
   const double mu0[3] = {4.0, 50.0, 10.0};

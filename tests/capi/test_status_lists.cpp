@@ -29,7 +29,7 @@ const ellipsa_method kAllMethods[] = {ELLIPSA_METHOD_CLASSICAL, ELLIPSA_METHOD_L
 
 struct Setter {
   const char* label;
-  std::set<ellipsa_method> serves;  // the methods the header names for it
+  std::set<ellipsa_method> serves;                           // the methods the header names for it
   std::function<ellipsa_status(ellipsa_fit_options*)> call;  // a valid value
 };
 
@@ -70,9 +70,10 @@ const std::vector<Setter>& setters() {
 // call may return. ARGUMENT is not among them: a setting that does not apply
 // is refused by its setter, so a fit never sees one (the fit's ARGUMENT is
 // for an unreadable ELLIPSA_THREADS or ELLIPSA_MEMORY_LIMIT, unset here).
-const std::set<ellipsa_status> kFitStatuses = {ELLIPSA_OK,           ELLIPSA_ERR_NULL,          ELLIPSA_ERR_SHAPE,
-                                               ELLIPSA_ERR_DATA,     ELLIPSA_NUM_SINGULAR,      ELLIPSA_NUM_EXACT_FIT,
-                                               ELLIPSA_NUM_NOT_CONVERGED, ELLIPSA_ERR_CANCELLED, ELLIPSA_ERR_MEMORY};
+const std::set<ellipsa_status> kFitStatuses = {
+    ELLIPSA_OK,           ELLIPSA_ERR_NULL,      ELLIPSA_ERR_SHAPE,         ELLIPSA_ERR_DATA,
+    ELLIPSA_NUM_SINGULAR, ELLIPSA_NUM_EXACT_FIT, ELLIPSA_NUM_NOT_CONVERGED, ELLIPSA_ERR_CANCELLED,
+    ELLIPSA_ERR_MEMORY};
 
 // Awkward data of n rows and p columns, row-major.
 std::vector<double> awkward(int kind, int64_t n, int64_t p) {
@@ -82,16 +83,28 @@ std::vector<double> awkward(int kind, int64_t n, int64_t p) {
     for (int64_t j = 0; j < p; ++j) {
       double& v = x[static_cast<size_t>(i * p + j)];
       switch (kind) {
-        case 1: if (j == 0) v = 2.5; break;                        // a constant column
-        case 2: v = 1.0; break;                                     // every row equal
-        case 3: if (i % 2 == 1) v = x[static_cast<size_t>((i - 1) * p + j)]; break;  // duplicated rows
-        case 4: if (i == 0) v = nan; break;                         // a row without values
-        case 5: if (j == p - 1) v = nan; break;                     // a column without values
-        case 6: v *= 1e300; break;                                  // near overflow
-        case 7: v *= 1e-300; break;                                 // near underflow
-        case 8: if (j == p - 1 && p > 1) v = 2.0 * x[static_cast<size_t>(i * p)]; break;  // collinear
-        case 9: if ((i + j) % 3 == 0) v = nan; break;               // scattered NaN
-        case 10: v = static_cast<double>(i % 2); break;             // two points only
+        case 1:
+          if (j == 0) v = 2.5;
+          break;                 // a constant column
+        case 2: v = 1.0; break;  // every row equal
+        case 3:
+          if (i % 2 == 1) v = x[static_cast<size_t>((i - 1) * p + j)];
+          break;  // duplicated rows
+        case 4:
+          if (i == 0) v = nan;
+          break;  // a row without values
+        case 5:
+          if (j == p - 1) v = nan;
+          break;                     // a column without values
+        case 6: v *= 1e300; break;   // near overflow
+        case 7: v *= 1e-300; break;  // near underflow
+        case 8:
+          if (j == p - 1 && p > 1) v = 2.0 * x[static_cast<size_t>(i * p)];
+          break;  // collinear
+        case 9:
+          if ((i + j) % 3 == 0) v = nan;
+          break;                                         // scattered NaN
+        case 10: v = static_cast<double>(i % 2); break;  // two points only
         default: break;
       }
     }
@@ -121,7 +134,8 @@ TEST(StatusLists, SettersRefuseExactlyTheMethodsTheyDoNotServe) {
   // The exact wording of the refusal, for one setter.
   Options det = options(ELLIPSA_METHOD_DETMCD);
   ASSERT_EQ(ellipsa_fit_options_set_seed(det.get(), 1), ELLIPSA_ERR_ARGUMENT);
-  EXPECT_EQ(last(), "ellipsa_fit_options_set_seed: a seed does not apply to method detmcd (it applies to mcd, mixture)");
+  EXPECT_EQ(last(),
+            "ellipsa_fit_options_set_seed: a seed does not apply to method detmcd (it applies to mcd, mixture)");
   // Setters every method takes.
   for (ellipsa_method m : kAllMethods) {
     Options o = options(m);
@@ -261,7 +275,8 @@ TEST(StatusLists, StatusesNoOtherContractTestReaches) {
     ellipsa_accumulator* acc = nullptr;
     ASSERT_EQ(ellipsa_accumulator_create(&acc, 3), ELLIPSA_OK);
     std::vector<double> y = correlated_rows(30, 3, 14);
-    for (int i = 0; i < 30; ++i) y[static_cast<size_t>(i * 3 + 2)] = y[static_cast<size_t>(i * 3)] - y[static_cast<size_t>(i * 3 + 1)];
+    for (int i = 0; i < 30; ++i)
+      y[static_cast<size_t>(i * 3 + 2)] = y[static_cast<size_t>(i * 3)] - y[static_cast<size_t>(i * 3 + 1)];
     const ellipsa_matrix vy = ellipsa_matrix_row_major(y.data(), 30, 3);
     ASSERT_EQ(ellipsa_accumulator_add(acc, &vy), ELLIPSA_OK);
     Options named = options(ELLIPSA_METHOD_CLASSICAL);
@@ -358,8 +373,9 @@ TEST(StatusLists, StructureAndMissingPolicyNamesRoundTrip) {
   EXPECT_STREQ(ellipsa_structure_name(0), "unknown");
   int32_t out = 0;
   EXPECT_EQ(ellipsa_structure_from_name(&out, "round"), ELLIPSA_ERR_ARGUMENT);
-  EXPECT_EQ(last(), "ellipsa_structure_from_name: unknown covariance structure 'round' (known: full, diagonal, "
-                    "tied, spherical, all)");
+  EXPECT_EQ(last(),
+            "ellipsa_structure_from_name: unknown covariance structure 'round' (known: full, diagonal, "
+            "tied, spherical, all)");
   EXPECT_EQ(ellipsa_structure_from_name(nullptr, "full"), ELLIPSA_ERR_NULL);
   EXPECT_EQ(ellipsa_structure_from_name(&out, nullptr), ELLIPSA_ERR_NULL);
   for (int32_t p : {ELLIPSA_MISSING_DROP_ROWS, ELLIPSA_MISSING_REFUSE, ELLIPSA_MISSING_EM}) {
@@ -381,8 +397,8 @@ TEST(StatusLists, StructureAndMissingPolicyNamesRoundTrip) {
   ellipsa_model* raw = nullptr;
   ASSERT_EQ(ellipsa_model_fit(&raw, &v, o.get()), ELLIPSA_OK) << last();
   Model m(raw);
-  EXPECT_NE(save(m.get()).find(std::string("\"structure\": \"") + ellipsa_structure_name(ELLIPSA_STRUCTURE_DIAGONAL) +
-                               "\""),
-            std::string::npos)
+  EXPECT_NE(
+      save(m.get()).find(std::string("\"structure\": \"") + ellipsa_structure_name(ELLIPSA_STRUCTURE_DIAGONAL) + "\""),
+      std::string::npos)
       << save(m.get()).substr(0, 400);
 }

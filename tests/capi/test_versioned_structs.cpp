@@ -48,7 +48,7 @@ TEST(VersionedStructs, CandidateArrayIsWalkedWithTheCallersElementSize) {
     EXPECT_EQ(longer[i].v1.components, table[i].components);
     EXPECT_EQ(longer[i].v1.bic, table[i].bic);
     EXPECT_EQ(longer[i].v1.chosen, table[i].chosen);
-    EXPECT_EQ(longer[i].added_later, -7.0);  // not ours to write
+    EXPECT_EQ(longer[i].added_later, -7.0);                                                // not ours to write
     EXPECT_EQ(longer[i].v1.struct_size, static_cast<int64_t>(sizeof(ellipsa_candidate)));  // bytes written
   }
 }

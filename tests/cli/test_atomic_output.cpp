@@ -145,7 +145,7 @@ TEST_F(AtomicOutputTest, KeepsPermissionsAndFollowsSymlink) {
 }
 
 TEST_F(AtomicOutputTest, BadTargetsAreOutputErrors) {
-  EXPECT_THROW(AtomicOutput{dir_}, OutputError);                      // a folder
+  EXPECT_THROW(AtomicOutput{dir_}, OutputError);                       // a folder
   EXPECT_THROW(AtomicOutput{dir_ + "/missing/out.csv"}, OutputError);  // no such folder
   EXPECT_THROW(AtomicOutput{""}, OutputError);
   try {

@@ -87,7 +87,8 @@ constexpr double kInf = std::numeric_limits<double>::infinity();
 
 void expect_values(const std::vector<double>& got, const std::vector<double>& want) {
   ASSERT_EQ(got.size(), want.size());
-  for (std::size_t i = 0; i < got.size(); ++i) EXPECT_TRUE(same_bits(got[i], want[i])) << i << ": " << got[i] << " vs " << want[i];
+  for (std::size_t i = 0; i < got.size(); ++i)
+    EXPECT_TRUE(same_bits(got[i], want[i])) << i << ": " << got[i] << " vs " << want[i];
 }
 
 }  // namespace
@@ -218,7 +219,8 @@ TEST(CsvDialect, LeadingBlankLinesBeforeHeader) {
 }
 
 TEST(CsvNumbers, SignsSpacesInfinitiesAndRange) {
-  const ReadResult r = read_text("v\n +1.5 \n\t-2\ninf\n-inf\n+Infinity\n-0\n1e400\n-1e400\n1e-400\n4.9e-324\n.5\n5.\n");
+  const ReadResult r =
+      read_text("v\n +1.5 \n\t-2\ninf\n-inf\n+Infinity\n-0\n1e400\n-1e400\n1e-400\n4.9e-324\n.5\n5.\n");
   expect_values(r.values, {1.5, -2, kInf, -kInf, kInf, -0.0, kInf, -kInf, 0.0, 4.9e-324, 0.5, 5.0});
   EXPECT_TRUE(std::signbit(r.values[5]));
 }
@@ -245,16 +247,20 @@ TEST(CsvNumbers, DecimalCommaRefusesPoint) {
 }
 
 TEST(CsvErrors, ExactMessages) {
-  EXPECT_EQ(error_of(data_file("ragged.csv")), data_file("ragged.csv") + ":3: expected 3 fields as in the header, found 2");
+  EXPECT_EQ(error_of(data_file("ragged.csv")),
+            data_file("ragged.csv") + ":3: expected 3 fields as in the header, found 2");
   EXPECT_EQ(error_of(data_file("unterminated_quote.csv")),
-            data_file("unterminated_quote.csv") + ":3: column 2 (\"y\"): quoted field is not closed before the end of the file");
-  EXPECT_EQ(error_of(data_file("text_after_quote.csv")),
-            data_file("text_after_quote.csv") + ":3: column 2 (\"y\"): unexpected character '5' after the closing quote");
+            data_file("unterminated_quote.csv") +
+                ":3: column 2 (\"y\"): quoted field is not closed before the end of the file");
+  EXPECT_EQ(
+      error_of(data_file("text_after_quote.csv")),
+      data_file("text_after_quote.csv") + ":3: column 2 (\"y\"): unexpected character '5' after the closing quote");
   EXPECT_EQ(error_of(data_file("no_numeric.csv")),
             data_file("no_numeric.csv") +
                 ": no numeric columns: column 1 (\"id\") has 'A' on line 2; column 2 (\"name\") has 'alpha' on line 2");
   EXPECT_EQ(error_of(data_file("empty.csv")), data_file("empty.csv") + ": the file is empty (no header line)");
-  EXPECT_EQ(error_of(data_file("header_only.csv")), data_file("header_only.csv") + ": the file has a header line but no data rows");
+  EXPECT_EQ(error_of(data_file("header_only.csv")),
+            data_file("header_only.csv") + ": the file has a header line but no data rows");
   EXPECT_EQ(error_of(data_file("duplicate_names.csv")),
             data_file("duplicate_names.csv") + ":1: column 3 (\"x\"): duplicate column name (also column 1)");
   EXPECT_EQ(error_of(data_file("latin1_header.csv")),
@@ -263,10 +269,14 @@ TEST(CsvErrors, ExactMessages) {
   EXPECT_EQ(error_of(data_file("blank_line_inside.csv")),
             data_file("blank_line_inside.csv") + ":3: blank line between data rows (expected 2 fields)");
   EXPECT_EQ(error_of(data_file("ambiguous_separator.csv")),
-            data_file("ambiguous_separator.csv") + ":1: cannot tell the separator: the header has as many ',' as ';'; name it explicitly");
-  EXPECT_EQ(error_of(data_file("utf16.csv")), data_file("utf16.csv") + ":1: the file is UTF-16 encoded; save it as UTF-8");
-  EXPECT_EQ(error_of(data_file("does_not_exist.csv")), data_file("does_not_exist.csv") + ": cannot open: No such file or directory");
-  EXPECT_EQ(memory_error("x,y\r1,2\r"), "mem.csv:1: lines end with CR only (old Mac format); convert the file to LF or CRLF line ends");
+            data_file("ambiguous_separator.csv") +
+                ":1: cannot tell the separator: the header has as many ',' as ';'; name it explicitly");
+  EXPECT_EQ(error_of(data_file("utf16.csv")),
+            data_file("utf16.csv") + ":1: the file is UTF-16 encoded; save it as UTF-8");
+  EXPECT_EQ(error_of(data_file("does_not_exist.csv")),
+            data_file("does_not_exist.csv") + ": cannot open: No such file or directory");
+  EXPECT_EQ(memory_error("x,y\r1,2\r"),
+            "mem.csv:1: lines end with CR only (old Mac format); convert the file to LF or CRLF line ends");
   EXPECT_EQ(memory_error("\n\n"), "mem.csv: the file is empty (no header line)");
   EXPECT_EQ(memory_error("\xef\xbb\xbf"), "mem.csv: the file is empty (no header line)");
 }

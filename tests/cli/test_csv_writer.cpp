@@ -86,12 +86,22 @@ TEST(CsvWriter, WriteErrorIsReported) {
 // decimal dialects: random bit patterns (all exponents, subnormals), and the edges.
 TEST(CsvWriter, RoundTripIsExact) {
   std::mt19937_64 rng(7);
-  std::vector<double> values = {0.0, -0.0, std::numeric_limits<double>::denorm_min(),
-                                -std::numeric_limits<double>::denorm_min(), std::numeric_limits<double>::min(),
-                                std::numeric_limits<double>::max(), -std::numeric_limits<double>::max(),
-                                std::numeric_limits<double>::infinity(), -std::numeric_limits<double>::infinity(),
-                                std::numeric_limits<double>::epsilon(), 0.1, 1.0 / 3.0, 9007199254740993.0,
-                                std::nextafter(std::numeric_limits<double>::min(), 0.0), 1e23, 5e-324};
+  std::vector<double> values = {0.0,
+                                -0.0,
+                                std::numeric_limits<double>::denorm_min(),
+                                -std::numeric_limits<double>::denorm_min(),
+                                std::numeric_limits<double>::min(),
+                                std::numeric_limits<double>::max(),
+                                -std::numeric_limits<double>::max(),
+                                std::numeric_limits<double>::infinity(),
+                                -std::numeric_limits<double>::infinity(),
+                                std::numeric_limits<double>::epsilon(),
+                                0.1,
+                                1.0 / 3.0,
+                                9007199254740993.0,
+                                std::nextafter(std::numeric_limits<double>::min(), 0.0),
+                                1e23,
+                                5e-324};
   while (values.size() < 30000) {
     std::uint64_t b = rng();
     if (values.size() % 4 == 0) b &= 0x800FFFFFFFFFFFFFull;  // subnormal

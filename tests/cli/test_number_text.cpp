@@ -56,7 +56,7 @@ TEST(NumberFormat, HandPickedValues) {
   EXPECT_EQ(ours(std::numeric_limits<double>::infinity(), 10), "inf");
   EXPECT_EQ(ours(-std::numeric_limits<double>::infinity(), 10), "-inf");
   EXPECT_EQ(ours(1e300, 10), "1e+300");
-  EXPECT_EQ(ours(2.5, 1), "2");    // exact tie: round half to even
+  EXPECT_EQ(ours(2.5, 1), "2");  // exact tie: round half to even
   EXPECT_EQ(ours(3.5, 1), "4");
   EXPECT_EQ(ours(0.125, 2), "0.12");
 }
@@ -71,15 +71,15 @@ TEST(NumberFormat, AgreesWithStandardLibraryOnRandomDoubles) {
     for (int i = 0; i < 40000; ++i) {
       double v;
       switch (i % 4) {
-        case 0: v = mantissa(rng) * std::pow(10.0, decade(rng)); break;           // every magnitude
-        case 1: v = mantissa(rng) * std::pow(10.0, decade(rng) % 12); break;      // the common range
-        case 2: {                                                                   // any bit pattern
+        case 0: v = mantissa(rng) * std::pow(10.0, decade(rng)); break;       // every magnitude
+        case 1: v = mantissa(rng) * std::pow(10.0, decade(rng) % 12); break;  // the common range
+        case 2: {                                                             // any bit pattern
           std::uint64_t b = bits(rng);
           std::memcpy(&v, &b, sizeof v);
           if (std::isnan(v)) v = 1.0;
           break;
         }
-        default: v = std::round(mantissa(rng) * 1e4) / 8.0; break;                 // dyadic: exact ties
+        default: v = std::round(mantissa(rng) * 1e4) / 8.0; break;  // dyadic: exact ties
       }
       if (i % 3 == 0) v = -v;
       ASSERT_EQ(ours(v, digits), standard(v, digits)) << "digits " << digits << " value " << c_printf(v, 17);
@@ -93,8 +93,8 @@ TEST(NumberFormat, AgreesAtPowersOfTenAndRoundingEdges) {
   for (int digits = 1; digits <= 17; ++digits)
     for (int e = -310; e <= 308; ++e) {
       const double p = std::pow(10.0, e);
-      for (double v : {p, std::nextafter(p, 0.0), std::nextafter(p, INFINITY), 9.5 * p, 0.95 * p, 5.0 * p,
-                       9.9999999999999 * p})
+      for (double v :
+           {p, std::nextafter(p, 0.0), std::nextafter(p, INFINITY), 9.5 * p, 0.95 * p, 5.0 * p, 9.9999999999999 * p})
         ASSERT_EQ(ours(v, digits), standard(v, digits)) << "digits " << digits << " value " << c_printf(v, 17);
     }
   for (double v : {std::numeric_limits<double>::denorm_min(), std::numeric_limits<double>::min(),
@@ -172,11 +172,29 @@ TEST(NumberParse, HardCasesMatchFromChars) {
   // Halfway and near-halfway decimals (classic hard cases for readers), the
   // largest 15-digit mantissas, signed zeros, and forms the shortcut leaves
   // to std::from_chars (exponents, ".5", "5.", 16+ digits).
-  for (const std::string text :
-       {"0.1", "0.3", "9007199254740993", "900719925474099.3", "999999999999999", "0.999999999999999",
-        "-0", "-0.0", "0", "00012.50", "1.7976931348623157", "2.2250738585072014", "123456789012345.6",
-        "1e5", "1.5e-300", ".5", "5.", "-.5", "0.000000000000000000001", "4.9406564584124654e-324",
-        "8.988465674311579e+307", "1234567890123456789", "3.14159265358979323846"}) {
+  for (const std::string text : {"0.1",
+                                 "0.3",
+                                 "9007199254740993",
+                                 "900719925474099.3",
+                                 "999999999999999",
+                                 "0.999999999999999",
+                                 "-0",
+                                 "-0.0",
+                                 "0",
+                                 "00012.50",
+                                 "1.7976931348623157",
+                                 "2.2250738585072014",
+                                 "123456789012345.6",
+                                 "1e5",
+                                 "1.5e-300",
+                                 ".5",
+                                 "5.",
+                                 "-.5",
+                                 "0.000000000000000000001",
+                                 "4.9406564584124654e-324",
+                                 "8.988465674311579e+307",
+                                 "1234567890123456789",
+                                 "3.14159265358979323846"}) {
     double expected = 0.0, got = 0.0;
     ASSERT_TRUE(reference_read(text, expected)) << text;
     ASSERT_EQ(ellipsa::cli::parse_cell(text, '.', got), ellipsa::cli::CellValue::number) << text;

@@ -87,7 +87,8 @@ TEST(BatchCompare, RandomSizesAgreeWithLongDoubleTwoPass) {
   std::mt19937_64 gen(2026);
   for (int rep = 0; rep < 15; ++rep) {
     const Eigen::Index p = 1 + static_cast<Eigen::Index>(gen() % 5);
-    const Eigen::Index n1 = 3 + static_cast<Eigen::Index>(gen() % 60), n2 = p + 2 + static_cast<Eigen::Index>(gen() % 60);
+    const Eigen::Index n1 = 3 + static_cast<Eigen::Index>(gen() % 60),
+                       n2 = p + 2 + static_cast<Eigen::Index>(gen() % 60);
     const Eigen::MatrixXd a = normal_rows(n1, p, gen()), b = normal_rows(n2, p, gen()).array() + 0.3;
     const BatchComparison c = compare_batches(make_view(a), make_view(b), classical_only());
     ASSERT_TRUE(c.mean_shift.value) << c.mean_shift.reason;
@@ -112,14 +113,16 @@ TEST(BatchCompare, HugeOffsetKeepsItsDigits) {
   const BatchComparison d = compare_batches(make_view(a0), make_view(b0), classical_only());
   EXPECT_NEAR(c.mean_shift.value->t2, d.mean_shift.value->t2, 1e-8 * d.mean_shift.value->t2);
   EXPECT_NEAR(c.covariance_change.value->m, d.covariance_change.value->m, 1e-7 * (1.0 + d.covariance_change.value->m));
-  for (int j = 0; j < 3; ++j) EXPECT_NEAR(c.variables[j].welch.t, d.variables[j].welch.t, 1e-8 * (1.0 + std::abs(d.variables[j].welch.t)));
+  for (int j = 0; j < 3; ++j)
+    EXPECT_NEAR(c.variables[j].welch.t, d.variables[j].welch.t, 1e-8 * (1.0 + std::abs(d.variables[j].welch.t)));
   EXPECT_NEAR(c.variables[1].reference_mean - 1e9, d.variables[1].reference_mean, 1e-6);
 }
 
 TEST(BatchCompare, RowsWithNaNAreLeftOutAndCounted) {
   Eigen::MatrixXd a = normal_rows(30, 2, 11), b = normal_rows(25, 2, 12);
   Eigen::MatrixXd a_nan(32, 2);
-  a_nan << a.topRows(10), Eigen::RowVector2d(std::nan(""), 1.0), a.bottomRows(20), Eigen::RowVector2d(2.0, std::nan(""));
+  a_nan << a.topRows(10), Eigen::RowVector2d(std::nan(""), 1.0), a.bottomRows(20),
+      Eigen::RowVector2d(2.0, std::nan(""));
   const BatchComparison c = compare_batches(make_view(a_nan), make_view(b), classical_only());
   const BatchComparison d = compare_batches(make_view(a), make_view(b), classical_only());
   EXPECT_EQ(c.reference_rows, 30);
@@ -241,8 +244,8 @@ TEST(BatchCompare, FalseAlarmRatesOnUnchangedNormalBatchesAreNearTheLevel) {
   for (int rep = 0; rep < reps; ++rep) {
     o.seed = static_cast<std::uint64_t>(rep);
     o.robust = rep < 100;  // the robust test on half of them, to keep the run short
-    const BatchComparison c = compare_batches(make_view(normal_rows(30, 3, 7000 + rep)),
-                                              make_view(normal_rows(25, 3, 9000 + rep)), o);
+    const BatchComparison c =
+        compare_batches(make_view(normal_rows(30, 3, 7000 + rep)), make_view(normal_rows(25, 3, 9000 + rep)), o);
     t2 += c.mean_shift.value->p_value < 0.05;
     box += c.covariance_change.value->p_value < 0.05;
     bool any = false;
@@ -256,9 +259,8 @@ TEST(BatchCompare, FalseAlarmRatesOnUnchangedNormalBatchesAreNearTheLevel) {
   EXPECT_LE(box, 20);
   EXPECT_LE(welch_any, 20);  // Holm keeps the family-wise rate near the level (Welch df approximate); 12/200 here
   EXPECT_LE(robust, 10);     // 100 replicates
-  RecordProperty("rejections_t2_box_holm_robust",
-                 std::to_string(t2) + " " + std::to_string(box) + " " + std::to_string(welch_any) + " " +
-                     std::to_string(robust));
-  std::printf("rejections at 0.05: T^2 %d/200, Box's M %d/200, any Holm %d/200, robust %d/100\n", t2, box,
-              welch_any, robust);
+  RecordProperty("rejections_t2_box_holm_robust", std::to_string(t2) + " " + std::to_string(box) + " " +
+                                                      std::to_string(welch_any) + " " + std::to_string(robust));
+  std::printf("rejections at 0.05: T^2 %d/200, Box's M %d/200, any Holm %d/200, robust %d/100\n", t2, box, welch_any,
+              robust);
 }

@@ -25,9 +25,7 @@ namespace {
 
 const std::string kRef = ELLIPSA_REFERENCE_DIR;
 
-std::vector<std::vector<double>> read_table(const std::string& path) {
-  return ellipsa_test::read_numeric_rows(path);
-}
+std::vector<std::vector<double>> read_table(const std::string& path) { return ellipsa_test::read_numeric_rows(path); }
 
 double rel(double a, double b) {
   if (a == b) return 0.0;

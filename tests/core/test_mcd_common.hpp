@@ -74,7 +74,8 @@ inline double exhaustive_min_log_det(const Eigen::MatrixXd& x, Eigen::Index h,
     while (k >= 0 && idx[static_cast<std::size_t>(k)] == n - h + k) --k;
     if (k < 0) break;
     ++idx[static_cast<std::size_t>(k)];
-    for (Eigen::Index l = k + 1; l < h; ++l) idx[static_cast<std::size_t>(l)] = idx[static_cast<std::size_t>(l - 1)] + 1;
+    for (Eigen::Index l = k + 1; l < h; ++l)
+      idx[static_cast<std::size_t>(l)] = idx[static_cast<std::size_t>(l - 1)] + 1;
   }
   return best;
 }

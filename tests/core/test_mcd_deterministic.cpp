@@ -21,7 +21,8 @@ TEST(DetMcd, RowPermutationInvariant) {
     std::vector<Index> perm(static_cast<std::size_t>(n));
     std::iota(perm.begin(), perm.end(), Index{0});
     std::mt19937_64 g(3);
-    for (Index i = n - 1; i > 0; --i) std::swap(perm[static_cast<std::size_t>(i)], perm[static_cast<std::size_t>(g() % (i + 1))]);
+    for (Index i = n - 1; i > 0; --i)
+      std::swap(perm[static_cast<std::size_t>(i)], perm[static_cast<std::size_t>(g() % (i + 1))]);
     Eigen::MatrixXd y(n, 3);
     for (Index i = 0; i < n; ++i) y.row(i) = x.row(perm[static_cast<std::size_t>(i)]);
     const RobustFit fx = det_mcd(make_view(x));
@@ -31,7 +32,8 @@ TEST(DetMcd, RowPermutationInvariant) {
     EXPECT_NEAR((fx.location - fy.location).norm(), 0.0, 1e-12);
     EXPECT_NEAR((fx.scatter - fy.scatter).norm(), 0.0, 1e-11);
     for (Index i = 0; i < n; ++i)
-      EXPECT_EQ(fy.outlier[static_cast<std::size_t>(i)], fx.outlier[static_cast<std::size_t>(perm[static_cast<std::size_t>(i)])]);
+      EXPECT_EQ(fy.outlier[static_cast<std::size_t>(i)],
+                fx.outlier[static_cast<std::size_t>(perm[static_cast<std::size_t>(i)])]);
     // Repeatable bit for bit.
     const RobustFit again = det_mcd(make_view(x));
     EXPECT_TRUE((again.scatter.array() == fx.scatter.array()).all());

@@ -56,8 +56,7 @@ TEST(FastMcd, AffineEquivarianceSameSeed) {
     const Eigen::MatrixXd s = a * fx.scatter * a.transpose();
     for (Index j = 0; j < p; ++j) {
       EXPECT_NEAR(fy.location(j), t(j), 1e-9 * (std::abs(b(j)) + std::sqrt(s(j, j))));
-      for (Index k = 0; k < p; ++k)
-        EXPECT_NEAR(fy.scatter(j, k), s(j, k), 1e-8 * std::sqrt(s(j, j) * s(k, k)));
+      for (Index k = 0; k < p; ++k) EXPECT_NEAR(fy.scatter(j, k), s(j, k), 1e-8 * std::sqrt(s(j, j) * s(k, k)));
     }
     EXPECT_NEAR(fy.raw_log_det, fx.raw_log_det + 2.0 * std::log(std::abs(a.determinant())), 1e-8);
     EXPECT_EQ(fx.outlier, fy.outlier);
@@ -86,9 +85,9 @@ TEST(FastMcd, UnivariateExactMatchesBruteForce) {
   for (int trial = 0; trial < 60; ++trial) {
     const Index n = 5 + static_cast<Index>(g() % 12);
     Eigen::MatrixXd x = mcd_test::normal_data(n, 1, 1000 + static_cast<std::uint64_t>(trial));
-    if (trial % 4 == 0) x(0, 0) = 50.0;        // an outlier
-    if (trial % 5 == 0) x(1, 0) = x(2, 0);     // a tie
-    if (trial % 7 == 0) x.array() += 1e8;      // a huge offset
+    if (trial % 4 == 0) x(0, 0) = 50.0;     // an outlier
+    if (trial % 5 == 0) x(1, 0) = x(2, 0);  // a tie
+    if (trial % 7 == 0) x.array() += 1e8;   // a huge offset
     const double alpha = trial % 2 == 0 ? 0.5 : 0.8;
     const Index h = mcd_subset_size(n, 1, alpha);
     FastMcdOptions o;
@@ -124,9 +123,9 @@ TEST(FastMcd, BreakdownBoundedClassicalNot) {
     for (Index i = 0; i < n - h; ++i)
       for (Index j = 0; j < p; ++j) {
         const double u = static_cast<double>(g() % 1000) / 1000.0;
-        x(i, j) = pattern == 0 ? 1e6 + u                 // one far cluster
-                : pattern == 1 ? (g() % 2 ? 1e6 : -1e6) * (1 + u)  // scattered
-                               : 1e6 * static_cast<double>(1 + i % 3) + u;  // three far clusters
+        x(i, j) = pattern == 0   ? 1e6 + u                                    // one far cluster
+                  : pattern == 1 ? (g() % 2 ? 1e6 : -1e6) * (1 + u)           // scattered
+                                 : 1e6 * static_cast<double>(1 + i % 3) + u;  // three far clusters
       }
     const RobustFit f = fast_mcd(make_view(x));
     ASSERT_FALSE(f.exact_fit) << pattern << " rows on " << f.hyperplane.rows_on;

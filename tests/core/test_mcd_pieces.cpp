@@ -64,9 +64,7 @@ void expect_order_statistics(const std::vector<double>& v, Index k, const char* 
 
 }  // namespace
 
-TEST(McdPieces, MadFactorMatchesNormalQuantile) {
-  EXPECT_NEAR(1.0 / kPhiInv075, kMadFactor, 1e-15);
-}
+TEST(McdPieces, MadFactorMatchesNormalQuantile) { EXPECT_NEAR(1.0 / kPhiInv075, kMadFactor, 1e-15); }
 
 // The standardisation against a sort-based median and MAD at sizes on both
 // sides of the selection's sampling threshold (8192), odd and even n, with
@@ -137,8 +135,10 @@ TEST(McdPieces, OrderStatisticsAdversarialInputs) {
   const Index n = 50000, stride_sample = 2048;
   std::vector<double> v(static_cast<std::size_t>(n));
   for (Index i = 0; i < n; ++i) v[static_cast<std::size_t>(i)] = 1.0 + static_cast<double>(i % 97);
-  for (Index i = 0; i < stride_sample; ++i) v[static_cast<std::size_t>((i * n) / stride_sample)] = -1.0 - static_cast<double>(i);
-  for (Index k : {Index{0}, Index{1}, Index{2047}, Index{2048}, Index{2049}, n / 2, n - 1}) expect_order_statistics(v, k, "misleading sample");
+  for (Index i = 0; i < stride_sample; ++i)
+    v[static_cast<std::size_t>((i * n) / stride_sample)] = -1.0 - static_cast<double>(i);
+  for (Index k : {Index{0}, Index{1}, Index{2047}, Index{2048}, Index{2049}, n / 2, n - 1})
+    expect_order_statistics(v, k, "misleading sample");
   std::vector<double> asc(static_cast<std::size_t>(n)), desc(static_cast<std::size_t>(n));
   for (Index i = 0; i < n; ++i) {
     asc[static_cast<std::size_t>(i)] = static_cast<double>(i / 3);
@@ -371,13 +371,12 @@ TEST(McdPieces, ReweightingDistancesAccuracy) {
     const double raw_yard = max_relative_error(raw.squared_distances(make_view(x), r.raw_location), raw_ref);
     const double rw_yard = max_relative_error(rw.squared_distances(make_view(x), r.location), rw_ref);
     RecordProperty(gap == 1.0 ? "well_conditioned" : "ill_conditioned",
-                   std::to_string(raw_err) + " " + std::to_string(rw_err) + " vs " +
-                       std::to_string(raw_yard) + " " + std::to_string(rw_yard));
+                   std::to_string(raw_err) + " " + std::to_string(rw_err) + " vs " + std::to_string(raw_yard) + " " +
+                       std::to_string(rw_yard));
     EXPECT_LE(raw_err, 8.0 * raw_yard + 2e-14) << "gap " << gap;
     EXPECT_LE(rw_err, 8.0 * rw_yard + 2e-14) << "gap " << gap;
     // The flags are the raw distances against the chi-square cutoff.
     const double cutoff = chi2_quantile(0.975, 5.0);
-    for (Index i = 0; i < x.rows(); ++i)
-      ASSERT_EQ(r.outlier[static_cast<std::size_t>(i)], r.raw_d2(i) > cutoff);
+    for (Index i = 0; i < x.rows(); ++i) ASSERT_EQ(r.outlier[static_cast<std::size_t>(i)], r.raw_d2(i) > cutoff);
   }
 }

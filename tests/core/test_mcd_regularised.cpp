@@ -75,7 +75,8 @@ TEST(Mrcd, MedianCalibrationAndStoredFlagsFollowOneRule) {
     const double pd = static_cast<double>(p);
     std::vector<double> d(f.robust_d2.data(), f.robust_d2.data() + n);
     std::sort(d.begin(), d.end());
-    const double med = n % 2 ? d[static_cast<size_t>(n / 2)] : 0.5 * (d[static_cast<size_t>(n / 2 - 1)] + d[static_cast<size_t>(n / 2)]);
+    const double med = n % 2 ? d[static_cast<size_t>(n / 2)]
+                             : 0.5 * (d[static_cast<size_t>(n / 2 - 1)] + d[static_cast<size_t>(n / 2)]);
     EXPECT_NEAR(med, chi2_quantile(0.5, pd), 1e-10 * pd) << n;
     EXPECT_GT(f.reweight_factor, 0.0);
     EXPECT_TRUE(f.scatter.isApprox(f.reweight_factor * f.raw_scatter, 1e-14)) << n;

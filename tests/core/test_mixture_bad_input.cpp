@@ -82,8 +82,7 @@ TEST(MixtureBadInput, SelectionKeepsTheBestWhenLargeKCannotBeFitted) {
   EXPECT_EQ(sel.table[12].message, "mixture: K = 13 exceeds the number of rows (12)");
   // Spherical, K = 4, p = 2: 3 weights + 8 means + 4 variances = 15 (parameter
   // count of the structure, common practice).
-  EXPECT_NE(sel.table[3].message.find("fewer than the 15 free parameters"), std::string::npos)
-      << sel.table[3].message;
+  EXPECT_NE(sel.table[3].message.find("fewer than the 15 free parameters"), std::string::npos) << sel.table[3].message;
 
   // Only when no K can be fitted does the selection fail, with the first reason.
   so.k_min = 13;

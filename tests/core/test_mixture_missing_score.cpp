@@ -77,15 +77,16 @@ TEST(MixtureMissing, CompleteRowsByDefaultReportsDropped) {
     EXPECT_EQ(r.labels(i) == -1, dropped);
   }
   // BIC uses the rows actually fitted.
-  EXPECT_NEAR(r.bic, -2 * r.log_likelihood + r.n_parameters * std::log(static_cast<double>(r.rows_used)), 1e-9 * std::abs(r.bic));
+  EXPECT_NEAR(r.bic, -2 * r.log_likelihood + r.n_parameters * std::log(static_cast<double>(r.rows_used)),
+              1e-9 * std::abs(r.bic));
 }
 
 TEST(MixtureMissing, EmOverMissingIsCloseToCompleteDataFit) {
   Eigen::VectorXi labels;
   const Eigen::MatrixXd x = two_clusters(3000, 11, labels);
   const Eigen::MatrixXd y = remove_mcar(x, 0.15, 12);
-  for (CovarianceStructure s : {CovarianceStructure::Full, CovarianceStructure::Diagonal,
-                                CovarianceStructure::Tied, CovarianceStructure::Spherical}) {
+  for (CovarianceStructure s : {CovarianceStructure::Full, CovarianceStructure::Diagonal, CovarianceStructure::Tied,
+                                CovarianceStructure::Spherical}) {
     MixtureOptions o;
     o.components = 2;
     o.structure = s;
@@ -105,7 +106,8 @@ TEST(MixtureMissing, EmOverMissingIsCloseToCompleteDataFit) {
     // (common practice, no published source: a few standard errors).
     for (Index k = 0; k < 2; ++k) {
       EXPECT_LT((miss.model.means.row(k) - full.model.means.row(k)).cwiseAbs().maxCoeff(), 0.12) << static_cast<int>(s);
-      EXPECT_LT((miss.model.covariances[k] - full.model.covariances[k]).cwiseAbs().maxCoeff(), 0.2) << static_cast<int>(s);
+      EXPECT_LT((miss.model.covariances[k] - full.model.covariances[k]).cwiseAbs().maxCoeff(), 0.2)
+          << static_cast<int>(s);
     }
     EXPECT_LT((miss.model.weights - full.model.weights).cwiseAbs().maxCoeff(), 0.02);
   }
@@ -163,7 +165,8 @@ TEST(MixtureScore, MissingCoordinatesUseTheMarginal) {
     Eigen::Matrix2d sub;
     sub << c(0, 0), c(0, 2), c(2, 0), c(2, 2);
     const Eigen::Vector2d d(1.0 - m.means(k, 0), 2.5 - m.means(k, 2));
-    f += m.weights(k) * std::exp(-0.5 * d.dot(sub.inverse() * d)) / (2 * std::numbers::pi * std::sqrt(sub.determinant()));
+    f += m.weights(k) * std::exp(-0.5 * d.dot(sub.inverse() * d)) /
+         (2 * std::numbers::pi * std::sqrt(sub.determinant()));
   }
   EXPECT_NEAR(s.log_density(0), std::log(f), 1e-12);
   EXPECT_TRUE(std::isnan(s.log_density(1)));  // nothing observed

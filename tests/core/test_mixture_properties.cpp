@@ -74,8 +74,8 @@ std::vector<Index> match(const MixtureModel& m, const Truth& t) {
   return out;
 }
 
-const CovarianceStructure kAll[] = {CovarianceStructure::Full, CovarianceStructure::Diagonal,
-                                     CovarianceStructure::Tied, CovarianceStructure::Spherical};
+const CovarianceStructure kAll[] = {CovarianceStructure::Full, CovarianceStructure::Diagonal, CovarianceStructure::Tied,
+                                    CovarianceStructure::Spherical};
 
 }  // namespace
 
@@ -107,7 +107,8 @@ TEST(MixtureProperties, LogLikelihoodNeverDecreases) {
       ASSERT_GE(r.loglik_trace.size(), 3u);
       for (std::size_t t = 1; t < r.loglik_trace.size(); ++t) {
         bool collapse_here = false;
-        for (const auto& e : r.collapses) collapse_here |= e.start == r.best_start && e.iteration == static_cast<int>(t);
+        for (const auto& e : r.collapses)
+          collapse_here |= e.start == r.best_start && e.iteration == static_cast<int>(t);
         if (collapse_here) continue;  // a re-seed may lower it; documented
         EXPECT_GE(r.loglik_trace[t], r.loglik_trace[t - 1] - 1e-10 * std::abs(r.loglik_trace[t]))
             << "structure " << static_cast<int>(s) << " seed " << seed << " iteration " << t;
@@ -189,7 +190,8 @@ TEST(MixtureProperties, RowPermutationWithGivenStartIsEquivariant) {
   PortableRandom rng(8);
   std::vector<Index> perm(600);
   for (Index i = 0; i < 600; ++i) perm[static_cast<std::size_t>(i)] = i;
-  for (Index i = 599; i > 0; --i) std::swap(perm[static_cast<std::size_t>(i)], perm[rng.below(static_cast<std::uint64_t>(i + 1))]);
+  for (Index i = 599; i > 0; --i)
+    std::swap(perm[static_cast<std::size_t>(i)], perm[rng.below(static_cast<std::uint64_t>(i + 1))]);
   Eigen::MatrixXd xp(600, 3);
   Eigen::VectorXi lp(600);
   for (Index i = 0; i < 600; ++i) {
@@ -235,7 +237,8 @@ TEST(MixtureProperties, HugeOffsetsAndExtremeScales) {
     Index j = 0;
     for (Index c = 1; c < 3; ++c)
       if ((sh.model.means.row(c) - shift - base.model.means.row(k)).norm() <
-          (sh.model.means.row(j) - shift - base.model.means.row(k)).norm()) j = c;
+          (sh.model.means.row(j) - shift - base.model.means.row(k)).norm())
+        j = c;
     // The offset costs about 8 digits (1e8 against unit spread): 1e-6 absolute.
     EXPECT_LE((sh.model.means.row(j) - shift - base.model.means.row(k)).norm(), 1e-6);
     EXPECT_LE((sh.model.covariances[j] - base.model.covariances[k]).norm(), 1e-6 * base.model.covariances[k].norm());
@@ -267,9 +270,11 @@ TEST(MixtureProperties, RecoversKnownParametersAtRateRootN) {
       // 5 standard errors per coordinate (common practice, no published source).
       EXPECT_LT((r.model.means.row(j) - truth.means.row(k)).cwiseAbs().maxCoeff(), 5 * sd / std::sqrt(nk)) << n;
       EXPECT_LT(std::abs(r.model.weights(j) - truth.weights(k)),
-                5 * std::sqrt(truth.weights(k) * (1 - truth.weights(k)) / static_cast<double>(n))) << n;
+                5 * std::sqrt(truth.weights(k) * (1 - truth.weights(k)) / static_cast<double>(n)))
+          << n;
       // Covariance entries: sd of s_ab is at most sqrt(2) sigma_max^2 / sqrt(n_k).
-      EXPECT_LT((r.model.covariances[j] - cov).cwiseAbs().maxCoeff(), 5 * std::sqrt(2.0) * sd * sd / std::sqrt(nk)) << n;
+      EXPECT_LT((r.model.covariances[j] - cov).cwiseAbs().maxCoeff(), 5 * std::sqrt(2.0) * sd * sd / std::sqrt(nk))
+          << n;
     }
   }
 }

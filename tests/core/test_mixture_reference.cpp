@@ -121,7 +121,8 @@ TEST(MixtureReference, IrisThreeComponentsFullMatchesSpecies) {
   int best_wrong = 151;
   do {
     int wrong = 0;
-    for (Index i = 0; i < 150; ++i) wrong += perm[static_cast<std::size_t>(r.labels(i))] != species[static_cast<std::size_t>(i)];
+    for (Index i = 0; i < 150; ++i)
+      wrong += perm[static_cast<std::size_t>(r.labels(i))] != species[static_cast<std::size_t>(i)];
     best_wrong = std::min(best_wrong, wrong);
   } while (std::next_permutation(perm.begin(), perm.end()));
   RecordProperty("iris_misassigned", best_wrong);

@@ -83,10 +83,13 @@ TEST(ClassicalReference, NistUnivariateCertifiedMeanAndSd) {
   // certified 0.1, common practice, no published source), the floor is the
   // representation limit rounded down, and the sd is checked separately against
   // a long double two-pass sd of the same doubles.
-  struct Case { const char* name; double floor_sd; };
-  for (const Case c : {Case{"PiDigits", 13}, Case{"Lottery", 13}, Case{"Lew", 13}, Case{"Mavro", 13},
-                       Case{"Michelso", 13}, Case{"NumAcc1", 13}, Case{"NumAcc2", 13}, Case{"NumAcc3", 9.4},
-                       Case{"NumAcc4", 8.2}}) {
+  struct Case {
+    const char* name;
+    double floor_sd;
+  };
+  for (const Case c :
+       {Case{"PiDigits", 13}, Case{"Lottery", 13}, Case{"Lew", 13}, Case{"Mavro", 13}, Case{"Michelso", 13},
+        Case{"NumAcc1", 13}, Case{"NumAcc2", 13}, Case{"NumAcc3", 9.4}, Case{"NumAcc4", 8.2}}) {
     const std::string name = c.name;
     const Eigen::MatrixXd y = read_csv(kRef + "/nist_strd_univariate/" + name + ".csv");
     const ClassicalEstimate fit = classical_estimate(make_view(y), Normalisation::ByCountMinusOne);
@@ -167,8 +170,9 @@ TEST(ClassicalProperties, MergedChunksEqualOnePass) {
     }
     EXPECT_EQ(merged.rows(), n);
     EXPECT_LE((merged.mean() - whole.mean()).cwiseAbs().maxCoeff(), 1e-15 * 1e4);
-    EXPECT_LE(max_rel(merged.covariance(Normalisation::ByCountMinusOne),
-                      whole.covariance(Normalisation::ByCountMinusOne)), 1e-12);
+    EXPECT_LE(
+        max_rel(merged.covariance(Normalisation::ByCountMinusOne), whole.covariance(Normalisation::ByCountMinusOne)),
+        1e-12);
     EXPECT_LE(max_rel(raw.cross_products(), whole.cross_products()), 1e-12);
   }
 }
@@ -270,7 +274,6 @@ std::string message_of(const std::function<void()>& f) {
 }
 }  // namespace
 
-
 namespace {
 
 // Two-pass mean and centred cross-products in long double (64-bit mantissa).
@@ -347,24 +350,26 @@ TEST(ClassicalRawProduct, AgreesWithCentredPathAtSmallOffsets) {
   // Offsets in column sds: up to 15 take the raw product after the first chunk
   // (the limit is 16; a short last chunk may still be refused on its own
   // moments), 30 and 1e3 must stay on the centred copy.
-  struct Case { double offset; bool raw; };
+  struct Case {
+    double offset;
+    bool raw;
+  };
   for (const Case c : {Case{0.0, true}, Case{10.0, true}, Case{15.0, true}, Case{30.0, false}, Case{1e3, false}}) {
     const Eigen::MatrixXd x = offset_data(rng, n, p, c.offset);
     MomentAccumulator acc(p);
     acc.add(make_view(x));
-    if (c.raw)
-      EXPECT_GE(acc.direct_rows(), n - 2 * 4096) << c.offset;
-    else
-      EXPECT_EQ(acc.direct_rows(), 0) << c.offset;
+    if (c.raw) EXPECT_GE(acc.direct_rows(), n - 2 * 4096) << c.offset;
+    else EXPECT_EQ(acc.direct_rows(), 0) << c.offset;
     if (c.offset == 0.0) EXPECT_EQ(acc.direct_rows(), n - 4096);
     const MomentAccumulator copy = centred_copy_only(x);
     const LongDoubleMoments ref = long_double_moments(x);
     const double vs_copy = scaled_error(acc.cross_products(), copy.cross_products());
     const double vs_ref = scaled_error(acc.cross_products(), ref.cross);
     const double copy_vs_ref = scaled_error(copy.cross_products(), ref.cross);
-    std::printf("  offset %6.0f sd: raw rows %ld, error vs centred copy %.1e, vs long double %.1e "
-                "(centred copy vs long double %.1e)\n",
-                c.offset, static_cast<long>(acc.direct_rows()), vs_copy, vs_ref, copy_vs_ref);
+    std::printf(
+        "  offset %6.0f sd: raw rows %ld, error vs centred copy %.1e, vs long double %.1e "
+        "(centred copy vs long double %.1e)\n",
+        c.offset, static_cast<long>(acc.direct_rows()), vs_copy, vs_ref, copy_vs_ref);
     EXPECT_LE(vs_copy, 1e-13) << c.offset;
     EXPECT_LE(vs_ref, 1e-13) << c.offset;
     EXPECT_LE(mean_error_in_sd(acc.mean(), ref, n), 1e-14 * (1.0 + c.offset)) << c.offset;
@@ -412,8 +417,7 @@ TEST(ClassicalRawProduct, LayoutsGiveBitIdenticalMoments) {
     RowMajor wide = RowMajor::Constant(2 * n, p + 3, -7.0);
     for (Index i = 0; i < n; ++i) wide.block(2 * i, 1, 1, p) = x.row(i);
     const DataView views[] = {make_view(x), make_view(tall.data() + 4, n, p, 1, n + 9),
-                              make_view(xr.data(), n, p, p, 1),
-                              make_view(wide.data() + 1, n, p, 2 * (p + 3), 1)};
+                              make_view(xr.data(), n, p, p, 1), make_view(wide.data() + 1, n, p, 2 * (p + 3), 1)};
     std::vector<ClassicalEstimate> fits;
     for (const DataView& v : views) {
       MomentAccumulator acc(p);
@@ -503,7 +507,10 @@ TEST(ClassicalEdges, SignedZeros) {
   std::mt19937_64 rng(18);
   Eigen::MatrixXd x = correlated(rng, 50, 2);
   Eigen::MatrixXd y = x;
-  for (Index i = 0; i < 50; i += 3) { x(i, 0) = -0.0; y(i, 0) = 0.0; }
+  for (Index i = 0; i < 50; i += 3) {
+    x(i, 0) = -0.0;
+    y(i, 0) = 0.0;
+  }
   const auto fx = classical_estimate(make_view(x), Normalisation::ByCountMinusOne);
   const auto fy = classical_estimate(make_view(y), Normalisation::ByCountMinusOne);
   EXPECT_EQ(fx.mean, fy.mean);
@@ -514,7 +521,6 @@ TEST(ClassicalEdges, SignedZeros) {
 }
 
 // ---------------------------------------------------------------- errors
-
 
 TEST(ClassicalErrors, BadInputIsRejectedWithItsKind) {
   std::mt19937_64 rng(19);
@@ -535,9 +541,7 @@ TEST(ClassicalErrors, BadInputIsRejectedWithItsKind) {
   EXPECT_EQ(kind_of([&] { cls(wide); }), ErrorKind::Data);
   EXPECT_NE(message_of([&] { cls(wide); }).find("shrinkage"), std::string::npos);
 
-  const auto wcls = [&](const Eigen::VectorXd& w, Normalisation norm) {
-    classical_estimate(make_view(x), w, norm);
-  };
+  const auto wcls = [&](const Eigen::VectorXd& w, Normalisation norm) { classical_estimate(make_view(x), w, norm); };
   Eigen::VectorXd w = Eigen::VectorXd::Ones(10);
   w(3) = -1.0;
   EXPECT_EQ(kind_of([&] { wcls(w, Normalisation::ByCount); }), ErrorKind::Argument);
@@ -559,7 +563,7 @@ TEST(ClassicalErrors, BadInputIsRejectedWithItsKind) {
 
 TEST(MissingValues, CompleteRowsAndAllMissingColumns) {
   Eigen::MatrixXd x(5, 3);
-  x << 1, 2, kNaN,  //
+  x << 1, 2, kNaN,    //
       4, kNaN, kNaN,  //
       7, 8, kNaN,     //
       kNaN, 1, kNaN,  //
@@ -621,7 +625,8 @@ TEST(WeightedMoments, MatchLongDoubleDefinitionAtOffsetsAndShifts) {
     for (const double shift_sds : {0.0, 1.0, 1e4}) {
       Eigen::MatrixXd x(n, p);
       for (Index i = 0; i < n; ++i)
-        for (Index j = 0; j < p; ++j) x(i, j) = offset + (1.0 + j) * g(rng) + (j > 0 ? 0.5 * x(i, 0) - 0.5 * offset : 0.0);
+        for (Index j = 0; j < p; ++j)
+          x(i, j) = offset + (1.0 + j) * g(rng) + (j > 0 ? 0.5 * x(i, 0) - 0.5 * offset : 0.0);
       Eigen::MatrixXd w(n, K);
       for (Index i = 0; i < n; ++i) {
         w(i, 0) = u(rng);
@@ -635,8 +640,7 @@ TEST(WeightedMoments, MatchLongDoubleDefinitionAtOffsetsAndShifts) {
       ASSERT_EQ(got.size(), static_cast<std::size_t>(K));
       // Row-major copy of the same data: bit-identical moments.
       Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> xr = x;
-      const auto got_rm =
-          weighted_moments(make_view(xr.data(), n, p, /*row_stride=*/p, /*col_stride=*/1), w, shifts);
+      const auto got_rm = weighted_moments(make_view(xr.data(), n, p, /*row_stride=*/p, /*col_stride=*/1), w, shifts);
       for (Index k = 0; k < K; ++k) {
         EXPECT_EQ(got[k].mean, got_rm[k].mean);
         EXPECT_EQ(got[k].cross_products, got_rm[k].cross_products);

@@ -32,9 +32,7 @@ Eigen::MatrixXd correlated(std::mt19937_64& rng, Index n, Index p) {
 }
 
 // d2 of one (sub)vector by an explicit dense solve, independent of the scorer.
-double direct_d2(const Eigen::VectorXd& d, const Eigen::MatrixXd& s) {
-  return d.dot(s.ldlt().solve(d));
-}
+double direct_d2(const Eigen::VectorXd& d, const Eigen::MatrixXd& s) { return d.dot(s.ldlt().solve(d)); }
 
 }  // namespace
 
@@ -129,8 +127,8 @@ TEST(Scoring, MissingCoordinatesUseTheMarginalWithOneFactorPerPattern) {
   }
   for (bool via_factor : {false, true}) {
     const CholeskyFactor chol(fit.covariance);
-    const MahalanobisScorer scorer = via_factor ? MahalanobisScorer(fit.mean, chol)
-                                                : MahalanobisScorer(fit.mean, fit.covariance);
+    const MahalanobisScorer scorer =
+        via_factor ? MahalanobisScorer(fit.mean, chol) : MahalanobisScorer(fit.mean, fit.covariance);
     ScoringOptions opt;
     opt.contributions = opt.conditional_drops = true;
     const RowScores s = scorer.score(make_view(x), opt);

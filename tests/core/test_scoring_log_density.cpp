@@ -18,10 +18,10 @@ TEST(ScoringLogDensity, MarginalGaussianOfTheObservedCoordinates) {
   const Eigen::VectorXd t = Eigen::Vector3d(1.0, -2.0, 0.5);
   const double nan = std::nan("");
   Eigen::MatrixXd x(4, 3);
-  x << 1.5, -1.0, 0.0,   // complete
-      nan, -2.5, 1.0,    // first coordinate missing
-      2.0, nan, nan,     // one observed
-      nan, nan, nan;     // nothing observed
+  x << 1.5, -1.0, 0.0,  // complete
+      nan, -2.5, 1.0,   // first coordinate missing
+      2.0, nan, nan,    // one observed
+      nan, nan, nan;    // nothing observed
   const core::MahalanobisScorer scorer(t, s);
   core::ScoringOptions o;
   o.log_densities = true;

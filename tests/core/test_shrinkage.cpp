@@ -66,7 +66,9 @@ Eigen::MatrixXd sample(std::mt19937_64& rng, Index n, Index p) {
 
 TEST(Shrinkage, MatchesLongDoubleFormulasAcrossShapes) {
   std::mt19937_64 rng(301);
-  struct Shape { Index n, p; };
+  struct Shape {
+    Index n, p;
+  };
   for (const Shape sh : {Shape{2, 3}, Shape{5, 40}, Shape{20, 20}, Shape{30, 100}, Shape{200, 10}, Shape{1000, 3},
                          Shape{50, 2}, Shape{7, 6}}) {
     const Eigen::MatrixXd x = sample(rng, sh.n, sh.p);

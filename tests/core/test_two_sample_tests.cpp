@@ -38,8 +38,8 @@ TEST(TwoSampleT2, SoapExampleFromSummaries) {
   EXPECT_NEAR(t.t2, 52.4722222222222, 1e-10);
   EXPECT_EQ(t.df1, 2.0);
   EXPECT_EQ(t.df2, 97.0);
-  EXPECT_NEAR(t.f, 25.9683956916099, 1e-10);                  // base R: 97/(2*98) * T^2
-  EXPECT_NEAR(t.p_value / 9.28608024604676e-10, 1.0, 1e-8);    // base R: pf(F, 2, 97, lower.tail = FALSE)
+  EXPECT_NEAR(t.f, 25.9683956916099, 1e-10);                 // base R: 97/(2*98) * T^2
+  EXPECT_NEAR(t.p_value / 9.28608024604676e-10, 1.0, 1e-8);  // base R: pf(F, 2, 97, lower.tail = FALSE)
 }
 
 TEST(TwoSampleT2, IrisVersicolorAgainstVirginica) {
@@ -57,7 +57,8 @@ TEST(TwoSampleT2, AffineInvariantAndSymmetricForRandomSizes) {
   std::normal_distribution<double> z;  // values only; the test compares two computations on them
   for (int rep = 0; rep < 20; ++rep) {
     const Eigen::Index p = 1 + static_cast<Eigen::Index>(gen() % 6);
-    const Eigen::Index n1 = p + 1 + static_cast<Eigen::Index>(gen() % 40), n2 = 2 + static_cast<Eigen::Index>(gen() % 40);
+    const Eigen::Index n1 = p + 1 + static_cast<Eigen::Index>(gen() % 40),
+                       n2 = 2 + static_cast<Eigen::Index>(gen() % 40);
     Eigen::MatrixXd x(n1, p), y(n2, p), a(p, p);
     for (auto* m : {&x, &y, &a})
       for (Eigen::Index i = 0; i < m->size(); ++i) m->data()[i] = z(gen);
@@ -106,7 +107,7 @@ TEST(BoxM, NursingHomeExampleFromDeterminants) {
   EXPECT_NEAR(m.m, 289.3, 0.5);
   EXPECT_NEAR(m.chi2, 285.5, 0.5);
   EXPECT_EQ(m.df, 20.0);
-  EXPECT_NEAR(m.m, 289.151203078592, 1e-8);          // base R on the printed determinants
+  EXPECT_NEAR(m.m, 289.151203078592, 1e-8);  // base R on the printed determinants
   EXPECT_NEAR(m.correction, 0.0132494597831401, 1e-13);
   EXPECT_NEAR(m.chi2, 285.320105842155, 1e-8);
 }
@@ -184,7 +185,7 @@ TEST(WelchT, UndefinedWhenNeitherGroupVaries) {
   const WelchT w = welch_t(5, 1.0, 0.0, 7, 1.0, 0.0);
   EXPECT_TRUE(std::isnan(w.t) && std::isnan(w.df) && std::isnan(w.p_value));
   const WelchT one = welch_t(5, 1.0, 0.0, 7, 2.0, 1.0);  // one group constant: still defined
-  EXPECT_NEAR(one.df, 6.0, 1e-12);  // all variance from group 2: df = n2 - 1 (Welch-Satterthwaite)
+  EXPECT_NEAR(one.df, 6.0, 1e-12);                       // all variance from group 2: df = n2 - 1 (Welch-Satterthwaite)
   EXPECT_THROW(welch_t(1, 1.0, 1.0, 7, 2.0, 1.0), Error);
 }
 

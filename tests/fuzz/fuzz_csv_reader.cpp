@@ -123,8 +123,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   // the message must agree.
   if (reference.error.empty() && chunked.error.empty())
     check(reference == chunked, "tiny buffers and chunks change the result");
-  else
-    check(reference.error == chunked.error, "tiny buffers and chunks change the error");
+  else check(reference.error == chunked.error, "tiny buffers and chunks change the error");
 
   if (reference.error.empty() && !reference.header.empty()) {
     CsvOptions again = options;

@@ -37,8 +37,13 @@ struct Model {
 
 bool fit_status_listed(ellipsa_status st) {
   switch (st) {
-    case ELLIPSA_OK: case ELLIPSA_ERR_SHAPE: case ELLIPSA_ERR_ARGUMENT: case ELLIPSA_ERR_DATA:
-    case ELLIPSA_NUM_SINGULAR: case ELLIPSA_NUM_EXACT_FIT: case ELLIPSA_NUM_NOT_CONVERGED:
+    case ELLIPSA_OK:
+    case ELLIPSA_ERR_SHAPE:
+    case ELLIPSA_ERR_ARGUMENT:
+    case ELLIPSA_ERR_DATA:
+    case ELLIPSA_NUM_SINGULAR:
+    case ELLIPSA_NUM_EXACT_FIT:
+    case ELLIPSA_NUM_NOT_CONVERGED:
     case ELLIPSA_ERR_MEMORY: return true;
     default: return false;
   }
@@ -201,8 +206,8 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   fuzz::check(a.status == b.status, "second scoring status");
   if (a.status == ELLIPSA_OK) {
     fuzz::check(std::memcmp(a.d2.data(), b.d2.data(), a.d2.size() * sizeof(double)) == 0, "scores differ");
-    fuzz::check(std::memcmp(a.contribution.data(), b.contribution.data(),
-                            a.contribution.size() * sizeof(double)) == 0, "contributions differ");
+    fuzz::check(std::memcmp(a.contribution.data(), b.contribution.data(), a.contribution.size() * sizeof(double)) == 0,
+                "contributions differ");
   }
 
   // The same matrix in column-major storage gives the same file.

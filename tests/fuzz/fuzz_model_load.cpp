@@ -51,13 +51,14 @@ void check_scores(const ellipsa_model* m) {
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   ellipsa_model* m = reinterpret_cast<ellipsa_model*>(&size);  // must be overwritten
-  const ellipsa_status st = ellipsa_model_load(&m, reinterpret_cast<const char*>(data), static_cast<std::int64_t>(size));
+  const ellipsa_status st =
+      ellipsa_model_load(&m, reinterpret_cast<const char*>(data), static_cast<std::int64_t>(size));
   if (st != ELLIPSA_OK) {
     fuzz::check(m == nullptr, "failed load leaves *out set");
     fuzz::check(std::strncmp(ellipsa_last_error(), "ellipsa_model_load", 18) == 0, "message names the function",
                 ellipsa_last_error());
-    fuzz::check(st == ELLIPSA_ERR_FORMAT || st == ELLIPSA_ERR_ARGUMENT || st == ELLIPSA_ERR_MEMORY,
-                "load status", ellipsa_status_string(st));
+    fuzz::check(st == ELLIPSA_ERR_FORMAT || st == ELLIPSA_ERR_ARGUMENT || st == ELLIPSA_ERR_MEMORY, "load status",
+                ellipsa_status_string(st));
     return 0;
   }
   fuzz::check(m != nullptr, "loaded model is NULL");

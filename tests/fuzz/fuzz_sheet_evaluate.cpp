@@ -23,9 +23,10 @@
 
 namespace {
 
-const char* const kWords[] = {"classical", "ledoit-wolf", "oas", "mcd", "detmcd", "mrcd", "mixture", "full",
-                              "diagonal", "tied", "spherical", "all", "chi2", "new-rows", "fitting-rows",
-                              "model", "bic", "icl", "1-4", "2", "", "x", "0.975", "1e308", "nan", "-1"};
+const char* const kWords[] = {
+    "classical", "ledoit-wolf", "oas", "mcd",  "detmcd",   "mrcd",         "mixture", "full", "diagonal",
+    "tied",      "spherical",   "all", "chi2", "new-rows", "fitting-rows", "model",   "bic",  "icl",
+    "1-4",       "2",           "",    "x",    "0.975",    "1e308",        "nan",     "-1"};
 
 bool same_cells(const std::vector<ellipsa_sheet_cell>& a, const std::vector<ellipsa_sheet_cell>& b) {
   for (std::size_t i = 0; i < a.size(); ++i) {
@@ -100,9 +101,9 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
 
   std::int64_t rows = -1, cols = -1;
   const ellipsa_status shape = ellipsa_sheet_result_shape(&rows, &cols, index, args.data(), count);
-  fuzz::check(shape == ELLIPSA_OK || shape == ELLIPSA_ERR_ARGUMENT || shape == ELLIPSA_ERR_SHAPE ||
-                  shape == ELLIPSA_ERR_NULL,
-              "shape status", ellipsa_last_error());
+  fuzz::check(
+      shape == ELLIPSA_OK || shape == ELLIPSA_ERR_ARGUMENT || shape == ELLIPSA_ERR_SHAPE || shape == ELLIPSA_ERR_NULL,
+      "shape status", ellipsa_last_error());
   if (shape != ELLIPSA_OK) {
     std::vector<ellipsa_sheet_cell> cells(4);
     const ellipsa_status st = ellipsa_sheet_evaluate(cells.data(), 2, 2, nullptr, index, args.data(), count);

@@ -44,11 +44,22 @@ class Input {
   // hostile ones (NaN, +-inf, +-0, subnormals, 1e308, DBL_MAX, huge offsets).
   double value() {
     const std::uint8_t kind = byte();
-    static const double special[] = {
-        std::numeric_limits<double>::quiet_NaN(), std::numeric_limits<double>::infinity(),
-        -std::numeric_limits<double>::infinity(), 0.0, -0.0, std::numeric_limits<double>::denorm_min(),
-        4.9e-320, -2.2e-310, 1e308, -1e308, std::numeric_limits<double>::max(),
-        std::numeric_limits<double>::min(), 1e-300, 1e150, -1e150, 1e9 + 0.5};
+    static const double special[] = {std::numeric_limits<double>::quiet_NaN(),
+                                     std::numeric_limits<double>::infinity(),
+                                     -std::numeric_limits<double>::infinity(),
+                                     0.0,
+                                     -0.0,
+                                     std::numeric_limits<double>::denorm_min(),
+                                     4.9e-320,
+                                     -2.2e-310,
+                                     1e308,
+                                     -1e308,
+                                     std::numeric_limits<double>::max(),
+                                     std::numeric_limits<double>::min(),
+                                     1e-300,
+                                     1e150,
+                                     -1e150,
+                                     1e9 + 0.5};
     if (kind < 40) return special[kind % (sizeof special / sizeof special[0])];
     if (kind < 80) {  // raw bits
       const std::uint64_t bits = u64();

@@ -19,12 +19,12 @@
 #define MAX_ROWS 64
 #define P 3
 
-int main(int argc, char **argv) {
+int main(int argc, char** argv) {
   if (argc != 2) {
     fprintf(stderr, "usage: %s DATA.csv\n", argv[0]);
     return 2;
   }
-  FILE *in = fopen(argv[1], "r");
+  FILE* in = fopen(argv[1], "r");
   if (!in) {
     fprintf(stderr, "cannot open %s\n", argv[1]);
     return 2;
@@ -44,9 +44,9 @@ int main(int argc, char **argv) {
       fclose(in);
       return 2;
     }
-    char *cursor = line;
+    char* cursor = line;
     for (int j = 0; j < P; ++j) {
-      char *end = NULL;
+      char* end = NULL;
       data[n][j] = strtod(cursor, &end);
       if (end == cursor) {
         fprintf(stderr, "row %lld, column %d: not a number\n", (long long)n + 1, j + 1);
@@ -59,11 +59,10 @@ int main(int argc, char **argv) {
   }
   fclose(in);
 
-  printf("version %s %d\n", ellipsa_version(),
-         ellipsa_version_number() == ELLIPSA_VERSION_NUMBER);
+  printf("version %s %d\n", ellipsa_version(), ellipsa_version_number() == ELLIPSA_VERSION_NUMBER);
 
-  ellipsa_fit_options *options = NULL;
-  ellipsa_model *model = NULL;
+  ellipsa_fit_options* options = NULL;
+  ellipsa_model* model = NULL;
   ellipsa_matrix x = ellipsa_matrix_row_major(&data[0][0], n, P);
   ellipsa_status s = ellipsa_fit_options_create(&options, ELLIPSA_METHOD_CLASSICAL);
   if (s == ELLIPSA_OK) s = ellipsa_fit_options_set_divisor(options, ELLIPSA_DIVISOR_N_MINUS_1);

@@ -82,7 +82,8 @@ void put(std::FILE* f, const char* name, const Eigen::MatrixXd& a) {
 
 int main(int argc, char** argv) {
   try {
-    if (argc < 8) throw std::runtime_error("usage: iterative_reference mixture|mcd START OUTPUT STRUCTURE TOL MAXIT FILE...");
+    if (argc < 8)
+      throw std::runtime_error("usage: iterative_reference mixture|mcd START OUTPUT STRUCTURE TOL MAXIT FILE...");
     const std::string method = argv[1], output = argv[3], structure = argv[4];
     const double tolerance = std::stod(argv[5]);
     const int max_iterations = std::stoi(argv[6]);
@@ -131,7 +132,8 @@ int main(int argc, char** argv) {
       Eigen::MatrixXd s;
       double w = 0.0;
       component(start, 0, loc, s, w);
-      const core::mcd_detail::Standardised st = core::mcd_detail::standardise(core::make_view(x), core::mcd_detail::ColumnScale::Mad);
+      const core::mcd_detail::Standardised st =
+          core::mcd_detail::standardise(core::make_view(x), core::mcd_detail::ColumnScale::Mad);
       core::mcd_detail::SubsetFit fit;
       fit.mean = (loc - st.centre).cwiseQuotient(st.scale);
       fit.cov = st.scale.cwiseInverse().asDiagonal() * s * st.scale.cwiseInverse().asDiagonal();

@@ -27,8 +27,8 @@ void check(ellipsa_status s, const char* what) {
 }
 
 // Adds rows [lo, hi) (data-row numbers within the file; hi < 0: to the end).
-void add_rows(ellipsa_accumulator* acc, const std::string& file, const std::vector<std::string>& columns,
-              int64_t lo, int64_t hi) {
+void add_rows(ellipsa_accumulator* acc, const std::string& file, const std::vector<std::string>& columns, int64_t lo,
+              int64_t hi) {
   ellipsa::cli::CsvOptions o;
   o.columns = columns;
   ellipsa::cli::CsvReader reader(file, o);
@@ -87,7 +87,8 @@ int main(int argc, char** argv) {
     }
     // Binomial tree: at step s, part r (r % 2s == 0) takes in part r + s.
     for (int s = 1; s < ranks; s *= 2)
-      for (int r = 0; r + s < ranks; r += 2 * s) check(ellipsa_accumulator_merge(parts[r].get(), parts[r + s].get()), "merge");
+      for (int r = 0; r + s < ranks; r += 2 * s)
+        check(ellipsa_accumulator_merge(parts[r].get(), parts[r + s].get()), "merge");
 
     ellipsa_method m = 0;
     check(ellipsa_method_from_name(&m, method.c_str()), "method");

@@ -24,8 +24,7 @@ std::string statistic_text(const CompareTest& t, int which) {
   std::string s = "T^2 = " + fmt("%.4g", t.statistic);
   if (which == ELLIPSA_TEST_MEAN_SHIFT)
     s += ", F(" + fmt("%.0f", t.df1) + ", " + fmt("%.0f", t.df2) + ") = " + fmt("%.4g", t.transformed);
-  else
-    s += ", " + std::to_string(t.permutations) + " relabellings";
+  else s += ", " + std::to_string(t.permutations) + " relabellings";
   return s;
 }
 
@@ -68,24 +67,26 @@ std::vector<std::string> verdict(const CompareSummary& s) {
   for (auto j : moved_variables(s))
     vars += (vars.empty() ? "" : ", ") + s.columns[j] + " (" + shift_text(s.variables[j].shift_in_sd) + " sd)";
   if (!vars.empty()) add("variables " + vars);
-  if (s.moved())
-    v.push_back("The new batch differs from the reference at significance " + level + ": " + what + ".");
-  else
-    v.push_back("No evidence at significance " + level + " that the new batch differs from the reference.");
+  if (s.moved()) v.push_back("The new batch differs from the reference at significance " + level + ": " + what + ".");
+  else v.push_back("No evidence at significance " + level + " that the new batch differs from the reference.");
   if (s.mean.significant(s.significance) && s.robust_mean.requested && s.robust_mean.available &&
       !s.robust_mean.significant(s.significance))
-    v.push_back("The classical mean test is significant but the robust one is not: a few unusual rows may be "
-                "moving the mean rather than the whole batch; screen the new batch to find them.");
+    v.push_back(
+        "The classical mean test is significant but the robust one is not: a few unusual rows may be "
+        "moving the mean rather than the whole batch; screen the new batch to find them.");
   if (s.covariance.significant(s.significance))
-    v.push_back("A handful of unusual rows in either batch can make Box's M significant on their own: screen or "
-                "score the new batch to see whether a few rows explain it before concluding that the spread changed.");
+    v.push_back(
+        "A handful of unusual rows in either batch can make Box's M significant on their own: screen or "
+        "score the new batch to see whether a few rows explain it before concluding that the spread changed.");
   if (!s.mean.available || !s.covariance.available || (s.robust_mean.requested && !s.robust_mean.available))
     v.push_back("Some tests could not be computed; their reasons are listed with them.");
-  v.push_back("Box's M is sensitive to non-normal data (skewed or heavy-tailed readings, cycles): read its p-value "
-              "as approximate. All tests assume independent rows; drifting or autocorrelated process data make "
-              "p-values too small.");
-  v.push_back("A significant difference is evidence to investigate, not a release decision for parts or a "
-              "judgement of people: follow your quality procedures and applicable regulations.");
+  v.push_back(
+      "Box's M is sensitive to non-normal data (skewed or heavy-tailed readings, cycles): read its p-value "
+      "as approximate. All tests assume independent rows; drifting or autocorrelated process data make "
+      "p-values too small.");
+  v.push_back(
+      "A significant difference is evidence to investigate, not a release decision for parts or a "
+      "judgement of people: follow your quality procedures and applicable regulations.");
   return v;
 }
 
@@ -116,8 +117,8 @@ std::string compare_text(const CompareSummary& s) {
   }
   h << "per variable (shift of the mean in reference sd; Welch t; p adjusted by Holm):\n";
   char buf[256];
-  std::snprintf(buf, sizeof buf, "  %-24s %11s %11s %8s %8s %9s %9s\n", "column", "ref. mean", "new mean", "shift",
-                "t", "p", "Holm p");
+  std::snprintf(buf, sizeof buf, "  %-24s %11s %11s %8s %8s %9s %9s\n", "column", "ref. mean", "new mean", "shift", "t",
+                "p", "Holm p");
   h << buf;
   for (std::size_t j = 0; j < s.variables.size(); ++j) {
     const auto& v = s.variables[j];
@@ -141,8 +142,8 @@ std::string compare_page(const CompareSummary& s) {
     << "<title>" << escape(title) << "</title>\n<style>" << report_style() << "</style>\n</head>\n<body>\n<main>\n";
   h << "<header>\n<h1>" << escape(title) << "</h1>\n<p class=\"sub\">New batch: " << escape(s.batch_file) << " ("
     << s.batch_used << " rows) &middot; reference: " << escape(s.reference_file) << " (" << s.reference_used
-    << " rows) &middot; " << s.columns.size() << " variables &middot; significance " << escape(fmt("%.3g", s.significance))
-    << "</p>\n</header>\n";
+    << " rows) &middot; " << s.columns.size() << " variables &middot; significance "
+    << escape(fmt("%.3g", s.significance)) << "</p>\n</header>\n";
   h << "<div class=\"glance\">\n";
   for (const auto& l : lines(s)) {
     const CompareTest& t = *l.test;
@@ -151,7 +152,8 @@ std::string compare_page(const CompareSummary& s) {
   }
   const auto moved = moved_variables(s);
   h << report_tile("Variables that moved", std::to_string(moved.size()),
-                   "of " + std::to_string(s.variables.size()) + ", Holm-adjusted Welch p below the level", !moved.empty())
+                   "of " + std::to_string(s.variables.size()) + ", Holm-adjusted Welch p below the level",
+                   !moved.empty())
     << "</div>\n";
   const auto sentences = verdict(s);
   h << "<section id=\"verdict\">\n<h2>What the tests say</h2>\n";

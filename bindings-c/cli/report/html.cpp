@@ -131,9 +131,11 @@ std::string flagged_table(const ReportInput& in, const std::vector<std::size_t>&
       h << "<td><span class=\"swatch\" style=\"background:" << component_colour(static_cast<std::size_t>(r.component))
         << "\"></span>" << r.component + 1 << "</td>";
     std::string note;
-    if (in.mixture) note = r.low_density ? (r.over_limit ? "over the limit; low density" : "low density") : "over the limit";
-    if (partial) note += std::string(note.empty() ? "" : "; ") + "scored on " + std::to_string(r.observed) + " of " +
-                         std::to_string(in.p) + " values";
+    if (in.mixture)
+      note = r.low_density ? (r.over_limit ? "over the limit; low density" : "low density") : "over the limit";
+    if (partial)
+      note += std::string(note.empty() ? "" : "; ") + "scored on " + std::to_string(r.observed) + " of " +
+              std::to_string(in.p) + " values";
     h << "<td>" << escape(r.top) << "</td><td>" << escape(note) << "</td></tr>\n";
   }
   h << "</tbody></table>\n";
@@ -189,8 +191,8 @@ std::string render_report(const ReportInput& in) {
   // At a glance.
   const double share = n > 0 ? 100.0 * static_cast<double>(flagged.size()) / static_cast<double>(n) : 0.0;
   h << "<div class=\"glance\">\n"
-    << tile("Flagged rows", std::to_string(flagged.size()), "of " + std::to_string(n) + " rows (" + fmt("%.1f", share) + "%)",
-            !flagged.empty())
+    << tile("Flagged rows", std::to_string(flagged.size()),
+            "of " + std::to_string(n) + " rows (" + fmt("%.1f", share) + "%)", !flagged.empty())
     << tile("Expected by chance", fmt("%.0f", (1.0 - in.level) * static_cast<double>(scorable)),
             "if every row fitted the profile (" + fmt("%.3g", 100.0 * (1.0 - in.level)) + "% of the rows)")
     << tile("Limit", fmt("%.2f", in.cutoff),
@@ -223,7 +225,8 @@ std::string render_report(const ReportInput& in) {
   h << "</section>\n";
 
   // Distances.
-  h << "<section id=\"distances\">\n<h2>Distances</h2>\n<div class=\"pair\">\n<div>\n<h3>Model distance against classical distance</h3>\n"
+  h << "<section id=\"distances\">\n<h2>Distances</h2>\n<div class=\"pair\">\n<div>\n<h3>Model distance against "
+       "classical distance</h3>\n"
     << figure(distance_distance_plot(in, drawn),
               "Each mark is a row. Across: its distance from the plain mean and covariance of all rows shown, which "
               "unusual rows pull toward themselves. Up: its distance under the model. Rows above the dashed "
@@ -238,14 +241,17 @@ std::string render_report(const ReportInput& in) {
               "Too few fully observed rows for a quantile plot.")
     << "</div>\n</div>\n";
   if (drawn.size() < scorable)
-    h << "<p class=\"note\">To keep the page light, the point plots show every flagged row and " << drawn.size() - flagged.size()
-      << " of the " << scorable - flagged.size() << " other rows, evenly spaced through the file.</p>\n";
+    h << "<p class=\"note\">To keep the page light, the point plots show every flagged row and "
+      << drawn.size() - flagged.size() << " of the " << scorable - flagged.size()
+      << " other rows, evenly spaced through the file.</p>\n";
   h << "</section>\n";
 
   h << "<section id=\"pairs\">\n<h2>Variables in pairs</h2>\n"
     << figure(scatter_matrix(in, drawn),
-              matrix_subject(in, !flagged.empty()) + ", in pairs, "
-              "with a histogram of each on the diagonal. Each ellipse would hold about " + level_pct +
+              matrix_subject(in, !flagged.empty()) +
+                  ", in pairs, "
+                  "with a histogram of each on the diagonal. Each ellipse would hold about " +
+                  level_pct +
                   " of the rows in that pair if the model holds. A row can sit inside every ellipse and still be "
                   "flagged: it then breaks a pattern among three or more variables at once.",
               "The model has one variable: there are no pairs to draw.")
@@ -269,7 +275,8 @@ std::string render_report(const ReportInput& in) {
       << "</section>\n";
   }
 
-  h << "<section id=\"model\">\n<h2>Model</h2>\n<dl class=\"facts\">\n<dt>method</dt><dd>" << escape(in.method) << "</dd>\n"
+  h << "<section id=\"model\">\n<h2>Model</h2>\n<dl class=\"facts\">\n<dt>method</dt><dd>" << escape(in.method)
+    << "</dd>\n"
     << "<dt>variables</dt><dd>";
   for (std::size_t j = 0; j < in.columns.size(); ++j) h << (j ? ", " : "") << escape(in.columns[j]);
   h << "</dd>\n";
@@ -279,7 +286,8 @@ std::string render_report(const ReportInput& in) {
   h << "</dd>\n</dl>\n</section>\n";
 
   h << "<footer>Written by ellipsa " << escape(in.version)
-    << ". This page is self-contained: it loads nothing from anywhere else. Hover over a mark to see its row.</footer>\n"
+    << ". This page is self-contained: it loads nothing from anywhere else. Hover over a mark to see its "
+       "row.</footer>\n"
     << "</main>\n</body>\n</html>\n";
   return h.str();
 }

@@ -54,7 +54,8 @@ void draw_row_point(Builder& b, const ReportInput& in, std::size_t r, double x, 
   const ReportRow& row = in.rows[r];
   std::string title = row_label(row) + ": " + extra;
   if (row.flagged) title += row.low_density ? " - flagged (low density under the mixture)" : " - flagged";
-  if (row.observed < in.p) title += " - " + std::to_string(row.observed) + " of " + std::to_string(in.p) + " values observed";
+  if (row.observed < in.p)
+    title += " - " + std::to_string(row.observed) + " of " + std::to_string(in.p) + " values observed";
   if (row.flagged) {
     b.diamond(x, y, 4.6, "pt-flag", {}, title);
     return;
@@ -143,7 +144,8 @@ std::string distance_distance_plot(const ReportInput& in, const std::vector<std:
   }
   Builder b(540, 430, "Distance-distance plot");
   const Panel pn(70, 16, 450, 320, from_zero(xr), from_zero(yr));
-  svg::draw_axes(b, pn, "classical distance (sample mean and covariance)", "distance under the " + in.method + " model");
+  svg::draw_axes(b, pn, "classical distance (sample mean and covariance)",
+                 "distance under the " + in.method + " model");
   const double m = std::min(pn.x.d1, pn.y.d1);
   b.line(pn.x(0), pn.y(0), pn.x(m), pn.y(m), "ident");
   b.line(pn.x(cut), pn.top, pn.x(cut), pn.bottom(), "cut");
@@ -154,7 +156,8 @@ std::string distance_distance_plot(const ReportInput& in, const std::vector<std:
     draw_row_point(b, in, r, pn.x(c), pn.y(d), "classical " + fmt("%.2f", c) + ", model " + fmt("%.2f", d));
   }
   auto legend = point_legend(in);
-  legend.push_back({LegendEntry::line, "cut", "", "limit " + fmt("%.2f", cut) + " (\xE2\x88\x9A" + fmt("%.2f", in.cutoff) + ")"});
+  legend.push_back(
+      {LegendEntry::line, "cut", "", "limit " + fmt("%.2f", cut) + " (\xE2\x88\x9A" + fmt("%.2f", in.cutoff) + ")"});
   legend.push_back({LegendEntry::line, "ident", "", "equal distances"});
   const double last = svg::draw_legend(b, 20, pn.bottom() + 62, legend, 530);
   b.set_height(last + 12);
@@ -185,14 +188,16 @@ std::string quantile_plot(const ReportInput& in) {
   std::size_t seen = 0;
   for (std::size_t i = 0; i < in.quantiles.size(); ++i)
     if (in.rows[in.quantiles[i].row].flagged || seen++ % stride == 0) order.push_back(i);
-  std::stable_partition(order.begin(), order.end(), [&](std::size_t i) { return !in.rows[in.quantiles[i].row].flagged; });
+  std::stable_partition(order.begin(), order.end(),
+                        [&](std::size_t i) { return !in.rows[in.quantiles[i].row].flagged; });
   for (auto i : order) {
     const auto& q = in.quantiles[i];
     const double x = std::sqrt(q.expected), y = std::sqrt(q.observed);
     draw_row_point(b, in, q.row, pn.x(x), pn.y(y), "expected " + fmt("%.2f", x) + ", observed " + fmt("%.2f", y));
   }
   auto legend = point_legend(in);
-  legend.push_back({LegendEntry::line, "cut", "", "limit " + fmt("%.2f", cut) + " (\xE2\x88\x9A" + fmt("%.2f", in.cutoff) + ")"});
+  legend.push_back(
+      {LegendEntry::line, "cut", "", "limit " + fmt("%.2f", cut) + " (\xE2\x88\x9A" + fmt("%.2f", in.cutoff) + ")"});
   legend.push_back({LegendEntry::line, "ident", "", "as expected"});
   const double last = svg::draw_legend(b, 20, pn.bottom() + 62, legend, 530);
   b.set_height(last + 12);
@@ -249,7 +254,8 @@ std::string scatter_matrix(const ReportInput& in, const std::vector<std::size_t>
         svg::draw_axes(b, pn, "", "", 4, 4, false);
         for (std::size_t c = 0; c < in.components.size(); ++c) {
           const auto& comp = in.components[c];
-          const double sxx = comp.scatter[xv * p + xv], syy = comp.scatter[yv * p + yv], sxy = comp.scatter[xv * p + yv];
+          const double sxx = comp.scatter[xv * p + xv], syy = comp.scatter[yv * p + yv],
+                       sxy = comp.scatter[xv * p + yv];
           const double l11 = std::sqrt(sxx), l21 = sxy / l11, l22sq = syy - l21 * l21;
           if (!(l11 > 0.0) || !(l22sq > 0.0)) continue;
           const double l22 = std::sqrt(l22sq);
@@ -264,18 +270,22 @@ std::string scatter_matrix(const ReportInput& in, const std::vector<std::size_t>
         for (auto r : ordered) {
           const double x = in.values[r * p + xv], y = in.values[r * p + yv];
           if (!std::isfinite(x) || !std::isfinite(y)) continue;
-          draw_row_point(b, in, r, pn.x(x), pn.y(y),
-                         in.columns[xv] + " " + svg::label_number(x) + ", " + in.columns[yv] + " " + svg::label_number(y));
+          draw_row_point(
+              b, in, r, pn.x(x), pn.y(y),
+              in.columns[xv] + " " + svg::label_number(x) + ", " + in.columns[yv] + " " + svg::label_number(y));
         }
       }
       if (i + 1 == k) {
-        for (double v : svg::ticks(pn.x.d0, pn.x.d1, 4)) b.text(pn.x(v), pn.bottom() + 15, svg::label_number(v), "ticklabel", "middle");
-        b.text(pn.left + cell / 2, pn.bottom() + 33, shorten(in.columns[xv], static_cast<std::size_t>(cell / 7)), "axistitle", "middle");
+        for (double v : svg::ticks(pn.x.d0, pn.x.d1, 4))
+          b.text(pn.x(v), pn.bottom() + 15, svg::label_number(v), "ticklabel", "middle");
+        b.text(pn.left + cell / 2, pn.bottom() + 33, shorten(in.columns[xv], static_cast<std::size_t>(cell / 7)),
+               "axistitle", "middle");
       }
       if (jj == 0) {
-        for (double v : svg::ticks(pn.y.d0, pn.y.d1, 4)) b.text(pn.left - 5, pn.y(v) + 4, svg::label_number(v), "ticklabel", "end");
-        b.text(pn.left - 56, pn.top + cell / 2, shorten(in.columns[yv], static_cast<std::size_t>(cell / 7)), "axistitle",
-               "middle", -90.0);
+        for (double v : svg::ticks(pn.y.d0, pn.y.d1, 4))
+          b.text(pn.left - 5, pn.y(v) + 4, svg::label_number(v), "ticklabel", "end");
+        b.text(pn.left - 56, pn.top + cell / 2, shorten(in.columns[yv], static_cast<std::size_t>(cell / 7)),
+               "axistitle", "middle", -90.0);
       }
     }
   }
@@ -283,8 +293,9 @@ std::string scatter_matrix(const ReportInput& in, const std::vector<std::size_t>
   const std::string pct = fmt("%.4g", 100.0 * in.level) + "% tolerance ellipse";
   if (in.mixture) {
     for (std::size_t c = 0; c < in.components.size(); ++c)
-      legend.push_back({LegendEntry::line, "ell", stroke_style(component_colour(c)),
-                        pct + ", component " + std::to_string(c + 1) + " (weight " + fmt("%.2f", in.components[c].weight) + ")"});
+      legend.push_back(
+          {LegendEntry::line, "ell", stroke_style(component_colour(c)),
+           pct + ", component " + std::to_string(c + 1) + " (weight " + fmt("%.2f", in.components[c].weight) + ")"});
   } else {
     legend.push_back({LegendEntry::line, "ell", stroke_style(kSingleEllipse), pct + " of the model"});
   }
@@ -298,7 +309,8 @@ std::string contribution_bars(const ReportInput& in, std::size_t how_many) {
   std::vector<std::size_t> shown;
   for (std::size_t r = 0; r < in.rows.size(); ++r)
     if (in.rows[r].flagged && in.rows[r].scorable) shown.push_back(r);
-  std::stable_sort(shown.begin(), shown.end(), [&](std::size_t a, std::size_t z) { return in.rows[a].d2 > in.rows[z].d2; });
+  std::stable_sort(shown.begin(), shown.end(),
+                   [&](std::size_t a, std::size_t z) { return in.rows[a].d2 > in.rows[z].d2; });
   if (shown.size() > how_many) shown.resize(how_many);
   if (shown.empty()) return "";
 
@@ -346,8 +358,8 @@ std::string contribution_bars(const ReportInput& in, std::size_t how_many) {
       if (!(w > 0.0)) continue;
       const double c = in.contribution[shown[s] * p + j];
       b.rect(x, y, w, 17, "seg", fill_style(colour_of(j)),
-             row_label(row) + ": " + in.columns[j] + " " + fmt("%.0f", 100.0 * share[s * p + j]) +
-                 "% (contribution " + svg::label_number(c) + " of squared distance " + svg::label_number(row.d2) + ")");
+             row_label(row) + ": " + in.columns[j] + " " + fmt("%.0f", 100.0 * share[s * p + j]) + "% (contribution " +
+                 svg::label_number(c) + " of squared distance " + svg::label_number(row.d2) + ")");
       x += w;
     }
     b.text(label_w + bar_w + 10, y + 13, "d\xC2\xB2 " + svg::label_number(std::round(row.d2 * 10) / 10), "barvalue");
@@ -371,7 +383,8 @@ std::string model_choice_plot(const ReportInput& in) {
   if (ok.size() < 2) return "";
   std::vector<std::string> structures;
   for (auto* c : ok)
-    if (std::find(structures.begin(), structures.end(), c->structure) == structures.end()) structures.push_back(c->structure);
+    if (std::find(structures.begin(), structures.end(), c->structure) == structures.end())
+      structures.push_back(c->structure);
   Range xr, yr;
   int kmin = 1 << 30, kmax = 0;
   for (auto* c : ok) {

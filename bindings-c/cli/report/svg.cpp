@@ -45,11 +45,26 @@ std::string escape(std::string_view text) {
   for (std::size_t i = 0; i < text.size();) {
     const char c = text[i];
     switch (c) {
-      case '&': out += "&amp;"; ++i; continue;
-      case '<': out += "&lt;"; ++i; continue;
-      case '>': out += "&gt;"; ++i; continue;
-      case '"': out += "&quot;"; ++i; continue;
-      case '\'': out += "&#39;"; ++i; continue;
+      case '&':
+        out += "&amp;";
+        ++i;
+        continue;
+      case '<':
+        out += "&lt;";
+        ++i;
+        continue;
+      case '>':
+        out += "&gt;";
+        ++i;
+        continue;
+      case '"':
+        out += "&quot;";
+        ++i;
+        continue;
+      case '\'':
+        out += "&#39;";
+        ++i;
+        continue;
       default: break;
     }
     const auto u = static_cast<unsigned char>(c);
@@ -174,9 +189,8 @@ void Builder::text(double x, double y, std::string_view content, std::string_vie
 std::string Builder::finish() const {
   // No xmlns: the element lives inside HTML, where the parser supplies the
   // namespace (and the page then carries no address at all).
-  return "<svg width=\"" + num(width_) + "\" height=\"" + num(height_) +
-         "\" viewBox=\"0 0 " + num(width_) + ' ' + num(height_) + "\" role=\"img\" aria-label=\"" + aria_ +
-         "\">\n" + body_ + "</svg>\n";
+  return "<svg width=\"" + num(width_) + "\" height=\"" + num(height_) + "\" viewBox=\"0 0 " + num(width_) + ' ' +
+         num(height_) + "\" role=\"img\" aria-label=\"" + aria_ + "\">\n" + body_ + "</svg>\n";
 }
 
 void Range::include(double v) {
@@ -229,8 +243,8 @@ Panel::Panel(double left_px, double top_px, double width_px, double height_px, R
   y = {yr.lo, yr.hi, top + height, top};
 }
 
-void draw_axes(Builder& b, const Panel& p, std::string_view x_title, std::string_view y_title, int x_ticks,
-               int y_ticks, bool tick_labels) {
+void draw_axes(Builder& b, const Panel& p, std::string_view x_title, std::string_view y_title, int x_ticks, int y_ticks,
+               bool tick_labels) {
   for (double v : ticks(p.x.d0, p.x.d1, x_ticks)) {
     const double px = p.x(v);
     b.line(px, p.top, px, p.bottom(), "grid");
@@ -244,7 +258,8 @@ void draw_axes(Builder& b, const Panel& p, std::string_view x_title, std::string
     if (tick_labels) b.text(p.left - 7, py + 4, label_number(v), "ticklabel", "end");
   }
   b.rect(p.left, p.top, p.width, p.height, "frame");
-  if (!x_title.empty()) b.text(p.left + p.width / 2, p.bottom() + (tick_labels ? 36 : 16), x_title, "axistitle", "middle");
+  if (!x_title.empty())
+    b.text(p.left + p.width / 2, p.bottom() + (tick_labels ? 36 : 16), x_title, "axistitle", "middle");
   if (!y_title.empty()) {
     const double x = p.left - (tick_labels ? 44 : 10);
     const double y = p.top + p.height / 2;

@@ -37,8 +37,8 @@ class Builder {
   // An open or closed polyline through the points (x0, y0, x1, y1, ...).
   void polyline(const std::vector<double>& xy, bool closed, std::string_view cls, std::string_view style = {});
   // anchor: "start", "middle" or "end"; rotate: degrees about (x, y).
-  void text(double x, double y, std::string_view content, std::string_view cls,
-            std::string_view anchor = "start", double rotate = 0.0);
+  void text(double x, double y, std::string_view content, std::string_view cls, std::string_view anchor = "start",
+            double rotate = 0.0);
 
   void set_height(double height) { height_ = height; }
   std::string finish() const;  // the whole <svg>...</svg>
@@ -81,8 +81,8 @@ struct Panel {
 };
 
 // Frame, grid lines, tick marks with labels and the two axis titles.
-void draw_axes(Builder& b, const Panel& p, std::string_view x_title, std::string_view y_title,
-               int x_ticks = 6, int y_ticks = 6, bool tick_labels = true);
+void draw_axes(Builder& b, const Panel& p, std::string_view x_title, std::string_view y_title, int x_ticks = 6,
+               int y_ticks = 6, bool tick_labels = true);
 
 // One legend entry: a marker drawn with the given class and style, then text.
 // Line entries take their dash pattern from the class, like the plotted line.

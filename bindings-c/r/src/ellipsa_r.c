@@ -39,13 +39,13 @@ typedef struct failure {
 } failure;
 
 /* Copies the library's message right after the failing call. */
-static void capture_failure(failure *f, ellipsa_status status) {
+static void capture_failure(failure* f, ellipsa_status status) {
   f->status = status;
   snprintf(f->detail, sizeof f->detail, "%s", ellipsa_last_error());
 }
 
 /* The R-side wrapper turns the leading status name into a condition field. */
-static void NORET raise_failure(const failure *f) {
+static void NORET raise_failure(const failure* f) {
   Rf_errorcall(R_NilValue, "%s: %s", ellipsa_status_string(f->status), f->detail);
 }
 
@@ -59,10 +59,10 @@ static void check(ellipsa_status status) {
 
 /* ---------------------------------------------------------------- models */
 
-static const char *const kModelTag = "ellipsa_model";
+static const char* const kModelTag = "ellipsa_model";
 
 static void model_finalizer(SEXP handle) {
-  ellipsa_model *m = (ellipsa_model *)R_ExternalPtrAddr(handle);
+  ellipsa_model* m = (ellipsa_model*)R_ExternalPtrAddr(handle);
   if (m != NULL) {
     ellipsa_model_destroy(m);
     R_ClearExternalPtr(handle);
@@ -77,10 +77,10 @@ static SEXP new_model_handle(void) {
   return handle;
 }
 
-static const ellipsa_model *model_of(SEXP handle) {
+static const ellipsa_model* model_of(SEXP handle) {
   if (TYPEOF(handle) != EXTPTRSXP || R_ExternalPtrTag(handle) != Rf_install(kModelTag))
     Rf_errorcall(R_NilValue, "ELLIPSA_ERR_NULL: not an ellipsa model handle");
-  const ellipsa_model *m = (const ellipsa_model *)R_ExternalPtrAddr(handle);
+  const ellipsa_model* m = (const ellipsa_model*)R_ExternalPtrAddr(handle);
   if (m == NULL)
     Rf_errorcall(R_NilValue,
                  "ELLIPSA_ERR_NULL: the model handle is empty (restored from a saved R session?); "
@@ -102,9 +102,9 @@ static ellipsa_matrix view_of(SEXP x) {
 }
 
 /* An R matrix filled from a row-major rows x cols buffer. */
-static SEXP matrix_from_row_major(const double *src, R_xlen_t rows, R_xlen_t cols) {
+static SEXP matrix_from_row_major(const double* src, R_xlen_t rows, R_xlen_t cols) {
   SEXP out = PROTECT(Rf_allocMatrix(REALSXP, (int)rows, (int)cols));
-  double *dst = REAL(out);
+  double* dst = REAL(out);
   for (R_xlen_t i = 0; i < rows; ++i)
     for (R_xlen_t j = 0; j < cols; ++j) dst[i + j * rows] = src[i * cols + j];
   UNPROTECT(1);
@@ -115,19 +115,19 @@ static SEXP matrix_from_row_major(const double *src, R_xlen_t rows, R_xlen_t col
 
 /* Everything a fit needs, read from R before any library handle exists. */
 typedef struct fit_request {
-  const char *method;
+  const char* method;
   int divisor, missing, structure, restarts, max_iterations;
   int k_min, k_max;
   double alpha, tolerance, regularisation;
   int has_divisor, has_missing, has_structure, has_restarts, has_components;
   int has_alpha, has_seed, has_iterations, has_regularisation;
   uint64_t seed;
-  const char **names;
+  const char** names;
   int64_t name_count;
 } fit_request;
 
 /* Reads an optional integer setting; returns whether it was given. */
-static int optional_int(SEXP v, int *out) {
+static int optional_int(SEXP v, int* out) {
   if (Rf_isNull(v)) return 0;
   *out = Rf_asInteger(v);
   return 1;
@@ -136,8 +136,8 @@ static int optional_int(SEXP v, int *out) {
 static uint64_t parse_seed(SEXP v) {
   if (TYPEOF(v) != STRSXP || XLENGTH(v) != 1 || STRING_ELT(v, 0) == NA_STRING)
     Rf_errorcall(R_NilValue, "ELLIPSA_ERR_ARGUMENT: seed must be one decimal string");
-  const char *text = CHAR(STRING_ELT(v, 0));
-  char *end = NULL;
+  const char* text = CHAR(STRING_ELT(v, 0));
+  char* end = NULL;
   errno = 0;
   unsigned long long s = strtoull(text, &end, 10);
   if (errno != 0 || end == text || *end != '\0' || text[0] == '-')
@@ -146,7 +146,7 @@ static uint64_t parse_seed(SEXP v) {
 }
 
 /* The element of the named list `settings` called `name`, or NULL. */
-static SEXP setting(SEXP settings, const char *name) {
+static SEXP setting(SEXP settings, const char* name) {
   SEXP names = Rf_getAttrib(settings, R_NamesSymbol);
   for (R_xlen_t i = 0; i < XLENGTH(settings); ++i)
     if (strcmp(CHAR(STRING_ELT(names, i)), name) == 0) return VECTOR_ELT(settings, i);
@@ -191,7 +191,7 @@ static fit_request read_request(SEXP method, SEXP settings, SEXP names) {
   if (r.has_regularisation) r.regularisation = Rf_asReal(regularisation);
   if (!Rf_isNull(names)) {
     r.name_count = XLENGTH(names);
-    r.names = (const char **)R_alloc((size_t)r.name_count + 1, sizeof(char *));
+    r.names = (const char**)R_alloc((size_t)r.name_count + 1, sizeof(char*));
     for (int64_t j = 0; j < r.name_count; ++j) {
       SEXP s = STRING_ELT(names, j);
       r.names[j] = s == NA_STRING ? "NA" : Rf_translateCharUTF8(s);
@@ -201,7 +201,7 @@ static fit_request read_request(SEXP method, SEXP settings, SEXP names) {
 }
 
 /* Applies the request to fresh options; no R call inside (nothing can longjmp). */
-static ellipsa_status configure(ellipsa_fit_options *o, const fit_request *r) {
+static ellipsa_status configure(ellipsa_fit_options* o, const fit_request* r) {
   ellipsa_status s = ELLIPSA_OK;
   if (s == ELLIPSA_OK && r->has_divisor) s = ellipsa_fit_options_set_divisor(o, r->divisor);
   if (s == ELLIPSA_OK && r->has_missing) s = ellipsa_fit_options_set_missing(o, r->missing);
@@ -210,22 +210,20 @@ static ellipsa_status configure(ellipsa_fit_options *o, const fit_request *r) {
   if (s == ELLIPSA_OK && r->has_components) s = ellipsa_fit_options_set_components(o, r->k_min, r->k_max);
   if (s == ELLIPSA_OK && r->has_alpha) s = ellipsa_fit_options_set_alpha(o, r->alpha);
   if (s == ELLIPSA_OK && r->has_seed) s = ellipsa_fit_options_set_seed(o, r->seed);
-  if (s == ELLIPSA_OK && r->has_iterations)
-    s = ellipsa_fit_options_set_iterations(o, r->max_iterations, r->tolerance);
-  if (s == ELLIPSA_OK && r->has_regularisation)
-    s = ellipsa_fit_options_set_regularisation(o, r->regularisation);
+  if (s == ELLIPSA_OK && r->has_iterations) s = ellipsa_fit_options_set_iterations(o, r->max_iterations, r->tolerance);
+  if (s == ELLIPSA_OK && r->has_regularisation) s = ellipsa_fit_options_set_regularisation(o, r->regularisation);
   if (s == ELLIPSA_OK && r->names) s = ellipsa_fit_options_set_column_names(o, r->names, r->name_count);
   return s;
 }
 
 /* Interrupt check that cannot longjmp through the library (R_ToplevelExec
  * contains the jump); a pending Ctrl-C cancels the fit. */
-static void check_interrupt_body(void *unused) {
+static void check_interrupt_body(void* unused) {
   (void)unused;
   R_CheckUserInterrupt();
 }
 
-static int progress_allows_interrupt(const char *stage, double fraction, void *user) {
+static int progress_allows_interrupt(const char* stage, double fraction, void* user) {
   (void)stage;
   (void)fraction;
   (void)user;
@@ -239,11 +237,11 @@ SEXP ellipsa_r_fit(SEXP x, SEXP method, SEXP settings, SEXP names) {
 
   ellipsa_method m = 0;
   check(ellipsa_method_from_name(&m, request.method));
-  ellipsa_fit_options *options = NULL;
+  ellipsa_fit_options* options = NULL;
   check(ellipsa_fit_options_create(&options, m));
   ellipsa_status s = configure(options, &request);
   if (s == ELLIPSA_OK) s = ellipsa_fit_options_set_progress(options, progress_allows_interrupt, NULL);
-  ellipsa_model *model = NULL;
+  ellipsa_model* model = NULL;
   if (s == ELLIPSA_OK) s = ellipsa_model_fit(&model, &view, options);
   failure f;
   if (s != ELLIPSA_OK) capture_failure(&f, s);
@@ -257,7 +255,7 @@ SEXP ellipsa_r_fit(SEXP x, SEXP method, SEXP settings, SEXP names) {
 
 /* ---------------------------------------------------------------- queries */
 
-static SEXP named_list(int n, const char **names) {
+static SEXP named_list(int n, const char** names) {
   SEXP out = PROTECT(Rf_allocVector(VECSXP, n));
   SEXP nm = PROTECT(Rf_allocVector(STRSXP, n));
   for (int i = 0; i < n; ++i) SET_STRING_ELT(nm, i, Rf_mkChar(names[i]));
@@ -267,14 +265,14 @@ static SEXP named_list(int n, const char **names) {
 }
 
 SEXP ellipsa_r_describe(SEXP handle) {
-  const ellipsa_model *model = model_of(handle);
+  const ellipsa_model* model = model_of(handle);
   int32_t kind = 0, components = 0;
   ellipsa_method method = 0;
   int64_t p = 0, used = 0, dropped = 0;
   check(ellipsa_model_describe(&kind, &method, &p, &components, model));
   check(ellipsa_model_rows(&used, &dropped, model));
-  static const char *fields[] = {"kind", "method", "dimension", "components", "rows_used",
-                                 "rows_dropped", "column_names"};
+  static const char* fields[] = {"kind",      "method",       "dimension",   "components",
+                                 "rows_used", "rows_dropped", "column_names"};
   SEXP out = PROTECT(named_list(7, fields));
   SET_VECTOR_ELT(out, 0, Rf_mkString(kind == ELLIPSA_KIND_MIXTURE ? "mixture" : "gaussian"));
   SET_VECTOR_ELT(out, 1, Rf_mkString(ellipsa_method_name(method)));
@@ -284,7 +282,7 @@ SEXP ellipsa_r_describe(SEXP handle) {
   SET_VECTOR_ELT(out, 5, Rf_ScalarReal((double)dropped));
   SEXP names = PROTECT(Rf_allocVector(STRSXP, (R_xlen_t)p));
   for (int64_t j = 0; j < p; ++j) {
-    const char *name = NULL;
+    const char* name = NULL;
     check(ellipsa_model_column_name(&name, model, j));
     SET_STRING_ELT(names, j, Rf_mkCharCE(name, CE_UTF8));
   }
@@ -293,7 +291,7 @@ SEXP ellipsa_r_describe(SEXP handle) {
   return out;
 }
 
-static int64_t dimension_of(const ellipsa_model *model) {
+static int64_t dimension_of(const ellipsa_model* model) {
   int64_t p = 0;
   check(ellipsa_model_describe(NULL, NULL, &p, NULL, model));
   return p;
@@ -302,17 +300,15 @@ static int64_t dimension_of(const ellipsa_model *model) {
 /* list(location, scatter, weight) of component k (0-based); raw != 0 asks for
  * the MCD family's raw estimate instead. */
 SEXP ellipsa_r_component(SEXP handle, SEXP k, SEXP raw) {
-  const ellipsa_model *model = model_of(handle);
+  const ellipsa_model* model = model_of(handle);
   const int64_t p = dimension_of(model);
   const int component = Rf_asInteger(k);
-  double *location = (double *)R_alloc((size_t)p, sizeof(double));
-  double *scatter = (double *)R_alloc((size_t)(p * p), sizeof(double));
+  double* location = (double*)R_alloc((size_t)p, sizeof(double));
+  double* scatter = (double*)R_alloc((size_t)(p * p), sizeof(double));
   double weight = 1.0;
-  if (Rf_asLogical(raw) == TRUE)
-    check(ellipsa_model_raw_estimate(location, p, scatter, p * p, model));
-  else
-    check(ellipsa_model_component(location, p, scatter, p * p, &weight, model, component));
-  static const char *fields[] = {"location", "scatter", "weight"};
+  if (Rf_asLogical(raw) == TRUE) check(ellipsa_model_raw_estimate(location, p, scatter, p * p, model));
+  else check(ellipsa_model_component(location, p, scatter, p * p, &weight, model, component));
+  static const char* fields[] = {"location", "scatter", "weight"};
   SEXP out = PROTECT(named_list(3, fields));
   SEXP loc = PROTECT(Rf_allocVector(REALSXP, (R_xlen_t)p));
   if (p > 0) memcpy(REAL(loc), location, (size_t)p * sizeof(double));
@@ -326,10 +322,10 @@ SEXP ellipsa_r_component(SEXP handle, SEXP k, SEXP raw) {
 /* A named diagnostic; with missing_ok, a name that does not apply to this
  * model (ELLIPSA_ERR_STATE) gives NA instead of an error. */
 SEXP ellipsa_r_diagnostic(SEXP handle, SEXP name, SEXP missing_ok) {
-  const ellipsa_model *model = model_of(handle);
+  const ellipsa_model* model = model_of(handle);
   if (!Rf_isString(name) || XLENGTH(name) != 1)
     Rf_errorcall(R_NilValue, "ELLIPSA_ERR_ARGUMENT: name must be one string");
-  const char *text = Rf_translateCharUTF8(STRING_ELT(name, 0));
+  const char* text = Rf_translateCharUTF8(STRING_ELT(name, 0));
   double value = 0.0;
   const ellipsa_status s = ellipsa_model_diagnostic(&value, model, text);
   if (s == ELLIPSA_ERR_STATE && Rf_asLogical(missing_ok) == TRUE) return Rf_ScalarReal(NA_REAL);
@@ -339,11 +335,11 @@ SEXP ellipsa_r_diagnostic(SEXP handle, SEXP name, SEXP missing_ok) {
 
 /* Row set `which` (ELLIPSA_ROWS_ value) as 1-based doubles (R row numbers). */
 SEXP ellipsa_r_row_set(SEXP handle, SEXP which) {
-  const ellipsa_model *model = model_of(handle);
+  const ellipsa_model* model = model_of(handle);
   const int32_t set = Rf_asInteger(which);
   int64_t count = 0;
   check(ellipsa_model_row_set(NULL, 0, &count, model, set));
-  int64_t *rows = (int64_t *)R_alloc((size_t)count + 1, sizeof(int64_t));
+  int64_t* rows = (int64_t*)R_alloc((size_t)count + 1, sizeof(int64_t));
   check(ellipsa_model_row_set(rows, count, &count, model, set));
   SEXP out = PROTECT(Rf_allocVector(REALSXP, (R_xlen_t)count));
   for (int64_t i = 0; i < count; ++i) REAL(out)[i] = (double)rows[i] + 1.0;
@@ -352,13 +348,13 @@ SEXP ellipsa_r_row_set(SEXP handle, SEXP which) {
 }
 
 SEXP ellipsa_r_selection(SEXP handle) {
-  const ellipsa_model *model = model_of(handle);
+  const ellipsa_model* model = model_of(handle);
   int64_t count = 0;
   check(ellipsa_model_selection(NULL, 0, &count, model));
-  ellipsa_candidate *c = (ellipsa_candidate *)R_alloc((size_t)count + 1, sizeof(ellipsa_candidate));
+  ellipsa_candidate* c = (ellipsa_candidate*)R_alloc((size_t)count + 1, sizeof(ellipsa_candidate));
   for (int64_t i = 0; i < count; ++i) c[i].struct_size = (int64_t)sizeof(ellipsa_candidate);
   check(ellipsa_model_selection(c, count, &count, model));
-  static const char *fields[] = {"components", "structure", "log_likelihood", "parameters",
+  static const char* fields[] = {"components", "structure", "log_likelihood", "parameters",
                                  "bic",        "icl",       "converged",      "chosen"};
   SEXP out = PROTECT(named_list(8, fields));
   const R_xlen_t n = (R_xlen_t)count;
@@ -381,7 +377,7 @@ SEXP ellipsa_r_selection(SEXP handle) {
 /* ---------------------------------------------------------------- scoring */
 
 /* 1 / 0 / -1 (not scorable) become TRUE / FALSE / NA. */
-static SEXP logical_from_flags(const int32_t *flags, R_xlen_t n) {
+static SEXP logical_from_flags(const int32_t* flags, R_xlen_t n) {
   SEXP out = PROTECT(Rf_allocVector(LGLSXP, n));
   for (R_xlen_t i = 0; i < n; ++i) LOGICAL(out)[i] = flags[i] < 0 ? NA_LOGICAL : flags[i] != 0;
   UNPROTECT(1);
@@ -389,32 +385,31 @@ static SEXP logical_from_flags(const int32_t *flags, R_xlen_t n) {
 }
 
 SEXP ellipsa_r_score(SEXP handle, SEXP x, SEXP level) {
-  const ellipsa_model *model = model_of(handle);
+  const ellipsa_model* model = model_of(handle);
   const ellipsa_matrix view = view_of(x);
   int32_t components = 0;
   int64_t p = 0;
   check(ellipsa_model_describe(NULL, NULL, &p, &components, model));
   if (view.cols != p)
-    Rf_errorcall(R_NilValue, "ELLIPSA_ERR_SHAPE: x has %lld columns, the model has %lld",
-                 (long long)view.cols, (long long)p);
+    Rf_errorcall(R_NilValue, "ELLIPSA_ERR_SHAPE: x has %lld columns, the model has %lld", (long long)view.cols,
+                 (long long)p);
   const R_xlen_t n = (R_xlen_t)view.rows;
   const size_t np = (size_t)n * (size_t)p + 1, nk = (size_t)n * (size_t)components + 1;
 
   /* Buffers are R memory: a longjmp can leak nothing of the library's. */
-  static const char *fields[] = {"squared_distance", "p_value", "flag", "observed", "component",
-                                 "log_density", "low_density", "contribution", "conditional_drop",
-                                 "membership"};
+  static const char* fields[] = {"squared_distance", "p_value",     "flag",         "observed",         "component",
+                                 "log_density",      "low_density", "contribution", "conditional_drop", "membership"};
   SEXP out = PROTECT(named_list(10, fields));
   SEXP d2 = PROTECT(Rf_allocVector(REALSXP, n));
   SEXP pv = PROTECT(Rf_allocVector(REALSXP, n));
   SEXP observed = PROTECT(Rf_allocVector(INTSXP, n));
   SEXP component = PROTECT(Rf_allocVector(INTSXP, n));
   SEXP log_density = PROTECT(Rf_allocVector(REALSXP, n));
-  int32_t *flag = (int32_t *)R_alloc((size_t)n + 1, sizeof(int32_t));
-  int32_t *low = (int32_t *)R_alloc((size_t)n + 1, sizeof(int32_t));
-  double *contribution = (double *)R_alloc(np, sizeof(double));
-  double *drop = (double *)R_alloc(np, sizeof(double));
-  double *membership = (double *)R_alloc(nk, sizeof(double));
+  int32_t* flag = (int32_t*)R_alloc((size_t)n + 1, sizeof(int32_t));
+  int32_t* low = (int32_t*)R_alloc((size_t)n + 1, sizeof(int32_t));
+  double* contribution = (double*)R_alloc(np, sizeof(double));
+  double* drop = (double*)R_alloc(np, sizeof(double));
+  double* membership = (double*)R_alloc(nk, sizeof(double));
 
   ellipsa_scores scores = ELLIPSA_SCORES_INIT;
   scores.squared_distance = REAL(d2);
@@ -447,26 +442,26 @@ SEXP ellipsa_r_score(SEXP handle, SEXP x, SEXP level) {
 /* ------------------------------------------------------------ model files */
 
 typedef struct saved_text {
-  char *text;
+  char* text;
   int64_t length;
 } saved_text;
 
-static SEXP string_from_saved(void *data) {
-  const saved_text *t = (const saved_text *)data;
+static SEXP string_from_saved(void* data) {
+  const saved_text* t = (const saved_text*)data;
   if (t->length > INT_MAX) Rf_errorcall(R_NilValue, "ELLIPSA_ERR_MEMORY: model text exceeds R's string limit");
   return Rf_ScalarString(Rf_mkCharLenCE(t->text, (int)t->length, CE_UTF8));
 }
 
 /* Runs on normal return and on a longjmp alike: the library's text is freed. */
-static void free_saved(void *data, Rboolean jump) {
+static void free_saved(void* data, Rboolean jump) {
   (void)jump;
-  saved_text *t = (saved_text *)data;
+  saved_text* t = (saved_text*)data;
   ellipsa_text_free(t->text);
   t->text = NULL;
 }
 
 SEXP ellipsa_r_save(SEXP handle) {
-  const ellipsa_model *model = model_of(handle);
+  const ellipsa_model* model = model_of(handle);
   saved_text t = {NULL, 0};
   check(ellipsa_model_save(&t.text, &t.length, model));
   return R_UnwindProtect(string_from_saved, &t, free_saved, &t, NULL);
@@ -475,10 +470,10 @@ SEXP ellipsa_r_save(SEXP handle) {
 SEXP ellipsa_r_load(SEXP text) {
   if (!Rf_isString(text) || XLENGTH(text) != 1 || STRING_ELT(text, 0) == NA_STRING)
     Rf_errorcall(R_NilValue, "ELLIPSA_ERR_ARGUMENT: text must be one string");
-  const char *bytes = Rf_translateCharUTF8(STRING_ELT(text, 0));
+  const char* bytes = Rf_translateCharUTF8(STRING_ELT(text, 0));
   const int64_t length = (int64_t)strlen(bytes);
   SEXP handle = PROTECT(new_model_handle());
-  ellipsa_model *model = NULL;
+  ellipsa_model* model = NULL;
   check(ellipsa_model_load(&model, bytes, length));
   R_SetExternalPtrAddr(handle, model);
   UNPROTECT(1);
@@ -523,8 +518,8 @@ SEXP ellipsa_r_hotelling_limit(SEXP phase, SEXP m, SEXP p, SEXP alpha) {
   double out = 0.0;
   if (!R_FINITE(Rf_asReal(m)) || !R_FINITE(Rf_asReal(p)))
     Rf_errorcall(R_NilValue, "ELLIPSA_ERR_ARGUMENT: m and p must be finite");
-  check(ellipsa_hotelling_limit(&out, Rf_asInteger(phase), (int64_t)Rf_asReal(m),
-                                (int64_t)Rf_asReal(p), Rf_asReal(alpha)));
+  check(ellipsa_hotelling_limit(&out, Rf_asInteger(phase), (int64_t)Rf_asReal(m), (int64_t)Rf_asReal(p),
+                                Rf_asReal(alpha)));
   return Rf_ScalarReal(out);
 }
 
@@ -532,8 +527,7 @@ SEXP ellipsa_r_version(void) {
   SEXP out = PROTECT(Rf_allocVector(STRSXP, 2));
   SET_STRING_ELT(out, 0, Rf_mkChar(ellipsa_version()));
   char header[32];
-  snprintf(header, sizeof header, "%d.%d.%d", ELLIPSA_VERSION_MAJOR, ELLIPSA_VERSION_MINOR,
-           ELLIPSA_VERSION_PATCH);
+  snprintf(header, sizeof header, "%d.%d.%d", ELLIPSA_VERSION_MAJOR, ELLIPSA_VERSION_MINOR, ELLIPSA_VERSION_PATCH);
   SET_STRING_ELT(out, 1, Rf_mkChar(header));
   UNPROTECT(1);
   return out;
@@ -544,8 +538,8 @@ SEXP ellipsa_r_version(void) {
 /* The library's names of its enumerations, by its own name and parse
  * functions (no table of names here): kind 1 methods, 2 covariance
  * structures, 3 missing-value policies. */
-typedef const char *(*name_fn)(int32_t);
-typedef ellipsa_status (*from_name_fn)(int32_t *, const char *);
+typedef const char* (*name_fn)(int32_t);
+typedef ellipsa_status (*from_name_fn)(int32_t*, const char*);
 static const name_fn kNameFns[] = {ellipsa_method_name, ellipsa_structure_name, ellipsa_missing_name};
 static const from_name_fn kFromNameFns[] = {ellipsa_method_from_name, ellipsa_structure_from_name,
                                             ellipsa_missing_from_name};
@@ -593,30 +587,29 @@ SEXP ellipsa_r_from_name(SEXP kind, SEXP names) {
 
 /* ------------------------------------------------------------ registration */
 
-static const R_CallMethodDef kCallMethods[] = {
-    {"ellipsa_r_fit", (DL_FUNC)&ellipsa_r_fit, 4},
-    {"ellipsa_r_describe", (DL_FUNC)&ellipsa_r_describe, 1},
-    {"ellipsa_r_component", (DL_FUNC)&ellipsa_r_component, 3},
-    {"ellipsa_r_diagnostic", (DL_FUNC)&ellipsa_r_diagnostic, 3},
-    {"ellipsa_r_row_set", (DL_FUNC)&ellipsa_r_row_set, 2},
-    {"ellipsa_r_selection", (DL_FUNC)&ellipsa_r_selection, 1},
-    {"ellipsa_r_score", (DL_FUNC)&ellipsa_r_score, 3},
-    {"ellipsa_r_save", (DL_FUNC)&ellipsa_r_save, 1},
-    {"ellipsa_r_load", (DL_FUNC)&ellipsa_r_load, 1},
-    {"ellipsa_r_distribution", (DL_FUNC)&ellipsa_r_distribution, 4},
-    {"ellipsa_r_hotelling_limit", (DL_FUNC)&ellipsa_r_hotelling_limit, 4},
-    {"ellipsa_r_version", (DL_FUNC)&ellipsa_r_version, 0},
-    {"ellipsa_r_name", (DL_FUNC)&ellipsa_r_name, 2},
-    {"ellipsa_r_from_name", (DL_FUNC)&ellipsa_r_from_name, 2},
-    {NULL, NULL, 0}};
+static const R_CallMethodDef kCallMethods[] = {{"ellipsa_r_fit", (DL_FUNC)&ellipsa_r_fit, 4},
+                                               {"ellipsa_r_describe", (DL_FUNC)&ellipsa_r_describe, 1},
+                                               {"ellipsa_r_component", (DL_FUNC)&ellipsa_r_component, 3},
+                                               {"ellipsa_r_diagnostic", (DL_FUNC)&ellipsa_r_diagnostic, 3},
+                                               {"ellipsa_r_row_set", (DL_FUNC)&ellipsa_r_row_set, 2},
+                                               {"ellipsa_r_selection", (DL_FUNC)&ellipsa_r_selection, 1},
+                                               {"ellipsa_r_score", (DL_FUNC)&ellipsa_r_score, 3},
+                                               {"ellipsa_r_save", (DL_FUNC)&ellipsa_r_save, 1},
+                                               {"ellipsa_r_load", (DL_FUNC)&ellipsa_r_load, 1},
+                                               {"ellipsa_r_distribution", (DL_FUNC)&ellipsa_r_distribution, 4},
+                                               {"ellipsa_r_hotelling_limit", (DL_FUNC)&ellipsa_r_hotelling_limit, 4},
+                                               {"ellipsa_r_version", (DL_FUNC)&ellipsa_r_version, 0},
+                                               {"ellipsa_r_name", (DL_FUNC)&ellipsa_r_name, 2},
+                                               {"ellipsa_r_from_name", (DL_FUNC)&ellipsa_r_from_name, 2},
+                                               {NULL, NULL, 0}};
 
-static void register_routines(DllInfo *dll) {
+static void register_routines(DllInfo* dll) {
   R_registerRoutines(dll, NULL, kCallMethods, NULL, NULL);
   R_useDynamicSymbols(dll, FALSE);
 }
 
 /* Called by dyn.load() for a file named ellipsa_r.so (ellipsa_build_glue). */
-void R_init_ellipsa_r(DllInfo *dll) { register_routines(dll); }
+void R_init_ellipsa_r(DllInfo* dll) { register_routines(dll); }
 
 /* Called when the folder is installed as the R package "ellipsa". */
-void R_init_ellipsa(DllInfo *dll) { register_routines(dll); }
+void R_init_ellipsa(DllInfo* dll) { register_routines(dll); }

@@ -20,15 +20,11 @@ std::string message() { return ellipsa_last_error(); }
 TEST(CapiGuard, MapsEveryKindOfExceptionToAStatus) {
   EXPECT_EQ(guard("f_alloc", []() -> ellipsa_status { throw std::bad_alloc(); }), ELLIPSA_ERR_MEMORY);
   EXPECT_NE(message().find("f_alloc"), std::string::npos);
-  EXPECT_EQ(guard("f_len", []() -> ellipsa_status { throw std::length_error("vector"); }),
-            ELLIPSA_ERR_MEMORY);
-  EXPECT_EQ(guard("f_rt", []() -> ellipsa_status { throw std::runtime_error("boom"); }),
-            ELLIPSA_ERR_INTERNAL);
+  EXPECT_EQ(guard("f_len", []() -> ellipsa_status { throw std::length_error("vector"); }), ELLIPSA_ERR_MEMORY);
+  EXPECT_EQ(guard("f_rt", []() -> ellipsa_status { throw std::runtime_error("boom"); }), ELLIPSA_ERR_INTERNAL);
   EXPECT_NE(message().find("boom"), std::string::npos);
   EXPECT_EQ(guard("f_int", []() -> ellipsa_status { throw 42; }), ELLIPSA_ERR_INTERNAL);
-  EXPECT_EQ(guard("f_eigen", []() -> ellipsa_status {
-              throw ellipsa::core::EigenAssertion("rows() == cols()");
-            }),
+  EXPECT_EQ(guard("f_eigen", []() -> ellipsa_status { throw ellipsa::core::EigenAssertion("rows() == cols()"); }),
             ELLIPSA_ERR_INTERNAL);
   EXPECT_NE(message().find("rows() == cols()"), std::string::npos);
 }
@@ -36,12 +32,14 @@ TEST(CapiGuard, MapsEveryKindOfExceptionToAStatus) {
 TEST(CapiGuard, MapsCoreErrorKinds) {
   using ellipsa::core::Error;
   using ellipsa::core::ErrorKind;
-  const std::pair<ErrorKind, ellipsa_status> cases[] = {
-      {ErrorKind::Argument, ELLIPSA_ERR_ARGUMENT},   {ErrorKind::Shape, ELLIPSA_ERR_SHAPE},
-      {ErrorKind::Data, ELLIPSA_ERR_DATA},           {ErrorKind::Singular, ELLIPSA_NUM_SINGULAR},
-      {ErrorKind::NotConverged, ELLIPSA_NUM_NOT_CONVERGED},
-      {ErrorKind::ExactFit, ELLIPSA_NUM_EXACT_FIT},  {ErrorKind::Cancelled, ELLIPSA_ERR_CANCELLED},
-      {ErrorKind::Format, ELLIPSA_ERR_FORMAT}};
+  const std::pair<ErrorKind, ellipsa_status> cases[] = {{ErrorKind::Argument, ELLIPSA_ERR_ARGUMENT},
+                                                        {ErrorKind::Shape, ELLIPSA_ERR_SHAPE},
+                                                        {ErrorKind::Data, ELLIPSA_ERR_DATA},
+                                                        {ErrorKind::Singular, ELLIPSA_NUM_SINGULAR},
+                                                        {ErrorKind::NotConverged, ELLIPSA_NUM_NOT_CONVERGED},
+                                                        {ErrorKind::ExactFit, ELLIPSA_NUM_EXACT_FIT},
+                                                        {ErrorKind::Cancelled, ELLIPSA_ERR_CANCELLED},
+                                                        {ErrorKind::Format, ELLIPSA_ERR_FORMAT}};
   for (const auto& [kind, status] : cases) {
     EXPECT_EQ(guard("f", [kind = kind]() -> ellipsa_status { throw Error(kind, "detail"); }), status);
     EXPECT_EQ(message(), "f: detail");
