@@ -141,4 +141,36 @@ inline std::vector<double> read_columns(const std::string& path, const std::vect
   return out;
 }
 
+// Like read_columns, but keeps only the rows whose named cells all hold
+// numbers ("NA" or an empty cell marks a missing value).
+inline std::vector<double> read_complete_rows(const std::string& path, const std::vector<std::string>& names,
+                                              int64_t* rows) {
+  std::ifstream in(path);
+  std::string line;
+  std::getline(in, line);
+  std::vector<std::string> header;
+  {
+    std::stringstream ss(line);
+    std::string cell;
+    while (std::getline(ss, cell, ',')) header.push_back(cell);
+  }
+  std::vector<double> out;
+  *rows = 0;
+  while (std::getline(in, line)) {
+    std::vector<std::string> cells;
+    std::stringstream ss(line);
+    std::string cell;
+    while (std::getline(ss, cell, ',')) cells.push_back(cell);
+    std::vector<double> row;
+    for (const auto& n : names)
+      for (size_t j = 0; j < header.size(); ++j)
+        if (header[j] == n && j < cells.size() && cells[j] != "NA" && !cells[j].empty())
+          row.push_back(std::stod(cells[j]));
+    if (row.size() != names.size()) continue;
+    out.insert(out.end(), row.begin(), row.end());
+    ++*rows;
+  }
+  return out;
+}
+
 }  // namespace capi_test

@@ -20,32 +20,7 @@ namespace {
 
 // The demo data's complete rows in the named columns ("NA" cells mark missing values).
 std::vector<double> demo_complete_rows(const std::vector<std::string>& names, int64_t* rows) {
-  std::ifstream in(ELLIPSA_EXAMPLES_DIR "/moulding_line.csv");
-  std::string line;
-  std::getline(in, line);
-  std::vector<std::string> header;
-  {
-    std::stringstream ss(line);
-    std::string cell;
-    while (std::getline(ss, cell, ',')) header.push_back(cell);
-  }
-  std::vector<double> out;
-  *rows = 0;
-  while (std::getline(in, line)) {
-    std::vector<std::string> cells;
-    std::stringstream ss(line);
-    std::string cell;
-    while (std::getline(ss, cell, ',')) cells.push_back(cell);
-    std::vector<double> row;
-    for (const auto& n : names)
-      for (size_t j = 0; j < header.size(); ++j)
-        if (header[j] == n && j < cells.size() && cells[j] != "NA" && !cells[j].empty())
-          row.push_back(std::stod(cells[j]));
-    if (row.size() != names.size()) continue;
-    out.insert(out.end(), row.begin(), row.end());
-    ++*rows;
-  }
-  return out;
+  return read_complete_rows(ELLIPSA_EXAMPLES_DIR "/moulding_line.csv", names, rows);
 }
 
 const std::vector<std::string> kColumns = {"melt_temp_C", "cooling_water_C", "injection_pressure_bar", "hold_time_s",
