@@ -111,18 +111,23 @@ inline std::vector<double> correlated_rows(int64_t n, int64_t p, uint64_t seed, 
   return x;
 }
 
+// The cells of the first line of a comma-separated file (its header).
+inline std::vector<std::string> read_csv_header(std::ifstream& in) {
+  std::string line;
+  std::getline(in, line);
+  std::vector<std::string> header;
+  std::stringstream ss(line);
+  std::string cell;
+  while (std::getline(ss, cell, ',')) header.push_back(cell);
+  return header;
+}
+
 // Reads a CSV with a header; returns the numeric columns listed (by name) as
 // row-major values.
 inline std::vector<double> read_columns(const std::string& path, const std::vector<std::string>& names, int64_t* rows) {
   std::ifstream in(path);
   std::string line;
-  std::getline(in, line);
-  std::vector<std::string> header;
-  {
-    std::stringstream ss(line);
-    std::string cell;
-    while (std::getline(ss, cell, ',')) header.push_back(cell);
-  }
+  const std::vector<std::string> header = read_csv_header(in);
   std::vector<size_t> pick;
   for (const auto& n : names)
     for (size_t j = 0; j < header.size(); ++j)
@@ -147,13 +152,7 @@ inline std::vector<double> read_complete_rows(const std::string& path, const std
                                               int64_t* rows) {
   std::ifstream in(path);
   std::string line;
-  std::getline(in, line);
-  std::vector<std::string> header;
-  {
-    std::stringstream ss(line);
-    std::string cell;
-    while (std::getline(ss, cell, ',')) header.push_back(cell);
-  }
+  const std::vector<std::string> header = read_csv_header(in);
   std::vector<double> out;
   *rows = 0;
   while (std::getline(in, line)) {
