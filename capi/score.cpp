@@ -90,14 +90,22 @@ void score_mixture_model(const ellipsa_scores& b, const ellipsa_model& m, core::
   const auto ms = core::score_mixture(model, x);
   const int64_t n = x.rows(), p = x.cols();
   const auto K = static_cast<int64_t>(m.components.size());
-  const double cutoff = m.mixture->log_density_cutoff;
+  // The outlier rule is the core's (flag_outliers); -1 marks a row that could
+  // not be scored.
+  Eigen::VectorXi low;
+  if (b.low_density) {
+    core::OutlierCutoff cut;
+    cut.level = 1.0 - m.mixture->cutoff_level;  // the tail calibrated on the fitting rows
+    cut.log_density_cutoff = m.mixture->log_density_cutoff;
+    low = core::flag_outliers(ms.log_density, cut);
+  }
   for (int64_t i = 0; i < n; ++i) {
     const int label = ms.labels(i);
     if (b.component) b.component[i] = label;
     if (b.membership)
       for (int64_t k = 0; k < K; ++k) b.membership[i * K + k] = ms.responsibilities(i, k);
     if (b.log_density) b.log_density[i] = ms.log_density(i);
-    if (b.low_density) b.low_density[i] = label < 0 ? -1 : (ms.log_density(i) < cutoff ? 1 : 0);
+    if (b.low_density) b.low_density[i] = label < 0 ? -1 : low(i);
   }
   // Distances, p-values and contributions against each row's most probable
   // component: rows are grouped by label and scored in blocks.

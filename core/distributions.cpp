@@ -74,13 +74,6 @@ double chi2_quantile(double q, double df) {
   return quantile(boost::math::chi_squared_distribution<double, Policy>(df), q);
 }
 
-double chi2_quantile_upper(double upper, double df) {
-  check_positive(df, "degrees of freedom");
-  if (!(upper > 0.0 && upper <= 1.0)) throw Error(ErrorKind::Argument, "upper-tail probability must lie in (0, 1]");
-  if (upper == 1.0) return 0.0;
-  return quantile(complement(boost::math::chi_squared_distribution<double, Policy>(df), upper));
-}
-
 double f_cdf(double x, double df1, double df2) {
   check_positive(df1, "numerator degrees of freedom");
   check_positive(df2, "denominator degrees of freedom");
@@ -115,15 +108,6 @@ double f_quantile(double q, double df1, double df2) {
   // checked Beta quantile, F = (df2/df1) y/(1-y) with y ~ Beta(df1/2, df2/2).
   const double y = beta_quantile(q, df1 / 2.0, df2 / 2.0);
   return df2 * y / (df1 * (1.0 - y));
-}
-
-double beta_cdf(double x, double a, double b) {
-  check_positive(a, "shape a");
-  check_positive(b, "shape b");
-  check_x(x);
-  if (x <= 0.0) return 0.0;
-  if (x >= 1.0) return 1.0;
-  return cdf(boost::math::beta_distribution<double, Policy>(a, b), x);
 }
 
 double beta_sf(double x, double a, double b) {

@@ -13,14 +13,11 @@ double chi2_cdf(double x, double df);
 double chi2_sf(double x, double df);
 // The q-quantile, q in [0, 1): P(X <= chi2_quantile(q, df)) = q.
 double chi2_quantile(double q, double df);
-// The quantile by its upper-tail probability: P(X > value) = upper.
-double chi2_quantile_upper(double upper, double df);
 
 double f_cdf(double x, double df1, double df2);
 double f_sf(double x, double df1, double df2);
 double f_quantile(double q, double df1, double df2);
 
-double beta_cdf(double x, double a, double b);
 double beta_sf(double x, double a, double b);
 double beta_quantile(double q, double a, double b);
 

@@ -70,24 +70,4 @@ double t2_phase2_limit(Index m, Index p, double alpha) {
   return t2_phase2_limit_real(static_cast<double>(m), p, alpha);
 }
 
-OneSampleT2 one_sample_t2(DataView x, const Eigen::VectorXd& mu0) {
-  if (mu0.size() != x.cols())
-    throw Error(ErrorKind::Shape, "one-sample T^2: hypothesised mean has " + std::to_string(mu0.size()) +
-                                      " entries for " + std::to_string(x.cols()) + " columns");
-  if (!mu0.allFinite()) throw Error(ErrorKind::Data, "one-sample T^2: hypothesised mean is not finite");
-  const ClassicalEstimate fit = classical_estimate(x, Normalisation::ByCountMinusOne);
-  const CholeskyFactor chol(fit.covariance);
-  if (!chol.ok()) throw Error(ErrorKind::Singular, "one-sample T^2: the sample covariance is not positive definite");
-  const double n = static_cast<double>(x.rows()), p = static_cast<double>(x.cols());
-  OneSampleT2 out;
-  out.mean = fit.mean;
-  out.covariance = fit.covariance;
-  out.t2 = n * chol.whiten(fit.mean - mu0).squaredNorm();
-  out.df1 = p;
-  out.df2 = n - p;
-  out.f = (n - p) / ((n - 1.0) * p) * out.t2;
-  out.p_value = f_sf(out.f, out.df1, out.df2);
-  return out;
-}
-
 }  // namespace ellipsa::core

@@ -1,5 +1,4 @@
-// Hotelling T^2: control limits for individual observations and the
-// one-sample test of a hypothesised mean.
+// Hotelling T^2: control limits for individual observations.
 #pragma once
 #include <Eigen/Core>
 
@@ -23,19 +22,5 @@ double t2_phase1_limit_real(double m, Index p, double alpha);
 double t2_phase2_limit_real(double m, Index p, double alpha);
 double t2_phase1_sf(double t2, double m, Index p);
 double t2_phase2_sf(double t2, double m, Index p);
-
-struct OneSampleT2 {
-  Eigen::VectorXd mean;         // sample mean
-  Eigen::MatrixXd covariance;   // divisor n-1
-  double t2 = 0.0;              // n (xbar - mu0)' S^-1 (xbar - mu0)
-  double f = 0.0;               // (n-p)/((n-1)p) T^2 ~ F(p, n-p) under H0
-  double df1 = 0.0, df2 = 0.0;  // p, n-p
-  double p_value = 0.0;         // P(F(p, n-p) > f)
-};
-
-// One-sample Hotelling T^2 test of H0: E x = mu0 (Hotelling 1931). x must be
-// finite (Error(Data)), n > p (Error(Data)), mu0 of length p (Error(Shape));
-// Error(Singular) when S is not positive definite.
-OneSampleT2 one_sample_t2(DataView x, const Eigen::VectorXd& mu0);
 
 }  // namespace ellipsa::core

@@ -144,12 +144,12 @@ void report_progress(const ProgressCallback& cb, const char* stage, double fract
 void check_input(DataView x, double alpha, bool need_more_rows, const char* method);
 
 // Column-wise robust standardisation z = (x - centre) / scale: centre = the
-// column median; scale = the MAD (times 1/Phi^-1(3/4), as mad()) or Qn
+// column median; scale = the MAD (mad_about() of order_statistics.hpp) or Qn
 // (qn_scale(), with its finite-sample factor); when
 // that is 0 (more than half the values coincide) the root mean square about
 // the mean; when that is 0 too (a constant column) 1. Each median and MAD is
 // one selection (order_statistics.hpp) on the column, and the median is found
-// once per column; the values equal median() and mad() of robust_scale.hpp.
+// once per column; the values equal median() of robust_scale.hpp and mad_about().
 enum class ColumnScale { Mad, Qn };
 struct Standardised {
   Eigen::MatrixXd z;

@@ -33,7 +33,7 @@ double median_of(const double* v, Index n, std::vector<double>& buf);
 // Median absolute deviation of v[0..n) about `centre` (normally its median),
 // divided by Phi^-1(3/4) (about 0.6745) so that it estimates sigma at the
 // normal; no small-sample correction. dev and buf are scratch memory. The one
-// MAD of the core: mad() of robust_scale.hpp and the MCD standardisation use it.
+// MAD of the core: the MCD standardisation uses it.
 double mad_about(const double* v, Index n, double centre, std::vector<double>& dev, std::vector<double>& buf);
 
 }  // namespace ellipsa::core

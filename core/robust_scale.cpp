@@ -25,19 +25,12 @@ void require_nonempty(Index n, const char* what) {
 
 }  // namespace
 
-// One median and one MAD in the core: order_statistics.hpp.
+// One median in the core: order_statistics.hpp.
 double median(const Eigen::Ref<const Eigen::VectorXd>& x) {
   require_nonempty(x.size(), "median");
   const Eigen::VectorXd v = x;  // contiguous
   std::vector<double> buf;
   return median_of(v.data(), v.size(), buf);
-}
-
-double mad(const Eigen::Ref<const Eigen::VectorXd>& x) {
-  require_nonempty(x.size(), "MAD");
-  const Eigen::VectorXd v = x;
-  std::vector<double> dev, buf;
-  return mad_about(v.data(), v.size(), median_of(v.data(), v.size(), buf), dev, buf);
 }
 
 double qn_consistency_constant() {

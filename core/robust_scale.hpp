@@ -1,4 +1,4 @@
-// Univariate robust location and scale: median, MAD and the Qn scale of
+// Univariate robust location and scale: the median and the Qn scale of
 // Rousseeuw & Croux (1993). They standardise columns before the MCD algorithms
 // and re-estimate the spread of projections in the deterministic MCD.
 //
@@ -32,11 +32,6 @@ namespace ellipsa::core {
 
 // Sample median; for even n the mean of the two middle order statistics.
 double median(const Eigen::Ref<const Eigen::VectorXd>& x);
-
-// Median absolute deviation from the median, multiplied by 1/Phi^-1(3/4)
-// (about 1.4826) so that it estimates sigma at the normal distribution.
-// No small-sample correction.
-double mad(const Eigen::Ref<const Eigen::VectorXd>& x);
 
 // Consistency constant of Qn at the normal: 1/(sqrt(2) Phi^-1(5/8)), about
 // 2.21914. Derived from the definition (the first quartile of |X-Y| for X, Y

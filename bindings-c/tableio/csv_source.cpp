@@ -44,12 +44,6 @@ CsvSource CsvSource::open(const std::string& path) {
   return source;
 }
 
-CsvSource CsvSource::from_file(std::FILE* file, std::string display_name) {
-  CsvSource source(Kind::stream, std::move(display_name));
-  source.file_ = file;
-  return source;
-}
-
 CsvSource CsvSource::from_memory(std::string bytes, std::string display_name) {
   CsvSource source(Kind::memory, std::move(display_name));
   source.memory_ = std::move(bytes);
@@ -61,7 +55,6 @@ CsvSource::CsvSource(CsvSource&& other) noexcept
       name_(std::move(other.name_)),
       fd_(std::exchange(other.fd_, -1)),
       owns_fd_(std::exchange(other.owns_fd_, false)),
-      file_(std::exchange(other.file_, nullptr)),
       memory_(std::move(other.memory_)),
       memory_pos_(other.memory_pos_) {}
 
@@ -72,7 +65,6 @@ CsvSource& CsvSource::operator=(CsvSource&& other) noexcept {
     name_ = std::move(other.name_);
     fd_ = std::exchange(other.fd_, -1);
     owns_fd_ = std::exchange(other.owns_fd_, false);
-    file_ = std::exchange(other.file_, nullptr);
     memory_ = std::move(other.memory_);
     memory_pos_ = other.memory_pos_;
   }
@@ -93,11 +85,6 @@ std::size_t CsvSource::read(char* destination, std::size_t capacity) {
       const std::size_t n = std::min(capacity, memory_.size() - memory_pos_);
       std::memcpy(destination, memory_.data() + memory_pos_, n);
       memory_pos_ += n;
-      return n;
-    }
-    case Kind::stream: {
-      const std::size_t n = std::fread(destination, 1, capacity, file_);
-      if (n == 0 && std::ferror(file_)) throw CsvError(name_, 0, 0, "", "read error");
       return n;
     }
     case Kind::descriptor:

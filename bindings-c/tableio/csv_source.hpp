@@ -1,10 +1,9 @@
-// Where CSV bytes come from: a path, standard input ("-"), an open FILE*, or
+// Where CSV bytes come from: a path, standard input ("-"), or
 // bytes in memory (tests, fuzzing). Reads are large and unbuffered by stdio.
 #pragma once
 
 #include <cstddef>
 #include <cstdint>
-#include <cstdio>
 #include <stdexcept>
 #include <string>
 
@@ -39,9 +38,8 @@ class CsvSource {
   /// Opens `path` for reading; "-" is standard input (display name "<stdin>").
   /// Throws CsvError when the file cannot be opened.
   static CsvSource open(const std::string& path);
-  /// Reads from an open stream that stays owned by the caller.
-  static CsvSource from_file(std::FILE* file, std::string display_name);
-  /// Reads from a copy of `bytes`.
+  /// Reads from a copy of `bytes` (the in-memory source of the reader's tests
+  /// and fuzz target).
   static CsvSource from_memory(std::string bytes, std::string display_name);
 
   CsvSource(CsvSource&& other) noexcept;
@@ -56,7 +54,7 @@ class CsvSource {
   const std::string& name() const noexcept { return name_; }
 
  private:
-  enum class Kind { descriptor, stream, memory };
+  enum class Kind { descriptor, memory };
   CsvSource(Kind kind, std::string name) : kind_(kind), name_(std::move(name)) {}
   void close() noexcept;
 
@@ -64,7 +62,6 @@ class CsvSource {
   std::string name_;
   int fd_ = -1;
   bool owns_fd_ = false;
-  std::FILE* file_ = nullptr;
   std::string memory_;
   std::size_t memory_pos_ = 0;
 };

@@ -153,10 +153,4 @@ void CsvWriter::flush() {
   if (std::fflush(out_) != 0) throw OutputError(write_error());
 }
 
-std::string CsvWriter::format_number(double value, char decimal, std::string_view missing, int digits) {
-  if (std::isnan(value)) return std::string(missing);
-  char text[kNumberTextMax];
-  return std::string(text, append_number(text, value, decimal, digits));
-}
-
 }  // namespace ellipsa::cli

@@ -55,8 +55,6 @@ class CsvWriter {
   void flush();
 
   char separator() const noexcept { return options_.separator; }
-  /// The text number() writes for `value`.
-  static std::string format_number(double value, char decimal = '.', std::string_view missing = "NA", int digits = 0);
 
  private:
   std::string write_error() const;

@@ -3,6 +3,7 @@
 #include <gtest/gtest.h>
 #include <unistd.h>
 
+#include <charconv>
 #include <cmath>
 #include <cstdio>
 #include <cstring>
@@ -89,6 +90,15 @@ void expect_values(const std::vector<double>& got, const std::vector<double>& wa
   ASSERT_EQ(got.size(), want.size());
   for (std::size_t i = 0; i < got.size(); ++i)
     EXPECT_TRUE(same_bits(got[i], want[i])) << i << ": " << got[i] << " vs " << want[i];
+}
+
+// The shortest text that reads back to v (std::to_chars, the standard
+// library's round-trip formatting), or `missing` for NaN.
+std::string shortest_text(double v, const std::string& missing) {
+  if (std::isnan(v)) return missing;
+  char buf[32];
+  const auto end = std::to_chars(buf, buf + sizeof buf, v).ptr;
+  return std::string(buf, end);
 }
 
 }  // namespace
@@ -363,7 +373,7 @@ TEST(CsvBoundaries, TinyBuffersAndChunksGiveTheSameRows) {
       for (std::size_t c = 0; c < p; ++c) {
         const double v = rng() % 7 == 0 ? kNaN : u(rng);
         want.push_back(v);
-        text += sep + CsvWriter::format_number(v, '.', rng() % 2 ? "" : "NA");
+        text += sep + shortest_text(v, rng() % 2 ? "" : "NA");
       }
       if (r + 1 < rows || rng() % 2) text += crlf ? "\r\n" : "\n";
     }
@@ -400,16 +410,8 @@ TEST(CsvBoundaries, HugeFields) {
   EXPECT_EQ(r.lines, (std::vector<std::int64_t>{2, 3}));
 }
 
-TEST(CsvSources, FileStreamAndStdin) {
+TEST(CsvSources, Stdin) {
   const std::string text = "x,y\n1,2\n3,4\n";
-  std::FILE* f = std::tmpfile();
-  ASSERT_NE(f, nullptr);
-  std::fputs(text.c_str(), f);
-  std::rewind(f);
-  CsvReader from_stream(CsvSource::from_file(f, "tmp"), CsvOptions{});
-  expect_values(read_all(from_stream).values, {1, 2, 3, 4});
-  std::fclose(f);
-
   // "-" reads file descriptor 0: put a pipe there for the duration.
   int fds[2];
   ASSERT_EQ(::pipe(fds), 0);

@@ -14,7 +14,17 @@
 #include <string>
 #include <vector>
 
+#include "core/order_statistics.hpp"
+
 namespace mcd_test {
+
+// The core's one MAD (order_statistics.hpp mad_about) about the column's own
+// median, for tests that check a sample's MAD directly.
+inline double mad_of(const Eigen::Ref<const Eigen::VectorXd>& x) {
+  const Eigen::VectorXd v = x;
+  std::vector<double> dev, buf;
+  return ellipsa::core::mad_about(v.data(), v.size(), ellipsa::core::median_of(v.data(), v.size(), buf), dev, buf);
+}
 
 // Reads tests/reference/robust/<name>: header line, first column `obs`
 // (dropped), then `cols` numeric columns (the first `cols` variables).

@@ -96,9 +96,9 @@ TEST(McdPieces, StandardiseMadMatchesDefinitions) {
       const double centre_tol = 4e-16 * (std::abs(m) + 1.0);
       EXPECT_NEAR(s.centre(j), m, centre_tol) << "n = " << n << ", column " << j;
       EXPECT_NEAR(s.scale(j), sc, 1e-14 * sc + centre_tol) << "n = " << n << ", column " << j;
-      // Bit-identical to the library's median() and mad().
+      // Bit-identical to the library's median() and mad_about().
       EXPECT_EQ(s.centre(j), median(x.col(j))) << "n = " << n << ", column " << j;
-      if (j < 2) EXPECT_EQ(s.scale(j), mad(x.col(j))) << "n = " << n << ", column " << j;
+      if (j < 2) EXPECT_EQ(s.scale(j), mcd_test::mad_of(x.col(j))) << "n = " << n << ", column " << j;
       for (Index i = 0; i < n; ++i) ASSERT_EQ(s.z(i, j), (x(i, j) - s.centre(j)) / s.scale(j));
       EXPECT_TRUE(s.z.col(j).allFinite());
     }

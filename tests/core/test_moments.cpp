@@ -18,7 +18,6 @@
 #include <vector>
 
 #include "core/classical.hpp"
-#include "core/correlation.hpp"
 #include "core/error.hpp"
 #include "core/missing.hpp"
 #include "core/moments.hpp"
@@ -214,42 +213,6 @@ TEST(ClassicalProperties, IntegerWeightsEqualRepeatedRows) {
       EXPECT_DOUBLE_EQ(fw.weight_sum, static_cast<double>(r.rows()));
     }
   }
-}
-
-TEST(ClassicalProperties, CorrelationFromCovariance) {
-  std::mt19937_64 rng(15);
-  const Eigen::MatrixXd x = correlated(rng, 400, 4);
-  const auto fit = classical_estimate(make_view(x), Normalisation::ByCountMinusOne);
-  const Eigen::MatrixXd r = correlation_from_covariance(fit.covariance);
-  // Same for the biased covariance: the divisor cancels.
-  const auto ml = classical_estimate(make_view(x), Normalisation::ByCount);
-  EXPECT_LE((correlation_from_covariance(ml.covariance) - r).cwiseAbs().maxCoeff(), 1e-15);
-  for (Index j = 0; j < 4; ++j) {
-    EXPECT_EQ(r(j, j), 1.0);
-    for (Index i = 0; i < 4; ++i) {
-      // Pearson's r of two columns, computed directly.
-      const Eigen::ArrayXd a = x.col(i).array() - x.col(i).mean();
-      const Eigen::ArrayXd b = x.col(j).array() - x.col(j).mean();
-      const double direct = (a * b).sum() / std::sqrt(a.square().sum() * b.square().sum());
-      EXPECT_NEAR(r(i, j), direct, 1e-14);
-    }
-  }
-  // Perfectly correlated columns are clamped to exactly +-1.
-  Eigen::MatrixXd y(400, 3);
-  y.col(0) = x.col(0);
-  y.col(1) = 3.0 * x.col(0);
-  y.col(2) = -0.1 * x.col(0);
-  Eigen::MatrixXd sy = classical_estimate(make_view(x), Normalisation::ByCount).covariance;
-  MomentAccumulator acc(3);
-  acc.add(make_view(y));
-  const Eigen::MatrixXd ry = correlation_from_covariance(acc.covariance(Normalisation::ByCount));
-  EXPECT_LE(std::abs(ry(0, 1) - 1.0), 1e-15);
-  EXPECT_LE(std::abs(ry(0, 2) + 1.0), 1e-15);
-  EXPECT_LE(ry.cwiseAbs().maxCoeff(), 1.0);
-  Eigen::MatrixXd zero_var = sy;
-  zero_var(1, 1) = 0.0;
-  EXPECT_THROW(correlation_from_covariance(zero_var), Error);
-  EXPECT_THROW(correlation_from_covariance(Eigen::MatrixXd(2, 3)), Error);
 }
 
 // ---------------------------------------------------------------- raw-product path
