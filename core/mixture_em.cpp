@@ -108,7 +108,7 @@ Posterior mixture_e_step_complete(const MixtureModel& model, const std::vector<C
 }
 
 MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double rows, CovarianceStructure structure,
-                            Index p, double regularisation_absolute) {
+                            Index p, const Eigen::VectorXd& ridge) {
   const Index k_count = static_cast<Index>(moments.size());
   const double n = rows;
   MixtureModel model;
@@ -117,7 +117,7 @@ MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double
   model.means.resize(k_count, p);
   model.covariances.resize(static_cast<std::size_t>(k_count));
   Eigen::MatrixXd pooled = Eigen::MatrixXd::Zero(p, p);
-  const Eigen::MatrixXd ridge = regularisation_absolute * Eigen::MatrixXd::Identity(p, p);
+  const Eigen::MatrixXd ridge_matrix = ridge.asDiagonal();
   for (Index k = 0; k < k_count; ++k) {
     const ComponentMoments& mom = moments[static_cast<std::size_t>(k)];
     model.weights(k) = mom.weight / n;
@@ -128,20 +128,19 @@ MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double
       continue;
     }
     switch (model.structure) {
-      case CovarianceStructure::Full: cov = mom.scatter / mom.weight + ridge; break;
-      case CovarianceStructure::Diagonal:
-        cov = (mom.scatter.diagonal() / mom.weight).asDiagonal();
-        cov += ridge;
-        break;
+      case CovarianceStructure::Full: cov = mom.scatter / mom.weight + ridge_matrix; break;
+      case CovarianceStructure::Diagonal: cov = (mom.scatter.diagonal() / mom.weight + ridge).asDiagonal(); break;
       case CovarianceStructure::Spherical:
-        cov = (mom.scatter.trace() / (mom.weight * static_cast<double>(p)) + regularisation_absolute) *
+        // One variance for all columns: mixture_ridge() gives every column the
+        // same ridge here, so the mean is that value.
+        cov = (mom.scatter.trace() / (mom.weight * static_cast<double>(p)) + ridge.mean()) *
               Eigen::MatrixXd::Identity(p, p);
         break;
       case CovarianceStructure::Tied: pooled += mom.scatter; break;
     }
   }
   if (model.structure == CovarianceStructure::Tied) {
-    const Eigen::MatrixXd shared = pooled / n + ridge;
+    const Eigen::MatrixXd shared = pooled / n + ridge_matrix;
     for (auto& c : model.covariances) c = shared;
   }
   return model;
@@ -264,7 +263,7 @@ struct StartOutcome {
 
 struct Settings {
   const MixtureOptions* options;
-  double reg_abs;
+  Eigen::VectorXd ridge;  // mixture_ridge(): added to the diagonals after each M-step
   double min_rows;
   Index p;
 };
@@ -274,7 +273,7 @@ struct Settings {
 MixtureModel m_step(const EmData& data, const MixtureModel& current, const Eigen::MatrixXd& t, const Settings& set) {
   const Index p = set.p;
   const double n = static_cast<double>(data.rows());
-  return mixture_m_step(data.all_moments(current, t), n, set.options->structure, p, set.reg_abs);
+  return mixture_m_step(data.all_moments(current, t), n, set.options->structure, p, set.ridge);
 }
 
 void check_progress(const MixtureOptions& o, const char* stage, double fraction) {
@@ -444,6 +443,22 @@ double mixture_check_columns(const Eigen::VectorXd& variance, const MixtureOptio
   return variance.mean();
 }
 
+Eigen::VectorXd mixture_ridge(const Eigen::VectorXd& variance, const MixtureOptions& o) {
+  const double mean_variance = mixture_check_columns(variance, o);
+  // A spherical covariance is one variance times I: it already treats the
+  // columns as if in one unit (it is not equivariant under column scaling),
+  // and a ridge that differed by column would make it no longer spherical.
+  // One scalar, the mean variance, is the natural scale there. A constant
+  // column has no variance of its own to scale its ridge (the check above
+  // admits one only where the regularisation rescues it); it takes the mean.
+  Eigen::VectorXd ridge(variance.size());
+  for (Index j = 0; j < variance.size(); ++j) {
+    const bool own = o.structure != CovarianceStructure::Spherical && variance(j) > 0.0;
+    ridge(j) = o.regularisation * (own ? variance(j) : mean_variance);
+  }
+  return ridge;
+}
+
 namespace {
 
 Eigen::MatrixXd one_hot(const Eigen::VectorXi& labels, Index k_count) {
@@ -505,7 +520,7 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
     variance(j) = m2 / count;
     column_mean(j) = mean;
   }
-  Settings set{&o, o.regularisation * mixture_check_columns(variance, o), 0.0, p};
+  Settings set{&o, mixture_ridge(variance, o), 0.0, p};
   set.min_rows = mixture_min_component_rows(o, p);
 
   std::unique_ptr<EmData> data;
@@ -549,7 +564,7 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
     MixtureModel provisional;
     if (em_missing) {
       provisional = provisional_missing_model(xu, t, o.structure);
-      for (auto& c : provisional.covariances) c.diagonal().array() += set.reg_abs;
+      for (auto& c : provisional.covariances) c.diagonal() += set.ridge;
     }
     StartOutcome outcome = run_em(*data, provisional, std::move(t), set, s, events);
     // A later start replaces the kept one only when it is higher by more than
@@ -585,7 +600,7 @@ MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
   result.collapses = std::move(events);
   result.rows_used = n;
   result.rows_dropped = n_input - n;
-  result.regularisation_added = set.reg_abs;
+  result.regularisation_added = set.ridge;
   return result;
 }
 

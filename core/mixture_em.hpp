@@ -56,8 +56,11 @@ struct MixtureOptions {
   int restarts = 3;          // independent k-means++ starts; the best log-likelihood is kept
   int max_iterations = 500;  // EM iterations per start
   double tolerance = 1e-8;   // stop when |L_t - L_(t-1)| <= tolerance * |L_t|
-  // reg: reg * (mean of the column variances of the data) is added to every
-  // diagonal entry of every covariance after each M-step. >= 0.
+  // reg: after each M-step, reg * (the variance of column j over the data) is
+  // added to diagonal entry j of every covariance, so the ridge follows each
+  // column's units; a constant column, and every entry of a spherical
+  // covariance, get reg * (the mean column variance). See mixture_ridge()
+  // (mixture_em_steps.hpp). >= 0.
   double regularisation = 1e-6;
   std::uint64_t seed = 0;  // same seed and data -> bit-identical result
   int lloyd_steps = 5;     // Lloyd iterations after k-means++ seeding
@@ -109,8 +112,8 @@ struct MixtureResult {
   std::vector<CollapseEvent> collapses;  // of every start, in order
   int best_start = 0;                    // which start was kept
   Index rows_used = 0;
-  Index rows_dropped = 0;             // rows with a missing value (CompleteRows only)
-  double regularisation_added = 0.0;  // the absolute amount added to each diagonal entry
+  Index rows_dropped = 0;                // rows with a missing value (CompleteRows only)
+  Eigen::VectorXd regularisation_added;  // p: the absolute amount added to each diagonal entry (mixture_ridge())
 };
 
 // Free parameters of a K-component mixture in p dimensions:

@@ -50,11 +50,11 @@ EmStatistics EmStatistics::from_parts(MixtureModel parameters, std::vector<Momen
   return s;
 }
 
-double EmStatistics::regularisation_absolute(const MixtureOptions& options) const {
+Eigen::VectorXd EmStatistics::ridge(const MixtureOptions& options) const {
   if (overall_.rows() < 1) throw Error(ErrorKind::Data, "EM statistics: no rows were added");
   const Eigen::VectorXd variance =
       overall_.cross_products().diagonal() / overall_.weight_sum();  // divisor: the count, as fit_mixture
-  return options.regularisation * mixture_check_columns(variance, options);
+  return mixture_ridge(variance, options);
 }
 
 MixtureModel EmStatistics::m_step(const MixtureOptions& options) const {
@@ -63,7 +63,7 @@ MixtureModel EmStatistics::m_step(const MixtureOptions& options) const {
   if (n < needed)
     throw Error(ErrorKind::Data, "EM statistics: " + std::to_string(n) + " rows, fewer than the " +
                                      std::to_string(needed) + " free parameters");
-  const double reg = regularisation_absolute(options);
+  const Eigen::VectorXd reg = ridge(options);
   std::vector<ComponentMoments> moments;
   for (const auto& c : components_) moments.push_back({c.weight_sum(), c.mean(), c.cross_products()});
   MixtureModel next = mixture_m_step(moments, static_cast<double>(n), options.structure, p, reg);

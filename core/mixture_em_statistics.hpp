@@ -42,15 +42,15 @@ class EmStatistics {
                                  MomentAccumulator overall, double log_likelihood, double sum_t_log_t);
 
   // The M-step of fit_mixture() on the merged statistics: the next parameters
-  // with options.structure, regularisation (options.regularisation times the
-  // mean column variance, mixture_check_columns()). Throws Error(Data) for
+  // with options.structure and the ridge of ridge(). Throws Error(Data) for
   // fewer rows than free parameters or columns without spread, and
   // Error(Singular) naming the first collapsed component (weight below
   // mixture_min_component_rows() rows or a covariance not positive definite):
   // fit_mixture() would re-seed or drop it, which needs the rows themselves.
   MixtureModel m_step(const MixtureOptions& options) const;
-  // The regularisation the M-step adds (absolute, to each diagonal entry).
-  double regularisation_absolute(const MixtureOptions& options) const;
+  // The ridge the M-step adds to the diagonals (absolute, one entry per
+  // column): mixture_ridge() of the column variances of the rows added.
+  Eigen::VectorXd ridge(const MixtureOptions& options) const;
 
  private:
   MixtureModel parameters_;

@@ -24,10 +24,12 @@ Posterior mixture_e_step_complete(const MixtureModel& model, const std::vector<C
 
 // M-step: the parameters from the responsibility-weighted moments of each
 // component (weight, mean, centred cross-products) over `rows` rows, for the
-// structure, with regularisation_absolute added to every diagonal entry. A
-// component of weight 0 gets a NaN covariance (collapsed_components() finds it).
+// structure, with ridge(j) added to diagonal entry j (ridge: mixture_ridge(),
+// length p; a spherical covariance adds their mean, which mixture_ridge() makes
+// equal to each entry). A component of weight 0 gets a NaN covariance
+// (collapsed_components() finds it).
 MixtureModel mixture_m_step(const std::vector<ComponentMoments>& moments, double rows, CovarianceStructure structure,
-                            Index p, double regularisation_absolute);
+                            Index p, const Eigen::VectorXd& ridge);
 
 // The effective row count below which a component has collapsed
 // (MixtureOptions::min_component_rows, or its default for the structure).
@@ -40,9 +42,18 @@ std::vector<CollapseEvent> collapsed_components(const MixtureModel& model, doubl
 
 // Refuses columns without spread (variance: column variances, divisor the
 // count) where the regularisation cannot stand in for them (Error(Data) naming
-// them); returns the mean of the column variances, which the regularisation
-// option multiplies.
+// them); returns the mean of the column variances.
 double mixture_check_columns(const Eigen::VectorXd& variance, const MixtureOptions& options);
+
+// The ridge of the M-step, one entry per column (the one place it is computed,
+// for fit_mixture() and the statistics path alike): options.regularisation
+// times the variance of column j (variance: column variances over the data,
+// divisor the count), so that a change of the units of one column changes its
+// ridge alike and full, diagonal and tied fits are equivariant under column
+// scaling. A constant column (after mixture_check_columns() accepted it) gets
+// the regularisation times the mean column variance, and so does every column
+// under the spherical structure. Throws as mixture_check_columns().
+Eigen::VectorXd mixture_ridge(const Eigen::VectorXd& variance, const MixtureOptions& options);
 
 // BIC (Schwarz 1978): -2 logL + parameters log(rows).
 inline double mixture_bic(double log_likelihood, Index parameters, Index rows) {

@@ -571,9 +571,20 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_iterations(ellipsa_fit_option
 
 /**
  * @brief Mixtures: ridge added to every covariance diagonal, relative to the
- *        mean column variance of the data (>= 0; default 1e-6).
+ *        variance of each column of the data (>= 0; default 1e-6).
+ *
+ * After each M-step, diagonal entry j of every component covariance gets
+ * `relative` times the variance of column j over the rows used (divisor
+ * their count), so a change of the units of one column changes only that
+ * column's ridge: full, diagonal and tied mixtures are equivariant under
+ * column scaling (means and covariances follow the units, memberships are
+ * unchanged). Two cases take `relative` times the mean of the column
+ * variances instead: a constant column (accepted only under the diagonal
+ * and spherical structures with `relative` > 0), and every column under the
+ * spherical structure, whose one variance per component already treats the
+ * columns as one unit.
  * @param options  The options.
- * @param relative Multiple of the mean column variance, finite and >= 0.
+ * @param relative Multiple of each column's variance, finite and >= 0.
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (negative
  *         or not finite, or a method other than mixture).
  */
@@ -1051,15 +1062,16 @@ ELLIPSA_API ellipsa_status ellipsa_em_statistics_load(ellipsa_em_statistics **ou
  *
  * The M-step of ellipsa_model_fit() (the same code): weights, means and
  * covariances of the parameters' structure (full, diagonal, tied or
- * spherical), plus the options' regularisation times the mean column
- * variance of the rows added. A component that collapses (effective rows
- * below p + 1 for full, 2 for diagonal and spherical, 1 for tied, or a
- * covariance that is not positive definite) is an error here, where
- * ellipsa_model_fit() re-seeds it at the worst-explained row: re-seeding
- * needs the rows. The model made is a mixture model whose log_likelihood,
- * bic and icl diagnostics are those of the statistics (the previous
- * parameters), converged 0; it serves as the parameters of the next
- * iteration (ellipsa_model_save() carries it to other processes exactly).
+ * spherical), plus the ridge of ellipsa_fit_options_set_regularisation()
+ * computed from the column variances of the rows added. A component that
+ * collapses (effective rows below p + 1 for full, 2 for diagonal and
+ * spherical, 1 for tied, or a covariance that is not positive definite) is
+ * an error here, where ellipsa_model_fit() re-seeds it at the
+ * worst-explained row: re-seeding needs the rows. The model made is a mixture
+ * model whose log_likelihood, bic and icl diagnostics are those of the
+ * statistics (the previous parameters), converged 0; it serves as the
+ * parameters of the next iteration (ellipsa_model_save() carries it to other
+ * processes exactly).
  * @param[out] next     The next parameters, or NULL on failure.
  * @param statistics    Merged statistics of all rows.
  * @param options       Method ::ELLIPSA_METHOD_MIXTURE, the parameters'

@@ -172,6 +172,57 @@ TEST(EmStatistics, MStepEqualsTheTextbookEmStep) {
   }
 }
 
+TEST(EmStatistics, MStepAddsTheRidgeOfEachColumn) {
+  // The header's promise (ellipsa_fit_options_set_regularisation()): entry j
+  // of every covariance diagonal gets the regularisation times the variance
+  // of column j over the rows added (divisor their count); under the
+  // spherical structure every entry gets it times the mean column variance.
+  // The second column is in units 1e6 times smaller, so a ridge from the mean
+  // variance would differ from the per-column one by a factor of about 1e12.
+  // Reference: the column variances computed here by two-pass sums.
+  const int64_t n = 300, p = 2;
+  auto x = two_clusters(n, 5);
+  for (int64_t i = 0; i < n; ++i) x[static_cast<size_t>(i * p + 1)] *= 1e-6;
+  double var[2] = {0.0, 0.0};
+  for (int64_t j = 0; j < p; ++j) {
+    double mean = 0.0;
+    for (int64_t i = 0; i < n; ++i) mean += x[static_cast<size_t>(i * p + j)];
+    mean /= static_cast<double>(n);
+    for (int64_t i = 0; i < n; ++i) {
+      const double d = x[static_cast<size_t>(i * p + j)] - mean;
+      var[j] += d * d;
+    }
+    var[j] /= static_cast<double>(n);
+  }
+  const double reg = 0.25;  // large, so the ridge stands far above rounding
+  for (const char* structure : {"full", "diagonal", "tied", "spherical"}) {
+    SCOPED_TRACE(structure);
+    const Model m = fit_mixture(x, n, p, 2, structure);
+    Stats st = stats_of(m.get(), x, p, {0, 100, n});
+    int32_t code = 0;
+    ASSERT_EQ(ellipsa_structure_from_name(&code, structure), ELLIPSA_OK);
+    auto with = options(ELLIPSA_METHOD_MIXTURE), without = no_regularisation();
+    ASSERT_EQ(ellipsa_fit_options_set_structure(with.get(), code), ELLIPSA_OK);
+    ASSERT_EQ(ellipsa_fit_options_set_structure(without.get(), code), ELLIPSA_OK);
+    ASSERT_EQ(ellipsa_fit_options_set_regularisation(with.get(), reg), ELLIPSA_OK);
+    ellipsa_model *a = nullptr, *b = nullptr;
+    ASSERT_EQ(ellipsa_em_statistics_m_step(&a, st.get(), with.get()), ELLIPSA_OK) << ellipsa_last_error();
+    ASSERT_EQ(ellipsa_em_statistics_m_step(&b, st.get(), without.get()), ELLIPSA_OK) << ellipsa_last_error();
+    Model ma(a), mb(b);
+    const auto ca = components(ma.get()), cb = components(mb.get());
+    const bool spherical = std::string(structure) == "spherical";
+    for (size_t k = 0; k < ca.size(); ++k)
+      for (int j = 0; j < 2; ++j) {
+        const double want = reg * (spherical ? 0.5 * (var[0] + var[1]) : var[j]);
+        // The difference of two M-steps on the same statistics: rounding of
+        // the covariance entries (about var[j] * 1e-16) against a ridge a
+        // quarter of var[j].
+        EXPECT_NEAR(ca[k].s[j * 3] - cb[k].s[j * 3], want, 1e-12 * want) << "component " << k << " column " << j;
+        EXPECT_EQ(ca[k].s[1], cb[k].s[1]);  // off the diagonal nothing is added
+      }
+  }
+}
+
 TEST(EmStatistics, LogLikelihoodOfAFitsParametersIsTheFitsOwn) {
   // ellipsa_model_fit reports the log-likelihood of its final parameters.
   int64_t n = 0;

@@ -11,9 +11,13 @@
 //               distances unchanged (every method);
 //   X -> X D:   location -> D location, scatter -> D S D, distances unchanged
 //               (classical, MCD, and DetMCD, which standardises each column
-//               first). Mixtures are not: their ridge is relative to the mean
-//               column variance (an open finding, docs/robustness.md); with
-//               unequal column scales they must still give finite results.
+//               first), and mixtures with full, diagonal or tied covariances,
+//               whose ridge is relative to each column's variance
+//               (ellipsa_fit_options_set_regularisation()): every component's
+//               mean -> D mean, covariance -> D C D, memberships unchanged,
+//               log-likelihood -> log-likelihood - n log det D (the
+//               log-Jacobian of the change of units: each row's density is
+//               divided by det D).
 // Tolerance: scaling by 1e+-150 or by 10^k is not exact in binary: every
 // datum moves by up to one rounding (u = 1.1e-16) relative. Through the mean,
 // the covariance and a Cholesky solve a relative perturbation u of the data
@@ -23,6 +27,18 @@
 // (n u) and a margin of 100 for the chains, 1e-9 relative covers it with
 // room to spare, while a scale-dependent threshold (an absolute epsilon, an
 // overflowing fourth power) shows up as an error of order 1.
+// Mixtures: EM is a fixed-point iteration whose map is itself equivariant, so
+// the two fits make the same iterations and a rounding-level difference is
+// carried along, not amplified: near the optimum the EM map contracts (its
+// rate, the largest fraction of missing information, is below 1; the two
+// clusters here are 5 standard deviations apart, so it is small). The stopping
+// test could still end one fit an iteration before the other; the tolerance
+// is set to 1e-12 relative, so the last step is far below 1e-9 either way.
+// The log-likelihood is compared after the shift, relative to its magnitude
+// (about 5e3 here), which keeps the same 1e-9. Measured (2026-12-03): the
+// largest difference was 1.4e-15 relative (a covariance entry), so 1e-9
+// leaves a wide margin and a swamped column (the old mean-variance ridge)
+// still fails by orders of magnitude.
 // The robust fits choose a subset: a perturbation at rounding level cannot
 // change it here, since the determinants of competing subsets of continuous
 // data differ by far more than 1e-9 relative (the same seed is used).
@@ -87,6 +103,48 @@ Fit fit(ellipsa_method method, const std::vector<double>& x, int64_t n, int64_t 
   f.d2.resize(static_cast<size_t>(n));
   ellipsa_scores s = ELLIPSA_SCORES_INIT;
   s.squared_distance = f.d2.data();
+  EXPECT_EQ(ellipsa_model_score(&s, m, &v, 0.975), ELLIPSA_OK) << ellipsa_last_error();
+  return f;
+}
+
+// A mixture of K = 2 with every component, the memberships and the
+// log-likelihood (restarts 2, EM tolerance 1e-12 relative: see the top).
+struct MixtureFit {
+  ellipsa_status status = ELLIPSA_OK;
+  std::string message;
+  std::vector<double> weight, location, scatter, membership;  // K; K*p; K*p*p; n*K
+  double log_likelihood = 0.0;
+};
+
+MixtureFit fit_mixture(const std::vector<double>& x, int64_t n, int64_t p, int32_t structure) {
+  ellipsa_fit_options* raw = nullptr;
+  EXPECT_EQ(ellipsa_fit_options_create(&raw, ELLIPSA_METHOD_MIXTURE), ELLIPSA_OK);
+  capi_test::Options o(raw);
+  EXPECT_EQ(ellipsa_fit_options_set_components(raw, 2, 2), ELLIPSA_OK);
+  EXPECT_EQ(ellipsa_fit_options_set_restarts(raw, 2), ELLIPSA_OK);
+  EXPECT_EQ(ellipsa_fit_options_set_structure(raw, structure), ELLIPSA_OK);
+  EXPECT_EQ(ellipsa_fit_options_set_iterations(raw, 1000, 1e-12), ELLIPSA_OK);
+  const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
+  ellipsa_model* m = nullptr;
+  MixtureFit f;
+  f.status = ellipsa_model_fit(&m, &v, raw);
+  if (f.status != ELLIPSA_OK) {
+    f.message = ellipsa_last_error();
+    return f;
+  }
+  capi_test::Model model(m);
+  const int32_t k_count = 2;
+  f.weight.resize(k_count);
+  f.location.resize(static_cast<size_t>(k_count * p));
+  f.scatter.resize(static_cast<size_t>(k_count * p * p));
+  for (int32_t k = 0; k < k_count; ++k)
+    EXPECT_EQ(ellipsa_model_component(f.location.data() + k * p, p, f.scatter.data() + k * p * p, p * p,
+                                      &f.weight[static_cast<size_t>(k)], m, k),
+              ELLIPSA_OK);
+  EXPECT_EQ(ellipsa_model_diagnostic(&f.log_likelihood, m, "log_likelihood"), ELLIPSA_OK);
+  f.membership.resize(static_cast<size_t>(n * k_count));
+  ellipsa_scores s = ELLIPSA_SCORES_INIT;
+  s.membership = f.membership.data();
   EXPECT_EQ(ellipsa_model_score(&s, m, &v, 0.975), ELLIPSA_OK) << ellipsa_last_error();
   return f;
 }
@@ -163,12 +221,52 @@ TEST(NumericalExtremes, ColumnScalesDifferingBy1e12) {
     }
   }
   // Shrinkage is not equivariant under unequal column scales (it shrinks
-  // towards a multiple of I), nor is the mixture (its ridge, see above); they
-  // must still succeed with finite results.
-  for (ellipsa_method method : {ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS, ELLIPSA_METHOD_MIXTURE}) {
+  // towards a multiple of I), nor is the spherical mixture (one variance for
+  // all columns); they must still succeed with finite results.
+  for (ellipsa_method method : {ELLIPSA_METHOD_LEDOIT_WOLF, ELLIPSA_METHOD_OAS}) {
     const Fit f = fit(method, y, n, p);
     ASSERT_EQ(f.status, ELLIPSA_OK) << f.message;
     EXPECT_TRUE(all_finite(f.location) && all_finite(f.scatter) && all_finite(f.d2));
+  }
+  const MixtureFit spherical = fit_mixture(y, n, p, ELLIPSA_STRUCTURE_SPHERICAL);
+  ASSERT_EQ(spherical.status, ELLIPSA_OK) << spherical.message;
+  EXPECT_TRUE(all_finite(spherical.location) && all_finite(spherical.scatter) && all_finite(spherical.membership) &&
+              std::isfinite(spherical.log_likelihood));
+}
+
+TEST(NumericalExtremes, MixturesEquivariantUnderColumnScales) {
+  const int64_t n = 200, p = 4;
+  const auto x = correlated(n, p, 8);
+  const double scale[p] = {1.0, 1e4, 1e-4, 1e8};  // largest / smallest = 1e12
+  std::vector<double> y(x);
+  for (int64_t i = 0; i < n; ++i)
+    for (int64_t j = 0; j < p; ++j) y[static_cast<size_t>(i * p + j)] *= scale[j];
+  double log_det_d = 0.0;
+  for (double s : scale) log_det_d += std::log(s);
+  for (int32_t structure : {ELLIPSA_STRUCTURE_FULL, ELLIPSA_STRUCTURE_DIAGONAL, ELLIPSA_STRUCTURE_TIED}) {
+    SCOPED_TRACE("structure " + std::to_string(structure));
+    const MixtureFit base = fit_mixture(x, n, p, structure);
+    const MixtureFit f = fit_mixture(y, n, p, structure);
+    ASSERT_EQ(base.status, ELLIPSA_OK) << base.message;
+    ASSERT_EQ(f.status, ELLIPSA_OK) << f.message;
+    ASSERT_EQ(f.weight.size(), base.weight.size());
+    expect_close(f.weight, base.weight, 1.0, "weight");
+    expect_close(f.membership, base.membership, 1.0, "membership");
+    const double shifted = base.log_likelihood - static_cast<double>(n) * log_det_d;
+    EXPECT_NEAR(f.log_likelihood, shifted, kRelativeTolerance * std::abs(shifted));
+    for (size_t k = 0; k < f.weight.size(); ++k)
+      for (int64_t j = 0; j < p; ++j) {
+        const double want_mean = base.location[k * p + j];
+        EXPECT_NEAR(f.location[k * p + j] / scale[j], want_mean,
+                    kRelativeTolerance * std::max(1.0, std::abs(want_mean)))
+            << "component " << k << " mean " << j;
+        for (int64_t l = 0; l < p; ++l) {
+          const double want = base.scatter[(k * p + j) * p + l];
+          EXPECT_NEAR(f.scatter[(k * p + j) * p + l] / (scale[j] * scale[l]), want,
+                      kRelativeTolerance * std::max(1.0, std::abs(want)))
+              << "component " << k << " covariance (" << j << ", " << l << ")";
+        }
+      }
   }
 }
 

@@ -135,13 +135,30 @@ TEST(MixtureProperties, OneComponentIsTheClassicalFit) {
   const double expect = -0.5 * n * (p * std::log(2 * std::numbers::pi) + std::log(mc.covariance.determinant()) + p);
   EXPECT_NEAR(r.log_likelihood, expect, 1e-10 * std::abs(expect));
   EXPECT_DOUBLE_EQ(r.icl, r.bic);  // one component: no entropy
-  // With the default regularisation the diagonal grows by exactly reg * mean variance.
+  // With a regularisation, diagonal entry j grows by exactly reg * the variance
+  // of column j (mixture_ridge()); a spherical covariance by reg * the mean
+  // column variance.
   o.regularisation = 1e-3;
   const MixtureResult rr = fit_mixture(make_view(x), o);
-  const double added = 1e-3 * mc.covariance.diagonal().mean();
-  EXPECT_NEAR(rr.regularisation_added, added, 1e-12 * added);
-  EXPECT_LE((rr.model.covariances[0] - mc.covariance - added * Eigen::MatrixXd::Identity(3, 3)).norm(),
+  const Eigen::VectorXd added = 1e-3 * mc.covariance.diagonal();
+  ASSERT_EQ(rr.regularisation_added.size(), 3);
+  EXPECT_LE((rr.regularisation_added - added).norm(), 1e-12 * added.norm());
+  EXPECT_LE((rr.model.covariances[0] - mc.covariance - Eigen::MatrixXd(added.asDiagonal())).norm(),
             1e-12 * mc.covariance.norm());
+  o.structure = CovarianceStructure::Spherical;
+  const MixtureResult rs = fit_mixture(make_view(x), o);
+  const double mean_added = 1e-3 * mc.covariance.diagonal().mean();
+  EXPECT_LE((rs.regularisation_added - Eigen::VectorXd::Constant(3, mean_added)).norm(), 1e-12 * mean_added);
+  EXPECT_NEAR(rs.model.covariances[0](0, 0), mc.covariance.trace() / 3.0 + mean_added, 1e-12 * mc.covariance.trace());
+  // A constant column (admitted under the diagonal structure) has no variance
+  // of its own: its ridge is reg * the mean column variance (0 counted).
+  Eigen::MatrixXd xc = x;
+  xc.col(1).setConstant(2.5);
+  o.structure = CovarianceStructure::Diagonal;
+  const MixtureResult rc = fit_mixture(make_view(xc), o);
+  const double mean_variance = (mc.covariance(0, 0) + mc.covariance(2, 2)) / 3.0;
+  EXPECT_NEAR(rc.model.covariances[0](1, 1), 1e-3 * mean_variance, 1e-12 * mean_variance);
+  EXPECT_NEAR(rc.model.covariances[0](0, 0), (1.0 + 1e-3) * mc.covariance(0, 0), 1e-12 * mc.covariance(0, 0));
 }
 
 TEST(MixtureProperties, SameSeedIsBitIdentical) {

@@ -47,20 +47,35 @@ for r in scored[:50]:
 partial = [r for r in scored if r["observed"] == "6"]
 check(len(partial) == 4, f"4 rows scored on 6 observed cells (got {len(partial)})")
 
-# 2. The mixture picks the two moulds (issue: --components 1-4 on the demo data).
+# 2. The mixture over both moulds (issue: --components 1-4 on the demo data).
+#    BIC chooses K = 3: one component per mould and a small, broad one that
+#    gathers planted faults (docs/robustness.md, "Numerical extremes": without
+#    the twelve planted faults BIC chooses 2). Measured: 352 A shots, 239 B
+#    shots, and 9 shots of which 8 are planted faults.
 model = os.path.join(tmp, "mix.json")
 run("fit", "--method", "mixture", "--components", "1-4", "--seed", "1", line_data, "-o", model, check_code=0)
 m = json.load(open(model))
-check(m["kind"] == "mixture" and len(m["components"]) == 2, "mixture chose 2 components")
-check(any(c["chosen"] and c["components"] == 2 for c in m["selection"]), "selection table marks K = 2")
+check(m["kind"] == "mixture" and len(m["components"]) == 3, "mixture chose 3 components")
+check(any(c["chosen"] and c["components"] == 3 for c in m["selection"]), "selection table marks K = 3")
 check(len(m["selection"]) == 4, "selection table has K = 1..4")
 code, out, err = run("score", model, line_data, check_code=0)
 rows = read_csv(out, from_text=True)
-by_mould = {}
+sizes = {}
 for r in rows:
-    by_mould.setdefault(r["mould"], []).append(r["component"])
-agree = sum(max(v.count("1"), v.count("2")) for v in by_mould.values())
-check(agree >= 595, f"mixture components match the moulds ({agree} of 600)")
+    sizes[r["component"]] = sizes.get(r["component"], 0) + 1
+small = min(sizes, key=sizes.get)
+for mould in ("A", "B"):
+    own = [r["component"] for r in rows if r["mould"] == mould and r["component"] != small]
+    check(len(set(own)) == 1, f"mould {mould}: its shots outside the small component lie in one component")
+check(len({r["component"] for r in rows if r["component"] != small and r["mould"] == "A"} &
+          {r["component"] for r in rows if r["component"] != small and r["mould"] == "B"}) == 0,
+      "the two large components are the two moulds")
+planted_ids = {f["shot_id"] for f in faults}
+in_small = [r["shot_id"] for r in rows if r["component"] == small]
+check(len(in_small) <= 12 and sum(i in planted_ids for i in in_small) >= len(in_small) - 1,
+      f"the small component holds planted faults ({in_small})")
+check(all(r["low_density"] == "1" for r in rows if r["shot_id"] in planted_ids),
+      "every planted fault has a low density under the mixture")
 
 # 3. Fit on a clean reference period, score a new batch (invented data).
 ref_a = filtered_csv(os.path.join(EXAMPLES, "moulding_reference.csv"), os.path.join(tmp, "ref_a.csv"),
