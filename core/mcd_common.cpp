@@ -93,6 +93,13 @@ Standardised standardise(DataView x, ColumnScale kind) {
     s.centre(j) = m;
     s.scale(j) = sc;
     s.z.col(j) = (col.array() - m) / sc;
+    // Finite data can still leave the range of double here: a difference of two
+    // values near +-1e308 overflows, and so does a deviation divided by a tiny
+    // scale. Later steps would turn the infinities into NaN (an empty exact-fit
+    // plane, a NaN scatter), so the column is refused now.
+    if (!std::isfinite(sc) || !s.z.col(j).allFinite())
+      throw LocatedError(ErrorKind::Data, "robust standardisation", -1, j,
+                         "has values whose spread overflows double precision; rescale the data");
   }
   return s;
 }
@@ -484,6 +491,12 @@ RobustFit plane_fit_result(DataView x, const Standardised& s, const SubsetFit& s
       r.outlier[static_cast<std::size_t>(i)] = false;
     }
   hp.rows_on = static_cast<Index>(on.size());
+  // The subset's own rows set the tolerance, so they are on the plane unless a
+  // residual is NaN: standardised values so large that their products overflow.
+  if (on.empty())
+    throw Error(ErrorKind::Data,
+                "exact fit: the residuals to the hyperplane are not finite (the data's spread overflows double "
+                "precision); rescale the data");
   const SubsetFit all_on = fit_subset(s.z, on);
   r.location = s.centre + s.scale.cwiseProduct(all_on.mean);
   r.scatter = scale_both_sides(all_on.cov, s.scale);

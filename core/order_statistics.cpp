@@ -72,6 +72,9 @@ double median_of(const double* v, Index n, std::vector<double>& buf) {
   if (n == 1) return v[0];
   const OrderPair m = order_statistics(v, n, n / 2, buf);
   if (n % 2 == 1) return m.at;
+  // Opposite signs: the sum cannot overflow (the difference can: -1e308 and
+  // 1e308). Same signs: the difference cannot overflow (the sum can).
+  if ((m.below < 0.0) != (m.at < 0.0)) return (m.below + m.at) / 2.0;
   return m.below + (m.at - m.below) / 2.0;
 }
 

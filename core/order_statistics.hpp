@@ -25,8 +25,9 @@ struct OrderPair {
 OrderPair order_statistics(const double* v, Index n, Index k, std::vector<double>& buf);
 
 // Median of v[0..n), n >= 1: the middle order statistic, or for even n the
-// midpoint of the two middle ones written as a + (b - a)/2 so that it cannot
-// overflow; median() of robust_scale.hpp is this function. Throws
+// midpoint of the two middle ones, as (a + b)/2 for opposite signs and
+// a + (b - a)/2 otherwise, so that it cannot overflow; median() of
+// robust_scale.hpp is this function. Throws
 // Error(Data) for n < 1.
 double median_of(const double* v, Index n, std::vector<double>& buf);
 

@@ -20,7 +20,7 @@ flags=(-std=c++20 -O1 -g -fsanitize=fuzzer,address,undefined -fno-sanitize-recov
 clang++ "${flags[@]}" -I"$root/bindings-c/tableio" "$root/tests/fuzz/fuzz_csv_reader.cpp" \
   "$root"/bindings-c/tableio/*.cpp -o "$out/fuzz_csv_reader"
 for t in model_load fit_score accumulator sheet_evaluate; do
-  clang++ "${flags[@]}" -I"$root/capi/include" "$root/tests/fuzz/fuzz_$t.cpp" -o "$out/fuzz_$t" \
+  clang++ "${flags[@]}" -I"$root/capi/include" "$root/tests/fuzz/fuzz_$t.cpp" -o "$out/fuzz_$t" -Wl,--export-dynamic-symbol=xerbla_ \
     -L"$build/lib" -lellipsa -Wl,-rpath,"$build/lib"
 done
 

@@ -327,4 +327,36 @@ TEST(NumericalExtremes, ExactTiesInTheOrderStatistics) {
   }
 }
 
+// Finite values whose differences leave the range of double (about 1.8e308):
+// six shots at 1e308 and four at -1e308 in the first column. The robust
+// methods standardise by the median and MAD, where 1e308 - (-1e308) overflows;
+// found by fuzz_fit_score (OpenBLAS reported an illegal DSYRK argument from an
+// exact fit on zero rows). Now a data error naming the column.
+TEST(NumericalExtremes, SpreadBeyondDoublePrecisionIsADataErrorNamingTheColumn) {
+  const int64_t n = 10, p = 2;
+  std::vector<double> y(static_cast<size_t>(n * p));
+  for (int64_t i = 0; i < n; ++i) {
+    y[static_cast<size_t>(i * p)] = i < 6 ? 1e308 : -1e308;
+    y[static_cast<size_t>(i * p + 1)] = static_cast<double>((i * 7) % 10);
+  }
+  for (ellipsa_method method : {ELLIPSA_METHOD_MCD, ELLIPSA_METHOD_DETMCD}) {
+    SCOPED_TRACE(ellipsa_method_name(method));
+    const Fit f = fit(method, y, n, p);
+    EXPECT_EQ(f.status, ELLIPSA_ERR_DATA);
+    EXPECT_NE(f.message.find("column \"x1\""), std::string::npos) << f.message;  // default names x1, x2
+    EXPECT_NE(f.message.find("overflows double precision"), std::string::npos) << f.message;
+  }
+  // The median of -1e308 and 1e308 is 0, not infinity (an overflowing
+  // midpoint): with five of each, the column standardises to +-0.674 (MAD
+  // 1e308 times 1/Phi^-1(3/4)) and the fit is finite.
+  for (int64_t i = 0; i < n; ++i) y[static_cast<size_t>(i * p)] = i % 2 ? 1e308 : -1e308;
+  const Fit ok = fit(ELLIPSA_METHOD_MCD, y, n, p);
+  if (ok.status == ELLIPSA_OK) {
+    EXPECT_TRUE(all_finite(ok.location) && all_finite(ok.scatter));
+  } else {
+    EXPECT_TRUE(documented_numerical(ok.status)) << ellipsa_status_string(ok.status) << ": " << ok.message;
+    EXPECT_EQ(ok.message.find("overflows"), std::string::npos) << ok.message;
+  }
+}
+
 }  // namespace

@@ -57,6 +57,10 @@ TEST(RobustScale, MedianAndMadSmallCases) {
   Eigen::VectorXd big(2);
   big << 1.5e308, 1.7e308;
   EXPECT_NEAR(median(big), 1.6e308, 1e294);
+  // Opposite signs: the difference would overflow, the sum does not.
+  Eigen::VectorXd wide(2);
+  wide << -1e308, 1.5e308;
+  EXPECT_EQ(median(wide), 0.25e308);
 }
 
 TEST(RobustScale, PairwiseOrderStatisticMatchesBruteForce) {

@@ -15,6 +15,19 @@
 
 #include "ellipsa.h"
 
+// Oracle on the BLAS boundary: OpenBLAS reports an illegal argument (a
+// leading dimension of 0 from a product over zero rows, say) by calling
+// xerbla_, which prints a line and returns, leaving the output untouched. Here
+// it is a finding: this definition takes the place of OpenBLAS's (the link
+// exports it: -Wl,--export-dynamic-symbol=xerbla_) and aborts. Found an exact
+// fit on zero rows (tests/capi/test_numerical_extremes.cpp,
+// SpreadBeyondDoublePrecisionIsADataErrorNamingTheColumn). Not inline: each
+// target includes this header from its one source file.
+extern "C" __attribute__((visibility("default"), used)) void xerbla_(const char* name, const int* info, int len) {
+  std::fprintf(stderr, "fuzz oracle failed: BLAS routine %.*s called with illegal argument %d\n", len, name, *info);
+  std::abort();
+}
+
 namespace fuzz {
 
 inline void check(bool condition, const char* what, const std::string& detail = {}) {
