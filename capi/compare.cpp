@@ -6,6 +6,7 @@
 #include <string>
 
 #include "boundary.hpp"
+#include "cell_names.hpp"
 #include "core/batch_compare.hpp"
 #include "core/error.hpp"
 #include "matrix_view.hpp"
@@ -107,7 +108,15 @@ ELLIPSA_API ellipsa_status ellipsa_batch_compare(ellipsa_comparison** out, const
     const core::DataView r = ellipsa::capi::checked_view(reference, "reference");
     const core::DataView b = ellipsa::capi::checked_view(batch, "batch");
     const core::CompareOptions o = core_options(options);
-    auto* c = new ellipsa_comparison{core::compare_batches(r, b, o)};
+    // A located problem names its matrix in the context (core/batch_compare.cpp).
+    auto* c = new ellipsa_comparison{[&] {
+      try {
+        return core::compare_batches(r, b, o);
+      } catch (const core::LocatedError& e) {
+        throw core::Error(e.kind(), ellipsa::capi::located_text(e, e.context().c_str(),
+                                                                ellipsa::capi::default_column_names(r.cols())));
+      }
+    }()};
     *out = c;
     return ELLIPSA_OK;
   });

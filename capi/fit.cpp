@@ -187,7 +187,7 @@ extern "C" ELLIPSA_API ellipsa_status ellipsa_model_fit(ellipsa_model** out, con
           }
         },
         &d.kept_rows);
-    finalise_or_explain(*m);
+    naming_places("data", d.columns, [&] { finalise_or_explain(*m); });
     record_reference(*m, o);
     *out = m.release();
     return ELLIPSA_OK;

@@ -6,6 +6,7 @@
 #include <cstdio>
 
 #include "boundary.hpp"
+#include "core/cholesky.hpp"
 #include "core/distributions.hpp"
 #include "core/error.hpp"
 #include "core/mcd_deterministic.hpp"
@@ -107,6 +108,20 @@ void fit_robust(ellipsa_model& m, const PreparedData& d, const ellipsa_fit_optio
   // The core's scatter matrices are symmetric to rounding; the model stores
   // them exactly symmetric so that files and every consumer see one matrix.
   part.raw_scatter = 0.5 * (part.raw_scatter + part.raw_scatter.transpose()).eval();
+  // The model file's reader requires every stored scatter to factor in the
+  // data's units (model_json.cpp read_scatter); the core judged the subset in
+  // standardised units. They disagree only when the h-subset holds values of
+  // wildly different magnitudes (found by fuzzing: raw entries from 1e6 to
+  // 1e298), so such a fit is refused rather than saved unreadable.
+  for (Eigen::Index j = 0; j < part.raw_scatter.rows(); ++j)
+    if (!std::isfinite(part.raw_scatter(j, j)))
+      throw core::LocatedError(core::ErrorKind::Data, "scatter", -1, j,
+                               "has a variance that overflows double precision; rescale the data");
+  if (!core::CholeskyFactor().compute(part.raw_scatter))
+    throw core::Error(core::ErrorKind::Singular,
+                      "the raw MCD scatter (before reweighting) is not positive definite in the data's units: its "
+                      "h-subset holds values of very different magnitudes, a sign of more gross outliers than the "
+                      "fit can leave out; lower alpha toward 0.5 or inspect the data");
   m.components.push_back({1.0, r.location, 0.5 * (scatter + scatter.transpose()), {}});
   m.robust = std::move(part);
 }

@@ -4,6 +4,7 @@
 #include <limits>
 #include <numeric>
 #include <string>
+#include <utility>
 
 #include "kmeans_seed.hpp"
 #include "mcd_deterministic.hpp"
@@ -22,8 +23,16 @@ void check_options(const CompareOptions& o) {
 }
 
 // Complete rows of one batch, dense.
+// A located problem (an infinite cell) carries the matrix's name as its
+// context ("reference" or "batch", as the C interface calls them), so the C
+// layer can name the matrix, its 1-based row and its column.
 Eigen::MatrixXd complete_rows(DataView x, const char* which, Index& used, Index& dropped) {
-  const CompleteRows c = select_complete_rows(x);
+  CompleteRows c;
+  try {
+    c = select_complete_rows(x);
+  } catch (const LocatedError& e) {
+    throw LocatedError(e.kind(), std::string(which) == "new" ? "batch" : "reference", e.row(), e.column(), e.problem());
+  }
   used = static_cast<Index>(c.rows.size());
   dropped = c.dropped;
   if (used < 2)
@@ -122,6 +131,14 @@ BatchComparison compare_batches(DataView reference, DataView batch, const Compar
   neu.rowwise() -= shift;
 
   GroupSummary r = classical_summary(ref), b = classical_summary(neu);
+  // Finite data can still have a variance beyond double precision (values or
+  // a spread beyond about 1e154): refused here, naming the matrix and the
+  // column, before the tests' degrees of freedom become NaN.
+  for (const auto& [g, name] : {std::pair{&r, "reference"}, std::pair{&b, "batch"}})
+    for (Index j = 0; j < g->covariance.rows(); ++j)
+      if (!std::isfinite(g->covariance(j, j)))
+        throw LocatedError(ErrorKind::Data, name, -1, j,
+                           "has a variance that overflows double precision; rescale the data");
   out.mean_shift = attempt<TwoSampleT2>([&] { return two_sample_t2(r, b); });
   out.covariance_change = attempt<BoxM>([&] { return box_m({r, b}); });
   if (options.robust) {

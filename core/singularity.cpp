@@ -57,7 +57,15 @@ std::vector<std::vector<Index>> components(const Eigen::MatrixXd& proj, const st
 
 SingularityReport diagnose_scatter(const Eigen::MatrixXd& s, const SingularityOptions& options) {
   if (s.rows() != s.cols()) throw Error(ErrorKind::Shape, "singularity diagnosis: matrix is not square");
-  if (!s.allFinite()) throw Error(ErrorKind::Data, "singularity diagnosis: matrix has a NaN or Inf entry");
+  if (!s.allFinite()) {
+    // Fits reach here with finite data only, so a non-finite scatter is an
+    // overflow: squares of values beyond about 1e154 (in size or in spread).
+    for (Index j = 0; j < s.rows(); ++j)
+      if (!std::isfinite(s(j, j)))
+        throw LocatedError(ErrorKind::Data, "scatter", -1, j,
+                           "has a variance that overflows double precision; rescale the data");
+    throw Error(ErrorKind::Data, "scatter: a covariance overflows double precision; rescale the data");
+  }
   if (!(options.relative_tolerance > 0.0 && options.relative_tolerance < 1.0))
     throw Error(ErrorKind::Argument, "singularity diagnosis: relative tolerance must lie in (0, 1)");
   if (!(options.loading_threshold > 0.0 && options.loading_threshold < 1.0))

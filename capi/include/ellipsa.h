@@ -1375,7 +1375,7 @@ ELLIPSA_API ellipsa_status ellipsa_candidate_explain(const char **reason, const 
  */
 typedef struct ellipsa_scores {
   int64_t struct_size;        /**< sizeof(ellipsa_scores) as the caller compiled it. */
-  double *squared_distance;   /**< [n] squared Mahalanobis distance (mixture: to the most probable component). NaN when nothing is observed. */
+  double *squared_distance;   /**< [n] squared Mahalanobis distance (mixture: to the most probable component). NaN when nothing is observed; +inf when it overflows double precision (a value far beyond the model's scale), with p-value 0 and the row flagged. */
   double *p_value;            /**< [n] upper-tail probability of the distance under the scoring reference (chi-square with `observed` degrees of freedom, or see ::ELLIPSA_REFERENCE_NEW_ROWS). */
   int32_t *flag;              /**< [n] 1 flagged, 0 not, -1 not scorable (no observed coordinate). */
   int32_t *observed;          /**< [n] coordinates observed (the degrees of freedom used). */

@@ -346,17 +346,42 @@ TEST(NumericalExtremes, SpreadBeyondDoublePrecisionIsADataErrorNamingTheColumn) 
     EXPECT_NE(f.message.find("column \"x1\""), std::string::npos) << f.message;  // default names x1, x2
     EXPECT_NE(f.message.find("overflows double precision"), std::string::npos) << f.message;
   }
-  // The median of -1e308 and 1e308 is 0, not infinity (an overflowing
-  // midpoint): with five of each, the column standardises to +-0.674 (MAD
-  // 1e308 times 1/Phi^-1(3/4)) and the fit is finite.
+  // Five of each: the median is 0 (not an overflowing midpoint) and the
+  // standardised column is +-0.674, but the variance in the data's units
+  // (about 1e616) cannot be represented: the scatter is refused, naming the
+  // column, rather than returned with infinities.
   for (int64_t i = 0; i < n; ++i) y[static_cast<size_t>(i * p)] = i % 2 ? 1e308 : -1e308;
-  const Fit ok = fit(ELLIPSA_METHOD_MCD, y, n, p);
-  if (ok.status == ELLIPSA_OK) {
-    EXPECT_TRUE(all_finite(ok.location) && all_finite(ok.scatter));
-  } else {
-    EXPECT_TRUE(documented_numerical(ok.status)) << ellipsa_status_string(ok.status) << ": " << ok.message;
-    EXPECT_EQ(ok.message.find("overflows"), std::string::npos) << ok.message;
-  }
+  const Fit wide = fit(ELLIPSA_METHOD_MCD, y, n, p);
+  EXPECT_EQ(wide.status, ELLIPSA_ERR_DATA);
+  EXPECT_NE(wide.message.find("scatter: column \"x1\" has a variance that overflows"), std::string::npos)
+      << wide.message;
+}
+
+// A new row far beyond the bulk: its squared distance overflows double
+// precision. The header (ellipsa_scores.squared_distance) promises +inf, a
+// p-value of 0 and a flag, never NaN.
+TEST(NumericalExtremes, DistanceBeyondDoublePrecisionIsInfiniteAndFlagged) {
+  const int64_t n = 40, p = 2;
+  const std::vector<double> x = correlated(n, p, 21);
+  ellipsa_fit_options* raw = nullptr;
+  ASSERT_EQ(ellipsa_fit_options_create(&raw, ELLIPSA_METHOD_CLASSICAL), ELLIPSA_OK);
+  capi_test::Options o(raw);
+  const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
+  ellipsa_model* m = nullptr;
+  ASSERT_EQ(ellipsa_model_fit(&m, &v, raw), ELLIPSA_OK) << ellipsa_last_error();
+  capi_test::Model model(m);
+  const double far[2] = {1e200, 0.5};  // (1e200)^2 / variance of order 1 overflows
+  const ellipsa_matrix row = ellipsa_matrix_row_major(far, 1, p);
+  double d2 = 0.0, pv = -1.0;
+  int32_t flag = -2;
+  ellipsa_scores s = ELLIPSA_SCORES_INIT;
+  s.squared_distance = &d2;
+  s.p_value = &pv;
+  s.flag = &flag;
+  ASSERT_EQ(ellipsa_model_score(&s, m, &row, 0.975), ELLIPSA_OK) << ellipsa_last_error();
+  EXPECT_TRUE(std::isinf(d2) && d2 > 0.0) << d2;
+  EXPECT_EQ(pv, 0.0);
+  EXPECT_EQ(flag, 1);
 }
 
 }  // namespace
