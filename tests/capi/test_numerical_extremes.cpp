@@ -79,6 +79,16 @@ std::vector<double> correlated(int64_t n, int64_t p, uint64_t seed) {
   return x;
 }
 
+// Fits x (row-major n x p) with the given options: the status, and on failure
+// the message (*m stays NULL). Shared by the fit helpers below.
+ellipsa_status fit_row_major(ellipsa_model** m, std::string& message, const std::vector<double>& x, int64_t n,
+                             int64_t p, const ellipsa_fit_options* options) {
+  const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
+  const ellipsa_status st = ellipsa_model_fit(m, &v, options);
+  if (st != ELLIPSA_OK) message = ellipsa_last_error();
+  return st;
+}
+
 Fit fit(ellipsa_method method, const std::vector<double>& x, int64_t n, int64_t p, int32_t structure = 0) {
   ellipsa_fit_options* raw = nullptr;
   EXPECT_EQ(ellipsa_fit_options_create(&raw, method), ELLIPSA_OK);
@@ -88,15 +98,12 @@ Fit fit(ellipsa_method method, const std::vector<double>& x, int64_t n, int64_t 
     ellipsa_fit_options_set_restarts(raw, 2);
     if (structure) ellipsa_fit_options_set_structure(raw, structure);
   }
-  const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
   ellipsa_model* m = nullptr;
   Fit f;
-  f.status = ellipsa_model_fit(&m, &v, raw);
-  if (f.status != ELLIPSA_OK) {
-    f.message = ellipsa_last_error();
-    return f;
-  }
+  f.status = fit_row_major(&m, f.message, x, n, p, raw);
+  if (f.status != ELLIPSA_OK) return f;
   capi_test::Model model(m);
+  const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
   f.location.resize(static_cast<size_t>(p));
   f.scatter.resize(static_cast<size_t>(p * p));
   EXPECT_EQ(ellipsa_model_component(f.location.data(), p, f.scatter.data(), p * p, nullptr, m, 0), ELLIPSA_OK);
@@ -124,14 +131,10 @@ MixtureFit fit_mixture(const std::vector<double>& x, int64_t n, int64_t p, int32
   EXPECT_EQ(ellipsa_fit_options_set_restarts(raw, 2), ELLIPSA_OK);
   EXPECT_EQ(ellipsa_fit_options_set_structure(raw, structure), ELLIPSA_OK);
   EXPECT_EQ(ellipsa_fit_options_set_iterations(raw, 1000, 1e-12), ELLIPSA_OK);
-  const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
   ellipsa_model* m = nullptr;
   MixtureFit f;
-  f.status = ellipsa_model_fit(&m, &v, raw);
-  if (f.status != ELLIPSA_OK) {
-    f.message = ellipsa_last_error();
-    return f;
-  }
+  f.status = fit_row_major(&m, f.message, x, n, p, raw);
+  if (f.status != ELLIPSA_OK) return f;
   capi_test::Model model(m);
   const int32_t k_count = 2;
   f.weight.resize(k_count);
@@ -145,6 +148,7 @@ MixtureFit fit_mixture(const std::vector<double>& x, int64_t n, int64_t p, int32
   f.membership.resize(static_cast<size_t>(n * k_count));
   ellipsa_scores s = ELLIPSA_SCORES_INIT;
   s.membership = f.membership.data();
+  const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
   EXPECT_EQ(ellipsa_model_score(&s, m, &v, 0.975), ELLIPSA_OK) << ellipsa_last_error();
   return f;
 }
@@ -366,9 +370,9 @@ TEST(NumericalExtremes, DistanceBeyondDoublePrecisionIsInfiniteAndFlagged) {
   ellipsa_fit_options* raw = nullptr;
   ASSERT_EQ(ellipsa_fit_options_create(&raw, ELLIPSA_METHOD_CLASSICAL), ELLIPSA_OK);
   capi_test::Options o(raw);
-  const ellipsa_matrix v = ellipsa_matrix_row_major(x.data(), n, p);
   ellipsa_model* m = nullptr;
-  ASSERT_EQ(ellipsa_model_fit(&m, &v, raw), ELLIPSA_OK) << ellipsa_last_error();
+  std::string message;
+  ASSERT_EQ(fit_row_major(&m, message, x, n, p, raw), ELLIPSA_OK) << message;
   capi_test::Model model(m);
   const double far[2] = {1e200, 0.5};  // (1e200)^2 / variance of order 1 overflows
   const ellipsa_matrix row = ellipsa_matrix_row_major(far, 1, p);
