@@ -14,7 +14,8 @@
 //    the end are ignored. A blank line between data rows is a row with too few
 //    fields (error) unless the file has one column, where it is a missing cell.
 //  - A record longer than CsvOptions::max_record_bytes (64 MiB) is refused.
-//  - Header names are trimmed of surrounding spaces/tabs; names must be unique
+//  - Header names are trimmed of surrounding spaces, tabs and U+FEFF (byte
+//    order marks); names must be unique
 //    (empty names excepted) and valid UTF-8.
 //
 // Columns: with `columns` empty, every column whose non-missing cells in the

@@ -158,6 +158,15 @@ TEST(CsvDialect, ByteOrderMarkAndTrailingBlankLines) {
   EXPECT_EQ(r.lines, (std::vector<std::int64_t>{2, 3}));
 }
 
+// A byte order mark behind blanks, or around any name, is not part of the
+// name: it is invisible, and the user types "x" (fuzzing found the name
+// "\xEF\xBB\xBFx", and a rewritten file then read back "x").
+TEST(CsvDialect, ByteOrderMarksAroundNamesAreTrimmedLikeBlanks) {
+  const ReadResult r = read_text("  \xEF\xBB\xBFx, \xEF\xBB\xBF y\xEF\xBB\xBF ,z\xEF\xBB\xBFw\n1,2,3\n");
+  EXPECT_EQ(r.header, (std::vector<std::string>{"x", "y", "z\xEF\xBB\xBFw"}));  // inside a name it stays
+  expect_values(r.values, {1, 2, 3});
+}
+
 TEST(CsvDialect, QuotedFieldsSeparatorsQuotesAndNewlines) {
   CsvOptions options;
   options.keep_fields = options.keep_row_text = true;
