@@ -72,6 +72,23 @@ void score_gaussian(const ellipsa_scores& b, const ellipsa_model& m, core::DataV
   const core::MahalanobisScorer scorer(c.location, c.factor);
   core::ScoringOptions options = scoring_options(b, level, ref, threads);
   options.log_densities = b.log_density != nullptr;  // the marginal log-density, from the scorer's own factors
+  // A table with no missing or infinite value is scored straight into the
+  // caller's arrays (the same numbers; nothing is written unless the whole
+  // table is accepted, so a refused call still leaves the buffers as they were).
+  core::FiniteRowOutputs direct;
+  direct.d2 = b.squared_distance;
+  direct.p_value = b.p_value;
+  direct.flag = b.flag ? b.flag : b.low_density;
+  direct.log_density = b.log_density;
+  if (scorer.score_finite(x, options, direct)) {
+    for (int64_t i = 0; i < x.rows(); ++i) {
+      if (b.observed) b.observed[i] = static_cast<int32_t>(x.cols());
+      if (b.component) b.component[i] = 0;
+      if (b.membership) b.membership[i] = 1.0;
+      if (b.low_density && b.flag) b.low_density[i] = b.flag[i];  // the flag itself
+    }
+    return;
+  }
   const auto s = scorer.score(x, options);
   std::vector<int64_t> rows(static_cast<size_t>(x.rows()));
   for (int64_t i = 0; i < x.rows(); ++i) rows[static_cast<size_t>(i)] = i;

@@ -36,11 +36,8 @@ void throw_infinite_cell(const char* what, Index row, Index col, double v) {
       std::string("is infinite (") + (v > 0 ? "+Inf" : "-Inf") + "); NaN marks a missing value, Inf is not accepted");
 }
 
-namespace {
-
-// Whether every entry is finite, in one vectorised pass in the order the data
-// lie in memory: a contiguous table (either layout) as one flat array, else
-// column by column (unit row step) or Eigen's generic loop.
+// A contiguous table (either layout) is tested as one flat array, else
+// column by column (unit row step) or by Eigen's generic loop.
 bool all_finite_in_memory_order(DataView x) {
   const Index n = x.rows(), p = x.cols();
   using Flat = Eigen::Map<const Eigen::ArrayXd>;
@@ -52,8 +49,6 @@ bool all_finite_in_memory_order(DataView x) {
   }
   return x.allFinite();
 }
-
-}  // namespace
 
 CompleteRows select_complete_rows(DataView x, const std::vector<Index>& columns) {
   const std::vector<Index> cols = all_or(columns, x.cols());

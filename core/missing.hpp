@@ -9,6 +9,10 @@
 
 namespace ellipsa::core {
 
+// Whether every entry of x is finite, in one vectorised pass in the order
+// the entries lie in memory (no NaN, no +-Inf).
+bool all_finite_in_memory_order(DataView x);
+
 // Rows whose chosen columns are all finite.
 struct CompleteRows {
   std::vector<Index> rows;                 // ascending row indices (0-based)

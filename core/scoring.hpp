@@ -4,6 +4,7 @@
 // marginal Gaussian of their observed coordinates, never imputed.
 #pragma once
 #include <Eigen/Core>
+#include <cstdint>
 
 #include "cholesky.hpp"
 #include "data_view.hpp"
@@ -50,6 +51,15 @@ struct RowScores {
   Index missing_patterns = 0;
 };
 
+// Caller-owned arrays of x.rows() entries for MahalanobisScorer::score_finite;
+// a null pointer is not written.
+struct FiniteRowOutputs {
+  double* d2 = nullptr;
+  double* p_value = nullptr;
+  std::int32_t* flag = nullptr;  // 1 when d2 > the reference's limit, else 0
+  double* log_density = nullptr;
+};
+
 // Holds T and the Cholesky factor of S. Immutable after construction; score()
 // is const and keeps its pattern cache local, so one scorer may be shared by
 // threads.
@@ -71,6 +81,17 @@ class MahalanobisScorer {
   // missing coordinate; +-Inf throws Error(Data) naming the entry. level outside
   // (0, 1) throws Error(Argument).
   RowScores score(DataView x, const ScoringOptions& options = {}) const;
+
+  // The path for a table with no missing and no infinite value: the numbers
+  // of score() (the same kernel, bit for bit), written straight into the
+  // caller's arrays, with no temporary of n entries. Returns false, having
+  // written nothing, when some entry of x is NaN or +-Inf, when p exceeds
+  // the reference's rows, or when contributions or conditional drops are
+  // asked (options.contributions, options.conditional_drops): the caller then
+  // uses score(), which handles those. options.p_values and
+  // options.log_densities are ignored: the arrays given decide. Throws as
+  // score() for a wrong column count or level, before any write.
+  bool score_finite(DataView x, const ScoringOptions& options, const FiniteRowOutputs& out) const;
 
  private:
   Eigen::VectorXd location_;

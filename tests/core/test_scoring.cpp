@@ -3,6 +3,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <random>
 
@@ -209,4 +210,58 @@ TEST(Scoring, ErrorsAndEdges) {
   const auto ffar = classical_estimate(make_view(far), Normalisation::ByCountMinusOne);
   const RowScores sfar = MahalanobisScorer(ffar.mean, ffar.covariance).score(make_view(far));
   EXPECT_NEAR(sfar.d2.sum(), 3.0 * 49.0, 1e-5);
+}
+
+// score_finite() is score() without the n-sized temporaries: the same kernel,
+// so the same bits, in either layout, at random sizes and thread counts; the
+// reference numbers are the dense solve of the test above. A table it refuses
+// (a NaN, an Inf, contributions asked) leaves every array as it was.
+TEST(Scoring, FinitePathGivesTheBitsOfScoreAndRefusesWithoutWriting) {
+  std::mt19937_64 rng(405);
+  for (int trial = 0; trial < 12; ++trial) {
+    const Index p = 1 + static_cast<Index>(rng() % 40), n = 1 + static_cast<Index>(rng() % 5000);
+    const Eigen::MatrixXd x = correlated(rng, n, p) + Eigen::MatrixXd::Constant(n, p, trial % 3 == 0 ? 1e6 : 0.0);
+    const Eigen::MatrixXd ref = correlated(rng, p + 30, p);
+    const auto fit = classical_estimate(make_view(ref), Normalisation::ByCountMinusOne);
+    const MahalanobisScorer scorer(fit.mean, fit.covariance);
+    ScoringOptions opt;
+    opt.threads = 1 + trial % 3;
+    opt.log_densities = true;
+    const RowScores s = scorer.score(make_view(x), opt);
+    const Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> rm = x;
+    for (const bool row_major : {false, true}) {
+      const DataView view = row_major ? make_view(rm.data(), n, p, p, 1) : make_view(x);
+      Eigen::VectorXd d2(n), pv(n), ld(n);
+      Eigen::VectorXi flag(n);
+      FiniteRowOutputs out{d2.data(), pv.data(), flag.data(), ld.data()};
+      ASSERT_TRUE(scorer.score_finite(view, opt, out));
+      EXPECT_EQ(std::memcmp(d2.data(), s.d2.data(), sizeof(double) * n), 0) << "n " << n << " p " << p;
+      EXPECT_EQ(std::memcmp(pv.data(), s.p_value.data(), sizeof(double) * n), 0);
+      EXPECT_EQ(std::memcmp(ld.data(), s.log_density.data(), sizeof(double) * n), 0);
+      EXPECT_TRUE((flag.array() == s.flagged.cast<int>()).all());
+      const Index i = n / 2;
+      const double direct = direct_d2(x.row(i).transpose() - fit.mean, fit.covariance);
+      EXPECT_NEAR(d2(i), direct, 1e-9 * (1.0 + direct));
+    }
+  }
+  // Refusals: nothing written.
+  const Index n = 50, p = 3;
+  Eigen::MatrixXd x = correlated(rng, n, p);
+  const auto fit = classical_estimate(make_view(x), Normalisation::ByCountMinusOne);
+  const MahalanobisScorer scorer(fit.mean, fit.covariance);
+  Eigen::VectorXd d2 = Eigen::VectorXd::Constant(n, -7.0);
+  FiniteRowOutputs out{d2.data(), nullptr, nullptr, nullptr};
+  ScoringOptions asks_contributions;
+  asks_contributions.contributions = true;
+  EXPECT_FALSE(scorer.score_finite(make_view(x), asks_contributions, out));
+  for (const double bad : {kNaN, std::numeric_limits<double>::infinity()}) {
+    Eigen::MatrixXd y = x;
+    y(n - 1, p - 1) = bad;
+    EXPECT_FALSE(scorer.score_finite(make_view(y), {}, out));
+  }
+  EXPECT_TRUE((d2.array() == -7.0).all());
+  ScoringOptions bad_level;
+  bad_level.level = 1.0;
+  EXPECT_THROW(scorer.score_finite(make_view(x), bad_level, out), Error);
+  EXPECT_TRUE((d2.array() == -7.0).all());
 }
