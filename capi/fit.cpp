@@ -27,11 +27,12 @@ void select_rows(PreparedData& d, const ellipsa_fit_options& o) {
   const auto empty_columns = core::all_missing_columns(d.all);
   if (!empty_columns.empty() && d.all.rows() > 0)
     throw core::LocatedError(core::ErrorKind::Data, "data", -1, empty_columns.front(), "has no value in any row");
+  // Every row is used (kept_rows stays empty: no list of n rows to build).
   if (o.missing == ELLIPSA_MISSING_REFUSE) {
     core::require_finite(d.all, "data");
-    for (int64_t i = 0; i < d.all.rows(); ++i) d.kept_rows.push_back(i);
     return;
   }
+  if (core::all_finite_in_memory_order(d.all)) return;
   // Infinite values are refused under every policy (found here, before any row is left out).
   auto complete = core::select_complete_rows(d.all);
   if (o.missing == ELLIPSA_MISSING_EM) {
@@ -49,7 +50,9 @@ void select_rows(PreparedData& d, const ellipsa_fit_options& o) {
       else d.dropped_rows.push_back(i);
     }
   }
-  if (!d.dropped_rows.empty()) {
+  if (d.dropped_rows.empty()) {
+    d.kept_rows.clear();
+  } else {
     d.complete_copy = core::gather(d.all, std::vector<core::Index>(d.kept_rows.begin(), d.kept_rows.end()));
     d.copied = true;
   }

@@ -16,10 +16,14 @@ struct PreparedData {
   core::DataView all;             // the caller's view
   Eigen::MatrixXd complete_copy;  // complete rows, when some were dropped
   bool copied = false;
-  std::vector<int64_t> kept_rows;     // 0-based rows of `all` that are used
+  // 0-based rows of `all` that are used; empty when no row was dropped (every
+  // row is used; the common case builds no list of n rows).
+  std::vector<int64_t> kept_rows;
   std::vector<int64_t> dropped_rows;  // 0-based rows with a NaN
   std::vector<std::string> columns;
   core::DataView used() const;
+  // Row r of used() as a row of `all`.
+  int64_t kept_row(int64_t r) const { return dropped_rows.empty() ? r : kept_rows[static_cast<size_t>(r)]; }
 };
 
 // Applies the missing-value policy (drop or refuse; EM keeps every row with an

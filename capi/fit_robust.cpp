@@ -39,7 +39,7 @@ std::string hyperplane_text(const core::RobustFit& r, const std::vector<std::str
 std::vector<int64_t> original_rows(const std::vector<core::Index>& rows, const PreparedData& d) {
   std::vector<int64_t> out;
   out.reserve(rows.size());
-  for (auto r : rows) out.push_back(d.kept_rows[static_cast<size_t>(r)]);
+  for (auto r : rows) out.push_back(d.kept_row(r));
   std::sort(out.begin(), out.end());
   return out;
 }

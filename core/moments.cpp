@@ -192,20 +192,27 @@ void column_pass(const double* a, Index m, Index p, Index ld, double* sum, doubl
 // raw = rows start..start+m-1 of x, column-major. Row-major rows (unit column
 // step) are transposed in blocks of kCopyRows rows, which stay in L1, instead
 // of p strided sweeps over the whole chunk; other layouts use Eigen's copy.
+// The transposed block gets kColumnPad spare rows per column: with a leading
+// dimension of 4096 doubles (32 KiB, a multiple of 4 KiB) the p lines written
+// for one block of rows all fell in the same first-level cache set and evicted
+// each other (1e6 x 50, row-major: 205 ms against 143 ms column-major before;
+// see docs/performance.md).
 void copy_rows_column_major(DataView x, Index start, Index m, Eigen::MatrixXd& raw) {
   const Index p = x.cols();
-  raw.resize(m, p);
   if (x.outerStride() != 1) {
     raw = x.middleRows(start, m);
     return;
   }
+  constexpr Index kColumnPad = 8;
+  const Index ld = m + kColumnPad;
+  raw.resize(ld, p);
   const Index row_step = x.innerStride();
   const double* src = x.data() + start * row_step;
   double* dst = raw.data();
   for (Index r = 0; r < m; r += kCopyRows) {
     const Index b = std::min(kCopyRows, m - r);
     for (Index j = 0; j < p; ++j)
-      for (Index l = 0; l < b; ++l) dst[j * m + r + l] = src[(r + l) * row_step + j];
+      for (Index l = 0; l < b; ++l) dst[j * ld + r + l] = src[(r + l) * row_step + j];
   }
 }
 
@@ -221,7 +228,7 @@ const double* ColumnMajorChunks::block(Index start, Index m, Index& ld) {
     return x_.data() + start;
   }
   copy_rows_column_major(x_, start, m, raw_);
-  ld = m;
+  ld = raw_.rows();
   return raw_.data();
 }
 
@@ -288,7 +295,7 @@ void MomentAccumulator::add(DataView x, ColumnScreen* screen) {
     const Index m = std::min(kChunkRows, x.rows() - start);
     if (!in_place) copy_rows_column_major(x, start, m, s.raw);
     const double* block = in_place ? x.data() + start : s.raw.data();
-    const Index ld = in_place ? ld_in_place : m;
+    const Index ld = in_place ? ld_in_place : s.raw.rows();
     r.rows = m;
     r.gram.resize(p, p);
     if (screen) {
@@ -323,10 +330,10 @@ void MomentAccumulator::add(DataView x, ColumnScreen* screen) {
       // The vectorised copy needs the compile-time unit row step of `cm`.
       shifted_centred_chunk(cm.middleRows(start, m), shift, s.chunk, s.mu);
     } else {
-      s.raw.rowwise() -= shift.transpose();
-      s.mu = s.raw.colwise().mean();
-      s.raw.rowwise() -= s.mu;
-      s.chunk.swap(s.raw);
+      s.chunk = s.raw.topRows(m);  // without the spare rows of a transposed block
+      s.chunk.rowwise() -= shift.transpose();
+      s.mu = s.chunk.colwise().mean();
+      s.chunk.rowwise() -= s.mu;
     }
     r.gram.setZero();
     add_gram_lower(s.chunk, r.gram);

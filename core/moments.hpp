@@ -130,8 +130,10 @@ struct WeightedMoments {
 std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd& w, const Eigen::MatrixXd& shifts,
                                               int threads = 1);
 
-// Rows start..start+m-1 of x into `raw`, column-major (m x p). Row-major views
-// are transposed in small blocks that stay in L1.
+// Rows start..start+m-1 of x into the first m rows of `raw`, column-major;
+// its leading dimension is raw.rows() (a few spare rows when transposed, to
+// keep the columns off a 4 KiB stride). Row-major views are transposed in
+// small blocks that stay in L1.
 void copy_rows_column_major(DataView x, Index start, Index m, Eigen::MatrixXd& raw);
 
 // Chunks of the rows of x as column-major blocks for BLAS. Column-major caller
