@@ -64,6 +64,16 @@ void check_input(DataView x, double alpha, bool need_more_rows, const char* meth
   if (all_identical) throw Error(ErrorKind::Data, m + ": all rows are identical; no scatter can be estimated");
 }
 
+double column_scale(ColumnScale kind, const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace& workspace) {
+  switch (kind) {
+    case ColumnScale::Qn: return qn_scale(x, workspace);
+    case ColumnScale::Tau: return tau_scale(x, workspace);
+    case ColumnScale::Mad: break;
+  }
+  std::vector<double> dev, buf;
+  return mad_about(x.data(), x.size(), median_of(x.data(), x.size(), buf), dev, buf);
+}
+
 Standardised standardise(DataView x, ColumnScale kind) {
   const Index n = x.rows(), p = x.cols();
   Standardised s;
@@ -72,15 +82,11 @@ Standardised standardise(DataView x, ColumnScale kind) {
   s.z.resize(n, p);
   Eigen::VectorXd col;
   std::vector<double> dev, buf;
+  ScaleWorkspace workspace;
   for (Index j = 0; j < p; ++j) {
     col = x.col(j);
     const double m = median_of(col.data(), n, buf);
-    double sc;
-    if (kind == ColumnScale::Qn) {
-      sc = qn_scale(col);
-    } else {
-      sc = mad_about(col.data(), n, m, dev, buf);
-    }
+    double sc = kind == ColumnScale::Mad ? mad_about(col.data(), n, m, dev, buf) : column_scale(kind, col, workspace);
     if (!(sc > 0.0)) {
       // More than half the values coincide: fall back to the standard deviation
       // (the C-steps then find the exact fit if h rows share that value).

@@ -17,6 +17,7 @@
 #include "cholesky.hpp"
 #include "data_view.hpp"
 #include "mcd_small_sample.hpp"
+#include "robust_scale.hpp"
 
 namespace ellipsa::core {
 
@@ -150,7 +151,10 @@ void check_input(DataView x, double alpha, bool need_more_rows, const char* meth
 // the mean; when that is 0 too (a constant column) 1. Each median and MAD is
 // one selection (order_statistics.hpp) on the column, and the median is found
 // once per column; the values equal median() of robust_scale.hpp and mad_about().
-enum class ColumnScale { Mad, Qn };
+// ColumnScale::Tau: tau_scale() (DetMCD beyond kDetMcdQnMaxRows rows).
+enum class ColumnScale { Mad, Qn, Tau };
+// The one dispatch from a ColumnScale to its estimator.
+double column_scale(ColumnScale kind, const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace& workspace);
 struct Standardised {
   Eigen::MatrixXd z;
   Eigen::VectorXd centre, scale;

@@ -69,11 +69,11 @@ Eigen::VectorXd spatial_median(const Eigen::MatrixXd& z) {
 
 std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk) {
   ScaleWorkspace workspace;
-  return deterministic_starts(z, with_ogk, workspace, nullptr);
+  return deterministic_starts(z, with_ogk, workspace, nullptr, ColumnScale::Qn);
 }
 
 std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk, ScaleWorkspace& workspace,
-                                                  StartBasis* ogk_basis) {
+                                                  StartBasis* ogk_basis, ColumnScale scale) {
   const Index n = z.rows(), p = z.cols();
   std::vector<Eigen::MatrixXd> s;
   // 1. Correlation of the tanh-transformed data.
@@ -115,30 +115,34 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
     const Eigen::VectorXd norms = z.rowwise().squaredNorm();
     s.push_back(fit_subset(z, smallest_h(norms, (n + 1) / 2, z)).cov);
   }
-  // 6. Raw OGK (Maronna & Zamar 2002) with the Qn scale: U_jk =
-  // (Qn(z_j + z_k)^2 - Qn(z_j - z_k)^2) / 4 on columns scaled to unit Qn, then
-  // the eigenvalues of U replaced by Qn^2 of the projections on its
-  // eigenvectors. The columns of z were divided by their Qn in the
-  // standardisation (step 1 of DetMCD), so Qn(z_j) is 1 up to rounding and is
-  // not evaluated again; it is 0 (that standardisation fell back to another
-  // scale) exactly when the column has at least qn_k tied pairs.
+  // 6. Raw OGK (Maronna & Zamar 2002) with the robust scale s (Qn, or tau
+  // for large n): U_jk = (s(z_j + z_k)^2 - s(z_j - z_k)^2) / 4 on columns
+  // scaled to unit s, then the eigenvalues of U replaced by s^2 of the
+  // projections on its eigenvectors. The columns of z were divided by their
+  // s in the standardisation (step 1 of DetMCD), so s(z_j) is 1 up to
+  // rounding and is not evaluated again; it is 0 (that standardisation fell
+  // back to another scale) exactly when the column has at least qn_k tied
+  // pairs (Qn), or when more than half its values equal its median (tau:
+  // the MAD is 0; one O(n) evaluation tells).
   if (with_ogk) {
     Eigen::MatrixXd u(p, p);
     Eigen::VectorXd sum(n), diff(n);
     for (Index j = 0; j < p; ++j) {
-      u(j, j) = zero_qn[static_cast<std::size_t>(j)] ? 0.0 : 1.0;
+      const bool zero = scale == ColumnScale::Qn ? zero_qn[static_cast<std::size_t>(j)]
+                                                 : !(column_scale(scale, z.col(j), workspace) > 0.0);
+      u(j, j) = zero ? 0.0 : 1.0;
       for (Index k = 0; k < j; ++k) {
         sum = z.col(j) + z.col(k);
         diff = z.col(j) - z.col(k);
-        const double a = qn_scale(sum, workspace);
-        const double b = qn_scale(diff, workspace);
+        const double a = column_scale(scale, sum, workspace);
+        const double b = column_scale(scale, diff, workspace);
         u(j, k) = u(k, j) = 0.25 * (a * a - b * b);
       }
     }
     Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(u);
     const Eigen::MatrixXd v = z * es.eigenvectors();
     Eigen::VectorXd root(p);
-    for (Index l = 0; l < p; ++l) root(l) = qn_scale(v.col(l), workspace);
+    for (Index l = 0; l < p; ++l) root(l) = column_scale(scale, v.col(l), workspace);
     s.push_back(es.eigenvectors() * root.cwiseAbs2().asDiagonal() * es.eigenvectors().transpose());
     // Step 3 of DetMCD applied to this start would find the same eigenvectors
     // and the same projection scales again: hand them over instead.
@@ -152,16 +156,17 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
 
 Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s) {
   ScaleWorkspace workspace;
-  return start_distances(z, s, workspace);
+  return start_distances(z, s, workspace, ColumnScale::Qn);
 }
 
-Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s, ScaleWorkspace& workspace) {
+Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s, ScaleWorkspace& workspace,
+                                ColumnScale scale) {
   const Index p = z.cols();
   Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(s);
   const Eigen::MatrixXd& e = es.eigenvectors();
   const Eigen::MatrixXd b = z * e;
-  Eigen::VectorXd root(p);  // Qn of the projections: the re-estimated sqrt eigenvalues
-  for (Index l = 0; l < p; ++l) root(l) = qn_scale(b.col(l), workspace);
+  Eigen::VectorXd root(p);  // robust scales of the projections: the re-estimated sqrt eigenvalues
+  for (Index l = 0; l < p; ++l) root(l) = column_scale(scale, b.col(l), workspace);
   return start_distances(z, StartBasis{e, root});
 }
 
@@ -192,7 +197,10 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   if (p == 1) return univariate_mcd(x, opt.alpha, rule);
   const Index h = mcd_subset_size(n, p, opt.alpha);
   mcd_detail::report_progress(opt.progress, "standardise", 0.0);
-  const mcd_detail::Standardised st = mcd_detail::standardise(x, mcd_detail::ColumnScale::Qn);
+  // Qn up to opt.qn_max_rows rows, the O(n) tau scale beyond (mcd_deterministic.hpp).
+  const mcd_detail::ColumnScale scale =
+      n <= opt.qn_max_rows ? mcd_detail::ColumnScale::Qn : mcd_detail::ColumnScale::Tau;
+  const mcd_detail::Standardised st = mcd_detail::standardise(x, scale);
   if (st.constant_column >= 0) return mcd_detail::constant_column_result(x, st, h);
   const Eigen::MatrixXd& z = st.z;
 
@@ -211,7 +219,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   mcd_detail::report_progress(opt.progress, "starting estimates", 0.05);
   ScaleWorkspace workspace;  // one set of Qn buffers for all p(p+1)/2 + 6p scales
   mcd_detail::StartBasis ogk;
-  const std::vector<Eigen::MatrixXd> starts = mcd_detail::deterministic_starts(z, true, workspace, &ogk);
+  const std::vector<Eigen::MatrixXd> starts = mcd_detail::deterministic_starts(z, true, workspace, &ogk, scale);
   std::optional<mcd_detail::SubsetFit> best;
   int iterations = 0, usable = 0;
   const Index half = (n + 1) / 2;
@@ -220,7 +228,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
                                 0.2 + 0.7 * static_cast<double>(k) / static_cast<double>(starts.size()));
     // The last start is the OGK one, whose eigenbasis and scales are known.
     const Eigen::VectorXd d2 = k + 1 == starts.size() ? mcd_detail::start_distances(z, ogk)
-                                                      : mcd_detail::start_distances(z, starts[k], workspace);
+                                                      : mcd_detail::start_distances(z, starts[k], workspace, scale);
     if (d2.size() == 0) continue;
     mcd_detail::SubsetFit f = mcd_detail::fit_subset(z, mcd_detail::smallest_h(d2, half, z));
     if (!f.singular) iterations += mcd_detail::c_steps_to_convergence(z, h, f, opt.max_csteps, opt.threads);

@@ -14,8 +14,22 @@
 
 namespace ellipsa::core {
 
+// Rows up to which DetMCD takes Qn as its robust scale (standardisation,
+// OGK start, eigenvalue re-estimation); beyond, the tau scale (tau_scale(),
+// O(n) where Qn needs a sort of each of its p(p+1)/2 + 6p samples). From
+// memory, not verified against the paper's text: Hubert, Rousseeuw &
+// Verdonck allow the tau scale for large n for this reason. The switch point
+// is chosen, not tuned: the published sets and the samples of a sheet (at
+// most a few thousand rows) keep Qn and their results; at 1e5 x 10 Qn took
+// more than half of the fit (docs/performance.md). Both scales estimate sigma
+// at the normal, so the starts agree in scale on either side.
+inline constexpr Index kDetMcdQnMaxRows = 10000;
+
 struct DetMcdOptions {
   double alpha = 0.5;             // h = mcd_subset_size(n, p, alpha)
+  // Qn up to this many rows, tau beyond (kDetMcdQnMaxRows; tests set it to
+  // compare the two on the same data).
+  Index qn_max_rows = kDetMcdQnMaxRows;
   int max_csteps = 200;           // cap for "to convergence"
   double reweight_level = 0.975;  // reweighting cutoff chi2q(p, level)
   // Small-sample factors of the raw and reweighted scatter (mcd_small_sample.hpp).
@@ -52,14 +66,17 @@ struct StartBasis {
 // The same, with caller-provided Qn scratch memory; when with_ogk and
 // ogk_basis is not null, it receives the OGK start's basis (so that step 3
 // need not recompute it: start_distances(z, *ogk_basis)).
+// `scale` is the robust scale z was standardised with (ColumnScale::Qn or
+// ColumnScale::Tau; the short form above takes Qn).
 std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk, ScaleWorkspace& workspace,
-                                                  StartBasis* ogk_basis);
+                                                  StartBasis* ogk_basis, ColumnScale scale);
 // Step 3 of DetMCD for one start: eigenvalues re-estimated as Qn^2 of the
 // projections on the eigenvectors of s; returns the squared distances of all
 // rows to the centre Sigma^{1/2} med(z Sigma^{-1/2}), or an empty vector when
 // a projection has zero scale.
 Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s);
-Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s, ScaleWorkspace& workspace);
+Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s, ScaleWorkspace& workspace,
+                                ColumnScale scale);
 // Distances for a start whose basis is already known (empty when a root is 0).
 Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const StartBasis& basis);
 }  // namespace mcd_detail

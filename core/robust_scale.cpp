@@ -44,6 +44,7 @@ struct ScaleWorkspace::Buffers {
   std::vector<double> y;  // sorted sample + NaN sentinels
   std::vector<Index> lo, hi, cut_lo, cut_hi;
   std::vector<double> sample, candidates;
+  std::vector<double> dev, select;  // tau scale: deviations, selection scratch
 };
 
 ScaleWorkspace::ScaleWorkspace() : buffers_(std::make_unique<Buffers>()) {}
@@ -493,6 +494,55 @@ double qn_scale(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace& work
 double qn_scale(const Eigen::Ref<const Eigen::VectorXd>& x) {
   ScaleWorkspace workspace;
   return qn_scale(x, workspace);
+}
+
+double tau_normal_expectation() {
+  // E[min(Z^2, c^2)] for Z ~ N(0, 1): E[Z^2; |Z| <= c] + c^2 P(|Z| > c), with
+  // E[Z^2; |Z| <= c] = (2 Phi(c) - 1) - 2 c phi(c) (integration by parts of
+  // z * z phi(z)). About 0.99501 at c = 3.
+  const boost::math::normal_distribution<double> normal;
+  const double c = kTauScaleCutoff;
+  const double inside = (2.0 * boost::math::cdf(normal, c) - 1.0) - 2.0 * c * boost::math::pdf(normal, c);
+  return inside + c * c * 2.0 * boost::math::cdf(boost::math::complement(normal, c));
+}
+
+double tau_scale(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace& workspace) {
+  const Index n = x.size();
+  require_nonempty(n, "tau scale");
+  auto& b = workspace.buffers();
+  const double* v = x.data();
+  const double mu0 = median_of(v, n, b.select);
+  const double s0 = mad_about(v, n, mu0, b.dev, b.select);
+  if (!(s0 > 0.0)) return 0.0;
+  // Location: mu0 plus the weighted mean of the deviations (offset-safe: no
+  // sum of raw values), weights (1 - (u / c1)^2)^2 for |u| <= c1. At least
+  // half the values lie within one MAD of mu0, so the weights sum above 0.
+  const double c1 = kTauLocationCutoff;
+  double weight = 0.0, shift = 0.0;
+  for (Index i = 0; i < n; ++i) {
+    const double d = v[i] - mu0, u = d / s0;
+    if (std::abs(u) <= c1) {
+      const double t = 1.0 - (u / c1) * (u / c1);
+      weight += t * t;
+      shift += t * t * d;
+    }
+  }
+  const double mu = mu0 + shift / weight;
+  // Scale: s0^2 mean(min(((x - mu) / s0)^2, c2^2)), divided by its normal
+  // expectation so that it estimates sigma^2 at the normal.
+  const double c2 = kTauScaleCutoff * kTauScaleCutoff;
+  double sum = 0.0;
+  for (Index i = 0; i < n; ++i) {
+    const double u = (v[i] - mu) / s0;
+    sum += std::min(u * u, c2);
+  }
+  static const double expectation = tau_normal_expectation();
+  return s0 * std::sqrt(sum / static_cast<double>(n) / expectation);
+}
+
+double tau_scale(const Eigen::Ref<const Eigen::VectorXd>& x) {
+  ScaleWorkspace workspace;
+  return tau_scale(x, workspace);
 }
 
 }  // namespace ellipsa::core

@@ -346,7 +346,7 @@ typedef int32_t ellipsa_method;
 #define ELLIPSA_METHOD_LEDOIT_WOLF 2 /**< Ledoit & Wolf (2004) shrinkage ("ledoit-wolf"). */
 #define ELLIPSA_METHOD_OAS 3         /**< Oracle approximating shrinkage, Chen et al. (2010) ("oas"). */
 #define ELLIPSA_METHOD_MCD 4         /**< FAST-MCD, Rousseeuw & Van Driessen (1999) ("mcd"). */
-#define ELLIPSA_METHOD_DETMCD 5      /**< Deterministic MCD, Hubert et al. (2012) ("detmcd"). */
+#define ELLIPSA_METHOD_DETMCD 5      /**< Deterministic MCD, Hubert et al. (2012) ("detmcd"); its robust scale is Qn up to 10000 rows, the O(n) tau scale (Yohai & Zamar 1988) beyond. */
 #define ELLIPSA_METHOD_MRCD 6        /**< Regularised MCD, Boudt et al. (2020) ("mrcd"). */
 #define ELLIPSA_METHOD_MIXTURE 7     /**< Gaussian mixture by EM ("mixture"). */
 
