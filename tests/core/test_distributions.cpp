@@ -12,6 +12,7 @@
 #include <string>
 #include <vector>
 
+#include <boost/math/distributions/fisher_f.hpp>
 #include <boost/math/special_functions/gamma.hpp>
 #include <cstdio>
 
@@ -161,4 +162,25 @@ TEST(DistributionTails, WholeDfChi2TailMatchesBoostIncompleteGamma) {
   // df outside the closed form's range still goes to Boost.
   EXPECT_NEAR(chi2_sf(3.0, 2.5), boost::math::gamma_q(1.25, 1.5), 1e-15);
   EXPECT_NEAR(chi2_sf(150.0, 101.0), boost::math::gamma_q(50.5, 75.0), 1e-15);
+}
+
+// The closed form of f_sf for even df1 <= 100 against Boost's F distribution
+// (general-purpose library), over df2 from 0.7 to 1e6 (the phase II
+// reference uses df2 = m - p, m possibly fractional) and x from 1e-12 to the
+// edge of the closed form's range. Relative agreement: 1.8e-13 at worst when
+// written (exp(-a log1p(.)) carries the rounding of an exponent up to 700);
+// the bound is 1e-12.
+TEST(DistributionTails, EvenDf1FTailMatchesBoost) {
+  double worst = 0.0;
+  for (int df1 = 2; df1 <= 100; df1 += 2)
+    for (const double df2 : {0.7, 1.0, 2.5, 7.0, 38.5, 250.0, 1e4, 1e6})
+      for (double x = 1e-12; x < 1e12; x *= 1.9) {
+        if (0.5 * df2 * std::log1p(df1 * x / df2) >= 700.0) break;
+        const double theirs = cdf(complement(boost::math::fisher_f_distribution<double>(df1, df2), x));
+        if (theirs < std::numeric_limits<double>::min()) continue;
+        const double r = std::abs(f_sf(x, df1, df2) - theirs) / theirs;
+        worst = std::max(worst, r);
+        EXPECT_LE(r, 1e-12) << "df1 " << df1 << " df2 " << df2 << " x " << x;
+      }
+  std::printf("  worst relative difference to Boost's F tail: %.2e\n", worst);
 }
