@@ -26,7 +26,7 @@ namespace ellipsa::core {
 inline constexpr Index kDetMcdQnMaxRows = 10000;
 
 struct DetMcdOptions {
-  double alpha = 0.5;             // h = mcd_subset_size(n, p, alpha)
+  double alpha = 0.5;  // h = mcd_subset_size(n, p, alpha)
   // Qn up to this many rows, tau beyond (kDetMcdQnMaxRows; tests set it to
   // compare the two on the same data).
   Index qn_max_rows = kDetMcdQnMaxRows;
