@@ -8,9 +8,13 @@ namespace ellipsa::core {
 
 namespace {
 
-// Squared Euclidean distance of every row of z to centre c.
+// Squared Euclidean distance of every row of z to centre c, summed over the
+// columns in order. Column by column: z is column-major, and a row-wise
+// reduction strides across it (measured: a quarter of a five-start fit of
+// 1e5 x 10 with K = 8 went to this line when it was written row by row).
 void squared_distance_to(const Eigen::MatrixXd& z, const Eigen::RowVectorXd& c, Eigen::VectorXd& out) {
-  out = (z.rowwise() - c).rowwise().squaredNorm();
+  out = (z.col(0).array() - c(0)).square().matrix();
+  for (Index j = 1; j < z.cols(); ++j) out.array() += (z.col(j).array() - c(j)).square();
 }
 
 // Index of the row whose running sum of weights first exceeds target.

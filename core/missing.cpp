@@ -145,6 +145,17 @@ MissingLayout group_missing_patterns(DataView x, const std::vector<Index>& rows,
 MissingLayout group_missing_patterns(DataView x, const char* what) {
   std::vector<Index> all(static_cast<std::size_t>(x.rows()));
   std::iota(all.begin(), all.end(), Index{0});
+  if (x.rows() > 0 && x.cols() > 0 && all_finite_in_memory_order(x)) {
+    // The common case, what the scan below would build, without its lookup
+    // per row (a tenth of a one-component mixture fit of 1e5 x 10, perf).
+    MissingLayout layout;
+    MissingPattern pattern;
+    pattern.observed.resize(static_cast<std::size_t>(x.cols()));
+    std::iota(pattern.observed.begin(), pattern.observed.end(), Index{0});
+    pattern.rows = std::move(all);
+    layout.patterns.push_back(std::move(pattern));
+    return layout;
+  }
   return group_missing_patterns(x, all, what);
 }
 
