@@ -53,9 +53,20 @@ struct MixtureModel {
 struct MixtureOptions {
   Index components = 2;  // K >= 1
   CovarianceStructure structure = CovarianceStructure::Full;
-  int restarts = 3;          // independent k-means++ starts; the best log-likelihood is kept
+  // Independent k-means++ starts. With more than one, each runs short EM
+  // (short_run_tolerance) and the one of highest log-likelihood goes on to the
+  // tolerance: the em-EM strategy of Biernacki, Celeux & Govaert (2003).
+  int restarts = 3;
   int max_iterations = 500;  // EM iterations per start
   double tolerance = 1e-8;   // stop when |L_t - L_(t-1)| <= tolerance * |L_t|
+  // A short run stops when |L_t - L_(t-1)| <= short_run_tolerance * |L_t - L_0|
+  // (L_0: after the run's first iteration), or at the tolerance above.
+  double short_run_tolerance = 3e-3;
+  // SQUAREM (Varadhan & Roland 2008) between EM iterations: the same kind of
+  // optimum in far fewer iterations when EM crawls (a component more than the
+  // data hold), monotone log-likelihood kept (mixture_acceleration.hpp).
+  // false: plain EM.
+  bool accelerate = true;
   // reg: after each M-step, reg * (the variance of column j over the data) is
   // added to diagonal entry j of every covariance, so the ridge follows each
   // column's units; a constant column, and every entry of a spherical
@@ -102,13 +113,14 @@ struct MixtureResult {
   Eigen::MatrixXd responsibilities;
   Eigen::VectorXi labels;
   Eigen::VectorXd log_density;
-  double log_likelihood = 0.0;           // sum of log_density over the used rows
-  Index n_parameters = 0;                // free parameters, see mixture_parameter_count
-  double bic = 0.0;                      // -2 logL + n_parameters log(rows_used)
-  double icl = 0.0;                      // bic - 2 sum_i sum_k t_ik log t_ik
-  bool converged = false;                // the relative-change test was met before the cap
-  int iterations = 0;                    // EM iterations of the kept start
-  std::vector<double> loglik_trace;      // logL at the start and after each iteration (kept start)
+  double log_likelihood = 0.0;  // sum of log_density over the used rows
+  Index n_parameters = 0;       // free parameters, see mixture_parameter_count
+  double bic = 0.0;             // -2 logL + n_parameters log(rows_used)
+  double icl = 0.0;             // bic - 2 sum_i sum_k t_ik log t_ik
+  bool converged = false;       // the relative-change test was met before the cap
+  int iterations = 0;           // EM iterations of the kept start
+  std::vector<double>
+      loglik_trace;  // logL after each EM iteration, from iteration 0 (kept start; an accepted acceleration jump between two is not listed)
   std::vector<CollapseEvent> collapses;  // of every start, in order
   int best_start = 0;                    // which start was kept
   Index rows_used = 0;

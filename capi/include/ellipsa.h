@@ -225,8 +225,9 @@ static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_
  * to stop, and no further unit of work starts. The units between two calls
  * are at most: FAST-MCD (mcd) one random start with its two C-steps, or one
  * round of C-steps of the kept candidates (at most ten C-steps); DetMCD and
- * MRCD the C-steps of one starting estimate; mixtures one EM iteration (or
- * the k-means++ seeding of one restart). Each unit costs O(n p^2) (C-step)
+ * MRCD the C-steps of one starting estimate; mixtures one EM iteration
+ * (after every second one, also the E-step of an acceleration jump) or the
+ * k-means++ seeding of one restart. Each unit costs O(n p^2) (C-step)
  * or O(n K p^2) (EM iteration); the measured wall-clock latency is in
  * docs/robustness.md.
  */
@@ -348,7 +349,7 @@ typedef int32_t ellipsa_method;
 #define ELLIPSA_METHOD_MCD 4         /**< FAST-MCD, Rousseeuw & Van Driessen (1999) ("mcd"). */
 #define ELLIPSA_METHOD_DETMCD 5      /**< Deterministic MCD, Hubert et al. (2012) ("detmcd"); its robust scale is Qn up to 10000 rows, the O(n) tau scale (Yohai & Zamar 1988) beyond. */
 #define ELLIPSA_METHOD_MRCD 6        /**< Regularised MCD, Boudt et al. (2020) ("mrcd"). */
-#define ELLIPSA_METHOD_MIXTURE 7     /**< Gaussian mixture by EM ("mixture"). */
+#define ELLIPSA_METHOD_MIXTURE 7     /**< Gaussian mixture by EM ("mixture"), accelerated by SQUAREM (Varadhan & Roland 2008) with a monotone log-likelihood; see ellipsa_fit_options_set_restarts() for how the starts compete. */
 
 /** Divisor of a classical covariance. */
 #define ELLIPSA_DIVISOR_N 1          /**< Divide by n: the maximum-likelihood estimate. */
@@ -530,6 +531,12 @@ ELLIPSA_API ellipsa_status ellipsa_fit_options_set_structure(ellipsa_fit_options
 
 /**
  * @brief Mixtures: number of EM runs from different k-means++ starts (>= 1).
+ *
+ * With more than one start, every start runs a short EM (until an iteration
+ * gains at most 0.3% of what the start has gained since its first iteration)
+ * and the start of highest log-likelihood goes on to the tolerance: the
+ * em-EM strategy of Biernacki, Celeux & Govaert (2003). With one start, that
+ * start runs to the tolerance.
  * @param options  The options.
  * @param restarts Number of starts, in [1, 10000].
  * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL; ::ELLIPSA_ERR_ARGUMENT (outside

@@ -171,6 +171,11 @@ TEST(MixtureBadInput, BadOptions) {
   o.tolerance = std::numeric_limits<double>::quiet_NaN();
   EXPECT_EQ(failure(x, o).first, ErrorKind::Argument);
   o = with_k(2);
+  o.short_run_tolerance = -0.1;
+  EXPECT_EQ(failure(x, o).first, ErrorKind::Argument);
+  o.short_run_tolerance = std::numeric_limits<double>::infinity();
+  EXPECT_EQ(failure(x, o).first, ErrorKind::Argument);
+  o = with_k(2);
   o.initial_labels = Eigen::VectorXi::Constant(40, 2);
   EXPECT_EQ(failure(x, o).first, ErrorKind::Argument);
   o = with_k(2);

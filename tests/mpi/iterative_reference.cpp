@@ -4,7 +4,8 @@
 // path the driver uses:
 //   mixture: core::fit_mixture with one start whose initial responsibilities
 //     are the E-step of the start model (its first M-step is then the
-//     driver's first), the same tolerance, iteration cap and regularisation;
+//     driver's first), the same tolerance, iteration cap and regularisation,
+//     plain EM (no acceleration) like the driver;
 //   mcd: the start's location and scatter in the standardised coordinates of
 //     core::fast_mcd, core C-steps to convergence (c_steps_to_convergence),
 //     then the core's finish (consistency, small-sample factors, reweighting).
@@ -120,6 +121,7 @@ int main(int argc, char** argv) {
       o.tolerance = tolerance;
       o.max_iterations = max_iterations;
       o.regularisation = 1e-6;  // the C interface's default, as the driver's M-step uses
+      o.accelerate = false;     // the driver runs plain EM: one M-step per exchange of statistics
       o.initial_responsibilities = t0;
       const core::MixtureResult r = core::fit_mixture(core::make_view(x), o);
       std::fprintf(f, "log_likelihood %.17g\niterations %d\nconverged %d\n", r.log_likelihood, r.iterations,
