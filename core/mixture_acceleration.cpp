@@ -49,8 +49,8 @@ double squarem_step_length(const MixtureModel& m0, const MixtureModel& m1, const
   require_same_shape(m0, m1);
   require_same_shape(m0, m2);
   if (inv_spread.size() != m0.dimension()) throw Error(ErrorKind::Shape, "mixture acceleration: one spread per column");
-  const double r2 = scaled_norm2(-1.0, m0, 1.0, m1, 0.0, m2, inv_spread);       // theta1 - theta0
-  const double v2 = scaled_norm2(1.0, m0, -2.0, m1, 1.0, m2, inv_spread);       // theta2 - 2 theta1 + theta0
+  const double r2 = scaled_norm2(-1.0, m0, 1.0, m1, 0.0, m2, inv_spread);  // theta1 - theta0
+  const double v2 = scaled_norm2(1.0, m0, -2.0, m1, 1.0, m2, inv_spread);  // theta2 - 2 theta1 + theta0
   if (!(v2 > 0.0) || !std::isfinite(v2) || !std::isfinite(r2)) return -1.0;
   const double alpha = -std::sqrt(r2 / v2);
   return alpha < -1.0 ? alpha : -1.0;

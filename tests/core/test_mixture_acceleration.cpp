@@ -109,7 +109,8 @@ TEST(MixtureAcceleration, StepLengthDoesNotDependOnTheColumnsUnits) {
     return m;
   };
   const double a = squarem_step_length(m0, m1, m2, spread.cwiseInverse());
-  const double b = squarem_step_length(rescale(m0), rescale(m1), rescale(m2), spread.cwiseProduct(units).cwiseInverse());
+  const double b =
+      squarem_step_length(rescale(m0), rescale(m1), rescale(m2), spread.cwiseProduct(units).cwiseInverse());
   EXPECT_NEAR(a, b, 1e-12 * std::abs(a));
 }
 
