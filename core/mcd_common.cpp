@@ -319,6 +319,10 @@ bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, CStepWorkspace& w
 int c_steps_to_convergence(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, int max_steps, int threads) {
   CStepWorkspace w;
   w.threads = threads;
+  return c_steps_to_convergence(z, h, fit, max_steps, w);
+}
+
+int c_steps_to_convergence(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, int max_steps, CStepWorkspace& w) {
   int steps = 0;
   bool changed = false;
   while (steps < max_steps && !fit.singular) {

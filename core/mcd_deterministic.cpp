@@ -11,6 +11,7 @@
 
 #include "error.hpp"
 #include "mcd_fast.hpp"
+#include "parallel.hpp"
 #include "robust_scale.hpp"
 
 namespace ellipsa::core {
@@ -73,7 +74,7 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
 }
 
 std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk, ScaleWorkspace& workspace,
-                                                  StartBasis* ogk_basis, ColumnScale scale) {
+                                                  StartBasis* ogk_basis, ColumnScale scale, int threads) {
   const Index n = z.rows(), p = z.cols();
   std::vector<Eigen::MatrixXd> s;
   // 1. Correlation of the tanh-transformed data.
@@ -89,8 +90,9 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
   // pairs of its values coincide (differences of unequal doubles are never
   // 0); the tied pairs come with the ranks.
   const long long qn_h = n / 2 + 1, qn_k = qn_h * (qn_h - 1) / 2;
-  std::vector<bool> zero_qn(static_cast<std::size_t>(p));
-  for (Index j = 0; j < p; ++j) {
+  std::vector<char> zero_qn(static_cast<std::size_t>(p));
+  // One column per task (each writes its own column and flag).
+  parallel_for(threads, p, [&](Index j, int) {
     zero_qn[static_cast<std::size_t>(j)] = ranks(z.col(j), r.col(j)) >= qn_k;
     for (Index i = 0; i < n; ++i) {
       const double rk = r(i, j);
@@ -98,7 +100,7 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
       t(i, j) = rk == whole ? score[static_cast<std::size_t>(whole) - 1]
                             : boost::math::quantile(normal, (rk - 1.0 / 3.0) / (static_cast<double>(n) + 1.0 / 3.0));
     }
-  }
+  });
   s.push_back(correlation(r));
   s.push_back(correlation(t));
   // 4. Spatial-sign covariance around the spatial median.
@@ -125,24 +127,40 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
   // pairs (Qn), or when more than half its values equal its median (tau:
   // the MAD is 0; one O(n) evaluation tells).
   if (with_ogk) {
+    // p(p+1)/2 scale evaluations, each on n values and independent of the
+    // others: one entry of U per task, each thread with its own buffers.
     Eigen::MatrixXd u(p, p);
-    Eigen::VectorXd sum(n), diff(n);
-    for (Index j = 0; j < p; ++j) {
-      const bool zero = scale == ColumnScale::Qn ? zero_qn[static_cast<std::size_t>(j)]
-                                                 : !(column_scale(scale, z.col(j), workspace) > 0.0);
-      u(j, j) = zero ? 0.0 : 1.0;
-      for (Index k = 0; k < j; ++k) {
-        sum = z.col(j) + z.col(k);
-        diff = z.col(j) - z.col(k);
-        const double a = column_scale(scale, sum, workspace);
-        const double b = column_scale(scale, diff, workspace);
-        u(j, k) = u(k, j) = 0.25 * (a * a - b * b);
+    const Index entries = p * (p + 1) / 2;
+    const int workers = parallel_workers(threads, entries);
+    std::vector<ScaleWorkspace> more(static_cast<std::size_t>(std::max(workers - 1, 0)));
+    auto buffers_of = [&](int worker) -> ScaleWorkspace& {
+      return worker == 0 ? workspace : more[static_cast<std::size_t>(worker - 1)];
+    };
+    std::vector<Eigen::VectorXd> sums(static_cast<std::size_t>(workers)), diffs(static_cast<std::size_t>(workers));
+    parallel_for(threads, entries, [&](Index e, int worker) {
+      // Entry e of the lower triangle, row by row: (j, k) with k <= j.
+      Index j = 0;
+      while ((j + 1) * (j + 2) / 2 <= e) ++j;
+      const Index k = e - j * (j + 1) / 2;
+      ScaleWorkspace& ws = buffers_of(worker);
+      if (k == j) {
+        const bool zero = scale == ColumnScale::Qn ? zero_qn[static_cast<std::size_t>(j)] != 0
+                                                   : !(column_scale(scale, z.col(j), ws) > 0.0);
+        u(j, j) = zero ? 0.0 : 1.0;
+        return;
       }
-    }
+      Eigen::VectorXd& sum = sums[static_cast<std::size_t>(worker)];
+      Eigen::VectorXd& diff = diffs[static_cast<std::size_t>(worker)];
+      sum = z.col(j) + z.col(k);
+      diff = z.col(j) - z.col(k);
+      const double a = column_scale(scale, sum, ws);
+      const double b = column_scale(scale, diff, ws);
+      u(j, k) = u(k, j) = 0.25 * (a * a - b * b);
+    });
     Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(u);
     const Eigen::MatrixXd v = z * es.eigenvectors();
     Eigen::VectorXd root(p);
-    for (Index l = 0; l < p; ++l) root(l) = column_scale(scale, v.col(l), workspace);
+    parallel_for(threads, p, [&](Index l, int worker) { root(l) = column_scale(scale, v.col(l), buffers_of(worker)); });
     s.push_back(es.eigenvectors() * root.cwiseAbs2().asDiagonal() * es.eigenvectors().transpose());
     // Step 3 of DetMCD applied to this start would find the same eigenvectors
     // and the same projection scales again: hand them over instead.
@@ -219,19 +237,49 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   mcd_detail::report_progress(opt.progress, "starting estimates", 0.05);
   ScaleWorkspace workspace;  // one set of Qn buffers for all p(p+1)/2 + 6p scales
   mcd_detail::StartBasis ogk;
-  const std::vector<Eigen::MatrixXd> starts = mcd_detail::deterministic_starts(z, true, workspace, &ogk, scale);
+  const std::vector<Eigen::MatrixXd> starts =
+      mcd_detail::deterministic_starts(z, true, workspace, &ogk, scale, opt.threads);
   std::optional<mcd_detail::SubsetFit> best;
   int iterations = 0, usable = 0;
   const Index half = (n + 1) / 2;
-  for (std::size_t k = 0; k < starts.size(); ++k) {
+  const Index start_count = static_cast<Index>(starts.size());
+  // The starts run side by side, `threads` at a time (each start's C-steps on
+  // one thread: their result does not depend on it), and their outcomes are
+  // taken in the starts' fixed order, so the fit is the one-thread fit. The
+  // progress callback is asked between rounds, on the calling thread.
+  const int per_round = std::clamp(opt.threads, 1, static_cast<int>(start_count));
+  struct Outcome {
+    bool usable = false;  // distances defined (no projection of zero scale)
+    mcd_detail::SubsetFit fit;
+    int iterations = 0;
+  };
+  std::vector<Outcome> outcomes(starts.size());
+  std::vector<ScaleWorkspace> workspaces(static_cast<std::size_t>(per_round));
+  std::vector<mcd_detail::CStepWorkspace> c_step_work(static_cast<std::size_t>(per_round));  // threads 1 each
+  for (Index round = 0; round < start_count; round += per_round) {
     mcd_detail::report_progress(opt.progress, "C-steps",
-                                0.2 + 0.7 * static_cast<double>(k) / static_cast<double>(starts.size()));
-    // The last start is the OGK one, whose eigenbasis and scales are known.
-    const Eigen::VectorXd d2 = k + 1 == starts.size() ? mcd_detail::start_distances(z, ogk)
-                                                      : mcd_detail::start_distances(z, starts[k], workspace, scale);
-    if (d2.size() == 0) continue;
-    mcd_detail::SubsetFit f = mcd_detail::fit_subset(z, mcd_detail::smallest_h(d2, half, z));
-    if (!f.singular) iterations += mcd_detail::c_steps_to_convergence(z, h, f, opt.max_csteps, opt.threads);
+                                0.2 + 0.7 * static_cast<double>(round) / static_cast<double>(start_count));
+    const Index in_round = std::min<Index>(per_round, start_count - round);
+    parallel_for(per_round, in_round, [&](Index i, int worker) {
+      const Index k = round + i;
+      Outcome& o = outcomes[static_cast<std::size_t>(k)];
+      // The last start is the OGK one, whose eigenbasis and scales are known.
+      const Eigen::VectorXd d2 = k + 1 == start_count
+                                     ? mcd_detail::start_distances(z, ogk)
+                                     : mcd_detail::start_distances(z, starts[static_cast<std::size_t>(k)],
+                                                                   workspaces[static_cast<std::size_t>(worker)], scale);
+      if (d2.size() == 0) return;
+      o.usable = true;
+      o.fit = mcd_detail::fit_subset(z, mcd_detail::smallest_h(d2, half, z));
+      if (!o.fit.singular)
+        o.iterations = mcd_detail::c_steps_to_convergence(z, h, o.fit, opt.max_csteps,
+                                                          c_step_work[static_cast<std::size_t>(worker)]);
+    });
+  }
+  for (std::size_t k = 0; k < starts.size(); ++k) {
+    if (!outcomes[k].usable) continue;
+    mcd_detail::SubsetFit& f = outcomes[k].fit;
+    iterations += outcomes[k].iterations;
     if (f.singular) {
       const auto ex = mcd_detail::exact_fit_subset(z, z, f, h);
       if (ex) {

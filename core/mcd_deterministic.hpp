@@ -37,7 +37,9 @@ struct DetMcdOptions {
   // Scaling of the raw scatter (mcd_common.hpp): the normal-consistency factor or the median rule.
   RawConsistency raw_consistency = RawConsistency::NormalFactor;
   ProgressCallback progress;  // optional; false cancels
-  // Threads for the distances of the C-steps (parallel.hpp); the fit does not depend on it.
+  // Threads (parallel.hpp) for the starting estimates' rank columns and OGK
+  // scales and for the six starts, which run side by side; the fit does not
+  // depend on it.
   int threads = 1;
 };
 
@@ -68,8 +70,10 @@ struct StartBasis {
 // need not recompute it: start_distances(z, *ogk_basis)).
 // `scale` is the robust scale z was standardised with (ColumnScale::Qn or
 // ColumnScale::Tau; the short form above takes Qn).
+// `threads`: the rank columns and the OGK scales run on that many threads
+// (parallel.hpp; the result does not depend on it).
 std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk, ScaleWorkspace& workspace,
-                                                  StartBasis* ogk_basis, ColumnScale scale);
+                                                  StartBasis* ogk_basis, ColumnScale scale, int threads = 1);
 // Step 3 of DetMCD for one start: eigenvalues re-estimated as Qn^2 of the
 // projections on the eigenvectors of s; returns the squared distances of all
 // rows to the centre Sigma^{1/2} med(z Sigma^{-1/2}), or an empty vector when

@@ -224,8 +224,9 @@ static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_
  * How promptly a fit stops: the callback is not called again after it asked
  * to stop, and no further unit of work starts. The units between two calls
  * are at most: FAST-MCD (mcd) one random start with its two C-steps, or one
- * round of C-steps of the kept candidates (at most ten C-steps); DetMCD and
- * MRCD the C-steps of one starting estimate; mixtures one EM iteration
+ * round of C-steps of the kept candidates (at most ten C-steps); DetMCD the
+ * C-steps of one starting estimate per thread (its six starts run side by
+ * side); MRCD the C-steps of one starting estimate; mixtures one EM iteration
  * (after every second one, also the E-step of an acceleration jump) or the
  * k-means++ seeding of one restart. Each unit costs O(n p^2) (C-step)
  * or O(n K p^2) (EM iteration); the measured wall-clock latency is in
