@@ -10,7 +10,7 @@ namespace {
 
 // Squared Euclidean distance of every row of z to centre c, summed over the
 // columns in order. Column by column: z is column-major, and a row-wise
-// reduction strides across it (measured: a quarter of a five-start fit of
+// reduction strides across it (measured: a sixth of a five-start fit of
 // 1e5 x 10 with K = 8 went to this line when it was written row by row).
 void squared_distance_to(const Eigen::MatrixXd& z, const Eigen::RowVectorXd& c, Eigen::VectorXd& out) {
   out = (z.col(0).array() - c(0)).square().matrix();
