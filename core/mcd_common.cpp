@@ -74,19 +74,30 @@ double column_scale(ColumnScale kind, const Eigen::Ref<const Eigen::VectorXd>& x
   return mad_about(x.data(), x.size(), median_of(x.data(), x.size(), buf), dev, buf);
 }
 
-Standardised standardise(DataView x, ColumnScale kind) {
+Standardised standardise(DataView x, ColumnScale kind, int threads) {
   const Index n = x.rows(), p = x.cols();
   Standardised s;
   s.centre.resize(p);
   s.scale.resize(p);
   s.z.resize(n, p);
-  Eigen::VectorXd col;
-  std::vector<double> dev, buf;
-  ScaleWorkspace workspace;
-  for (Index j = 0; j < p; ++j) {
+  // One column per task, each with its own buffers; the first constant column
+  // and the first refused one are taken in column order afterwards (and
+  // parallel_for rethrows the lowest column's error), so nothing depends on
+  // the thread count.
+  struct Buffers {
+    Eigen::VectorXd col;
+    std::vector<double> dev, buf;
+    ScaleWorkspace workspace;
+  };
+  std::vector<Buffers> buffers(static_cast<std::size_t>(parallel_workers(threads, p)));
+  std::vector<char> constant(static_cast<std::size_t>(p), 0);
+  parallel_for(threads, p, [&](Index j, int worker) {
+    Buffers& b = buffers[static_cast<std::size_t>(worker)];
+    Eigen::VectorXd& col = b.col;
     col = x.col(j);
-    const double m = median_of(col.data(), n, buf);
-    double sc = kind == ColumnScale::Mad ? mad_about(col.data(), n, m, dev, buf) : column_scale(kind, col, workspace);
+    const double m = median_of(col.data(), n, b.buf);
+    double sc =
+        kind == ColumnScale::Mad ? mad_about(col.data(), n, m, b.dev, b.buf) : column_scale(kind, col, b.workspace);
     if (!(sc > 0.0)) {
       // More than half the values coincide: fall back to the standard deviation
       // (the C-steps then find the exact fit if h rows share that value).
@@ -94,7 +105,7 @@ Standardised standardise(DataView x, ColumnScale kind) {
     }
     if (!(sc > 0.0)) {
       sc = 1.0;
-      if (s.constant_column < 0) s.constant_column = j;
+      constant[static_cast<std::size_t>(j)] = 1;
     }
     s.centre(j) = m;
     s.scale(j) = sc;
@@ -106,7 +117,9 @@ Standardised standardise(DataView x, ColumnScale kind) {
     if (!std::isfinite(sc) || !s.z.col(j).allFinite())
       throw LocatedError(ErrorKind::Data, "robust standardisation", -1, j,
                          "has values whose spread overflows double precision; rescale the data");
-  }
+  });
+  for (Index j = 0; j < p && s.constant_column < 0; ++j)
+    if (constant[static_cast<std::size_t>(j)]) s.constant_column = j;
   return s;
 }
 

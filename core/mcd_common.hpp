@@ -160,7 +160,9 @@ struct Standardised {
   Eigen::VectorXd centre, scale;
   Index constant_column = -1;  // a column with one value only (all rows on x_j = c)
 };
-Standardised standardise(DataView x, ColumnScale kind);
+// `threads`: columns on that many threads (parallel.hpp); the result does not
+// depend on it.
+Standardised standardise(DataView x, ColumnScale kind, int threads = 1);
 
 // Mean and covariance (divisor = subset size) of a subset of rows.
 struct SubsetFit {

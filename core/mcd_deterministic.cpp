@@ -218,7 +218,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   // Qn up to opt.qn_max_rows rows, the O(n) tau scale beyond (mcd_deterministic.hpp).
   const mcd_detail::ColumnScale scale =
       n <= opt.qn_max_rows ? mcd_detail::ColumnScale::Qn : mcd_detail::ColumnScale::Tau;
-  const mcd_detail::Standardised st = mcd_detail::standardise(x, scale);
+  const mcd_detail::Standardised st = mcd_detail::standardise(x, scale, opt.threads);
   if (st.constant_column >= 0) return mcd_detail::constant_column_result(x, st, h);
   const Eigen::MatrixXd& z = st.z;
 

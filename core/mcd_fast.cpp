@@ -259,7 +259,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   if (p == 1) return univariate_mcd(x, opt.alpha, rule);
   const Index h = mcd_subset_size(n, p, opt.alpha);
   mcd_detail::report_progress(opt.progress, "standardise", 0.0);
-  const mcd_detail::Standardised st = mcd_detail::standardise(x, mcd_detail::ColumnScale::Mad);
+  const mcd_detail::Standardised st = mcd_detail::standardise(x, mcd_detail::ColumnScale::Mad, opt.threads);
   if (st.constant_column >= 0) return mcd_detail::constant_column_result(x, st, h);
 
   std::vector<Index> all(static_cast<std::size_t>(n));
