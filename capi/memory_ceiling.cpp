@@ -101,7 +101,8 @@ int64_t fit_memory_estimate(const ellipsa_fit_options& o, int64_t n, int64_t p) 
     case ELLIPSA_METHOD_MIXTURE:
     default: {
       // Per candidate K (the largest dominates; the best start is kept
-      // besides the running one): responsibilities, posteriors and
+      // besides the running one): responsibilities, each run's buffer for
+      // the responsibilities of an acceleration jump, posteriors and
       // log-densities (8 n K), means, covariances and their factors
       // (8 K p^2 + 4 K p), the data copy and k-means++ seeding (2 n p).
       // EM over missing values adds the imputed copy and the pattern lists
