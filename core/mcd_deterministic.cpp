@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <boost/math/distributions/normal.hpp>
 #include <cmath>
+#include <exception>
 #include <numeric>
 #include <optional>
 #include <utility>
@@ -252,6 +253,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
     bool usable = false;  // distances defined (no projection of zero scale)
     mcd_detail::SubsetFit fit;
     int iterations = 0;
+    std::exception_ptr error;  // what the start threw, raised when its turn comes
   };
   std::vector<Outcome> outcomes(starts.size());
   std::vector<ScaleWorkspace> workspaces(static_cast<std::size_t>(per_round));
@@ -263,36 +265,44 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
     parallel_for(per_round, in_round, [&](Index i, int worker) {
       const Index k = round + i;
       Outcome& o = outcomes[static_cast<std::size_t>(k)];
-      // The last start is the OGK one, whose eigenbasis and scales are known.
-      const Eigen::VectorXd d2 = k + 1 == start_count
-                                     ? mcd_detail::start_distances(z, ogk)
-                                     : mcd_detail::start_distances(z, starts[static_cast<std::size_t>(k)],
-                                                                   workspaces[static_cast<std::size_t>(worker)], scale);
-      if (d2.size() == 0) return;
-      o.usable = true;
-      o.fit = mcd_detail::fit_subset(z, mcd_detail::smallest_h(d2, half, z));
-      if (!o.fit.singular)
-        o.iterations = mcd_detail::c_steps_to_convergence(z, h, o.fit, opt.max_csteps,
-                                                          c_step_work[static_cast<std::size_t>(worker)]);
-    });
-  }
-  for (std::size_t k = 0; k < starts.size(); ++k) {
-    if (!outcomes[k].usable) continue;
-    mcd_detail::SubsetFit& f = outcomes[k].fit;
-    iterations += outcomes[k].iterations;
-    if (f.singular) {
-      const auto ex = mcd_detail::exact_fit_subset(z, z, f, h);
-      if (ex) {
-        RobustFit r = mcd_detail::exact_fit_result(x, st, *ex, h);
-        r.iterations = iterations;
-        r.starts = usable + 1;
-        return r;
+      try {
+        // The last start is the OGK one, whose eigenbasis and scales are known.
+        const Eigen::VectorXd d2 =
+            k + 1 == start_count ? mcd_detail::start_distances(z, ogk)
+                                 : mcd_detail::start_distances(z, starts[static_cast<std::size_t>(k)],
+                                                               workspaces[static_cast<std::size_t>(worker)], scale);
+        if (d2.size() == 0) return;
+        o.usable = true;
+        o.fit = mcd_detail::fit_subset(z, mcd_detail::smallest_h(d2, half, z));
+        if (!o.fit.singular)
+          o.iterations = mcd_detail::c_steps_to_convergence(z, h, o.fit, opt.max_csteps,
+                                                            c_step_work[static_cast<std::size_t>(worker)]);
+      } catch (...) {
+        o.error = std::current_exception();
       }
-      continue;
+    });
+    // The round's outcomes in the starts' order, as one thread would meet
+    // them: an exact fit returns before any later start's error or round.
+    for (Index k = round; k < round + in_round; ++k) {
+      Outcome& o = outcomes[static_cast<std::size_t>(k)];
+      if (o.error) std::rethrow_exception(o.error);
+      if (!o.usable) continue;
+      mcd_detail::SubsetFit& f = o.fit;
+      iterations += o.iterations;
+      if (f.singular) {
+        const auto ex = mcd_detail::exact_fit_subset(z, z, f, h);
+        if (ex) {
+          RobustFit r = mcd_detail::exact_fit_result(x, st, *ex, h);
+          r.iterations = iterations;
+          r.starts = usable + 1;
+          return r;
+        }
+        continue;
+      }
+      ++usable;
+      // Strictly lower only: on a tie the earlier start (fixed order) wins.
+      if (!best || f.log_det < best->log_det) best = std::move(f);
     }
-    ++usable;
-    // Strictly lower only: on a tie the earlier start (fixed order) wins.
-    if (!best || f.log_det < best->log_det) best = std::move(f);
   }
   if (!best) throw Error(ErrorKind::Data, "DetMCD: no starting estimate gave a nonsingular subset");
   mcd_detail::report_progress(opt.progress, "reweighting", 0.95);

@@ -10,8 +10,9 @@
 //   theta' = theta0 - 2 alpha r + alpha^2 v,  alpha = -|r| / |v|   (their "S3")
 // which is theta2 at alpha = -1 and goes further along the slow direction for
 // alpha < -1. The EM driver accepts theta' only when it is a valid model and
-// its log-likelihood is at least theta2's, so the sequence stays monotone like
-// EM's, and the model it returns always comes from an M-step.
+// its log-likelihood is at least theta2's, so a jump never lowers it (the
+// next M-step restores the ridge a jump's covariances may have lost), and the
+// model it returns always comes from an M-step.
 //
 // The steps and the bound on |alpha| (starting at 1 and multiplied by 4 each
 // time it binds, divided by 4 after a rejected jump) are the paper's scheme

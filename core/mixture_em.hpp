@@ -58,13 +58,17 @@ struct MixtureOptions {
   // tolerance: the em-EM strategy of Biernacki, Celeux & Govaert (2003).
   int restarts = 3;
   int max_iterations = 500;  // EM iterations per start
-  double tolerance = 1e-8;   // stop when |L_t - L_(t-1)| <= tolerance * |L_t|
+  // Stop when |L_t - L_(t-1)| <= tolerance * |L_t|, L_(t-1) being the
+  // log-likelihood of the model iteration t started from: the previous
+  // iteration's, or an accepted acceleration jump's (which is not in the trace).
+  double tolerance = 1e-8;
   // A short run stops when |L_t - L_(t-1)| <= short_run_tolerance * |L_t - L_0|
   // (L_0: after the run's first iteration), or at the tolerance above.
   double short_run_tolerance = 3e-3;
   // SQUAREM (Varadhan & Roland 2008) between EM iterations: the same kind of
   // optimum in far fewer iterations when EM crawls (a component more than the
-  // data hold), monotone log-likelihood kept (mixture_acceleration.hpp).
+  // data hold); a jump is kept only when its log-likelihood is no lower than
+  // the iteration before it (mixture_acceleration.hpp).
   // false: plain EM.
   bool accelerate = true;
   // reg: after each M-step, reg * (the variance of column j over the data) is

@@ -350,7 +350,7 @@ typedef int32_t ellipsa_method;
 #define ELLIPSA_METHOD_MCD 4         /**< FAST-MCD, Rousseeuw & Van Driessen (1999) ("mcd"). */
 #define ELLIPSA_METHOD_DETMCD 5      /**< Deterministic MCD, Hubert et al. (2012) ("detmcd"); its robust scale is Qn up to 10000 rows, the O(n) tau scale (Yohai & Zamar 1988) beyond. */
 #define ELLIPSA_METHOD_MRCD 6        /**< Regularised MCD, Boudt et al. (2020) ("mrcd"). */
-#define ELLIPSA_METHOD_MIXTURE 7     /**< Gaussian mixture by EM ("mixture"), accelerated by SQUAREM (Varadhan & Roland 2008) with a monotone log-likelihood; see ellipsa_fit_options_set_restarts() for how the starts compete. */
+#define ELLIPSA_METHOD_MIXTURE 7     /**< Gaussian mixture by EM ("mixture"), accelerated by SQUAREM (Varadhan & Roland 2008), a jump kept only when it does not lower the log-likelihood; see ellipsa_fit_options_set_restarts() for how the starts compete. */
 
 /** Divisor of a classical covariance. */
 #define ELLIPSA_DIVISOR_N 1          /**< Divide by n: the maximum-likelihood estimate. */
