@@ -89,7 +89,13 @@ Standardised standardise(DataView x, ColumnScale kind, int threads) {
     std::vector<double> dev, buf;
     ScaleWorkspace workspace;
   };
+  // Sized here, on the calling thread, not in the tasks (CStepWorkspace::reserve says why).
   std::vector<Buffers> buffers(static_cast<std::size_t>(parallel_workers(threads, p)));
+  for (Buffers& b : buffers) {
+    b.col.resize(n);
+    b.dev.reserve(static_cast<std::size_t>(n));
+    b.buf.reserve(static_cast<std::size_t>(n) + 2048);  // order_statistics' copy and sample
+  }
   std::vector<char> constant(static_cast<std::size_t>(p), 0);
   parallel_for(threads, p, [&](Index j, int worker) {
     Buffers& b = buffers[static_cast<std::size_t>(worker)];
@@ -236,6 +242,19 @@ bool update_fit(const Eigen::MatrixXd& z, const SubsetFit& old, SubsetFit& f, CS
   return true;
 }
 
+void CStepWorkspace::reserve(Index n, Index p) {
+  constexpr Index kChunk = 1024;      // subset_distances' chunk
+  constexpr Index kSelectPad = 2048;  // order_statistics' sample, kept after the copy
+  if (d2.size() != n) d2.resize(n);
+  select.reserve(static_cast<std::size_t>(n + kSelectPad));
+  below.reserve(static_cast<std::size_t>(n) + 1);
+  rows.reserve(static_cast<std::size_t>(n));
+  const std::size_t slots = static_cast<std::size_t>(std::max(1, threads));
+  if (worker_y.size() < slots) worker_y.resize(slots);
+  for (auto& y : worker_y)
+    if (y.rows() < std::min(kChunk, n) || y.cols() != p) y.resize(std::min(kChunk, n), p);
+}
+
 void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, CStepWorkspace& w) {
   const Index n = z.rows(), p = z.cols();
   constexpr Index kChunk = 1024;  // rows; a chunk of y stays in cache
@@ -245,9 +264,10 @@ void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, CStepWorks
   // Fixed chunks of rows, each row's distance from its own row only: the same
   // values on any number of threads.
   const Index chunks = chunk_count(n, kChunk);
-  const int workers = parallel_workers(w.threads, chunks);
+  const int threads = chunks >= kMinChunksForThreads ? w.threads : 1;
+  const int workers = parallel_workers(threads, chunks);
   if (static_cast<int>(w.worker_y.size()) < workers) w.worker_y.resize(static_cast<std::size_t>(workers));
-  parallel_for(w.threads, chunks, [&](Index c, int worker) {
+  parallel_for(threads, chunks, [&](Index c, int worker) {
     const Index s = c * kChunk;
     const Index m = std::min(kChunk, n - s);
     Eigen::MatrixXd& buffer = w.worker_y[static_cast<std::size_t>(worker)];
@@ -374,19 +394,32 @@ Eigen::MatrixXd scale_both_sides(const Eigen::MatrixXd& m, const Eigen::VectorXd
 // several times faster than triangular solves with n right-hand sides; the
 // inverse of a well-conditioned triangular factor (the data are standardised)
 // costs no accuracy that matters for flags at a chi-square cutoff.
-Eigen::VectorXd centred_distances(const Eigen::MatrixXd& z, const Eigen::VectorXd& centre, const CholeskyFactor& chol) {
+// Fixed chunks of rows, each row's distance from its own row only: the same
+// values on any number of threads.
+Eigen::VectorXd centred_distances(const Eigen::MatrixXd& z, const Eigen::VectorXd& centre, const CholeskyFactor& chol,
+                                  int threads) {
   const Index n = z.rows(), p = z.cols();
   const Eigen::MatrixXd linv_t =
       chol.lower().triangularView<Eigen::Lower>().solve(Eigen::MatrixXd::Identity(p, p)).transpose();
   constexpr Index kChunk = 1024;
   Eigen::VectorXd d2(n);
-  Eigen::MatrixXd c(std::min(kChunk, n), p), y(std::min(kChunk, n), p);
-  for (Index s = 0; s < n; s += kChunk) {
-    const Index m = std::min(kChunk, n - s);
-    c.topRows(m) = z.middleRows(s, m).rowwise() - centre.transpose();
-    y.topRows(m).noalias() = c.topRows(m) * linv_t;
-    d2.segment(s, m) = y.topRows(m).rowwise().squaredNorm();
+  const Index chunks = chunk_count(n, kChunk);
+  if (chunks < kMinChunksForThreads) threads = 1;
+  struct Buffers {
+    Eigen::MatrixXd c, y;
+  };
+  std::vector<Buffers> buffers(static_cast<std::size_t>(parallel_workers(threads, chunks)));
+  for (Buffers& b : buffers) {  // on the calling thread (CStepWorkspace::reserve says why)
+    b.c.resize(std::min(kChunk, n), p);
+    b.y.resize(std::min(kChunk, n), p);
   }
+  parallel_for(threads, chunks, [&](Index chunk, int worker) {
+    const Index s = chunk * kChunk, m = std::min(kChunk, n - s);
+    Buffers& b = buffers[static_cast<std::size_t>(worker)];
+    b.c.topRows(m) = z.middleRows(s, m).rowwise() - centre.transpose();
+    b.y.topRows(m).noalias() = b.c.topRows(m) * linv_t;
+    d2.segment(s, m) = b.y.topRows(m).rowwise().squaredNorm();
+  });
   return d2;
 }
 
@@ -406,7 +439,8 @@ std::optional<ReweightedEstimate> reweighted_estimate(const MomentAccumulator& k
 
 namespace mcd_detail {
 
-RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h, const FinishRule& rule) {
+RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h, const FinishRule& rule,
+                     int threads) {
   const Index n = x.rows(), p = x.cols();
   const double level = rule.level;
   RobustFit r;
@@ -428,7 +462,7 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
     CholeskyFactor unscaled;
     if (!unscaled.compute(best.cov))
       throw Error(ErrorKind::Singular, "MCD: raw scatter is not positive definite (internal error)");
-    unscaled_d2 = centred_distances(s.z, best.mean, unscaled);
+    unscaled_d2 = centred_distances(s.z, best.mean, unscaled, threads);
     std::vector<double> buf;
     const double med = median_of(unscaled_d2.data(), n, buf);
     if (!(med > 0.0))
@@ -449,7 +483,7 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
     CholeskyFactor raw_chol;
     if (!raw_chol.compute(raw_factor * best.cov))
       throw Error(ErrorKind::Singular, "MCD: raw scatter is not positive definite (internal error)");
-    r.raw_d2 = centred_distances(s.z, best.mean, raw_chol);
+    r.raw_d2 = centred_distances(s.z, best.mean, raw_chol, threads);
   }
   r.raw_location = s.centre + s.scale.cwiseProduct(best.mean);
   r.raw_scatter = raw_factor * scale_both_sides(best.cov, s.scale);
@@ -463,12 +497,13 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
     w(i) = out ? 0.0 : 1.0;
   }
   MomentAccumulator acc(p);
+  acc.set_threads(threads);
   acc.add(zv, w);
   if (auto est = reweighted_estimate(acc, r.reweight_factor * rule.small_sample.reweighted)) {
     r.reweighted = true;
     r.location = s.centre + s.scale.cwiseProduct(est->mean);
     r.scatter = scale_both_sides(est->scatter, s.scale);
-    r.robust_d2 = centred_distances(s.z, est->mean, est->factor);
+    r.robust_d2 = centred_distances(s.z, est->mean, est->factor, threads);
   }
   if (!r.reweighted) {
     r.location = r.raw_location;

@@ -210,6 +210,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   if (opt.max_csteps < 1) throw Error(ErrorKind::Argument, "DetMCD: max_csteps must be positive");
   mcd_detail::check_input(x, opt.alpha, true, "DetMCD");
   const Index n = x.rows(), p = x.cols();
+  const TeamScope team(opt.threads);  // the fit's loops share one team of threads (parallel.hpp)
   const mcd_detail::FinishRule rule{opt.reweight_level,
                                     small_sample_factors(McdFamily::Deterministic, opt.small_sample, n, p, opt.alpha),
                                     opt.raw_consistency};
@@ -232,7 +233,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
       const auto ex = mcd_detail::exact_fit_subset(z, z, whole, h);
       if (ex) return mcd_detail::exact_fit_result(x, st, *ex, h);
     }
-    if (h == n) return mcd_detail::finish_fit(x, st, whole, h, rule);
+    if (h == n) return mcd_detail::finish_fit(x, st, whole, h, rule, opt.threads);
   }
 
   mcd_detail::report_progress(opt.progress, "starting estimates", 0.05);
@@ -258,6 +259,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   std::vector<Outcome> outcomes(starts.size());
   std::vector<ScaleWorkspace> workspaces(static_cast<std::size_t>(per_round));
   std::vector<mcd_detail::CStepWorkspace> c_step_work(static_cast<std::size_t>(per_round));  // threads 1 each
+  for (auto& w : c_step_work) w.reserve(n, p);  // on this thread (CStepWorkspace::reserve says why)
   for (Index round = 0; round < start_count; round += per_round) {
     mcd_detail::report_progress(opt.progress, "C-steps",
                                 0.2 + 0.7 * static_cast<double>(round) / static_cast<double>(start_count));
@@ -306,7 +308,7 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   }
   if (!best) throw Error(ErrorKind::Data, "DetMCD: no starting estimate gave a nonsingular subset");
   mcd_detail::report_progress(opt.progress, "reweighting", 0.95);
-  RobustFit r = mcd_detail::finish_fit(x, st, *best, h, rule);
+  RobustFit r = mcd_detail::finish_fit(x, st, *best, h, rule, opt.threads);
   r.iterations = iterations;
   r.starts = usable;
   mcd_detail::report_progress(opt.progress, "done", 1.0);

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <exception>
 #include <limits>
 #include <numeric>
 #include <optional>
@@ -9,6 +10,7 @@
 #include <utility>
 
 #include "error.hpp"
+#include "parallel.hpp"
 #include "portable_random.hpp"
 
 namespace ellipsa::core {
@@ -45,6 +47,9 @@ void keep_best(std::vector<Candidate>& c, int keep) {
 
 // The search state shared by the stages.
 struct Search {
+  Search(const Eigen::MatrixXd& z_, Index h_, const FastMcdOptions& opt_) : z(z_), h(h_), opt(opt_), rng(opt_.seed) {
+    work.threads = opt_.threads;
+  }
   const Eigen::MatrixXd& z;  // standardised full data
   Index h;
   const FastMcdOptions& opt;
@@ -52,14 +57,28 @@ struct Search {
   int iterations = 0;
   int starts = 0;
   std::optional<SubsetFit> exact;   // set once an exact fit of the full data is found
-  mcd_detail::CStepWorkspace work;  // buffers for every C-step of this fit
+  mcd_detail::CStepWorkspace work;  // buffers for every C-step of this fit on the calling thread
+  // One scratch per worker thread for starts and candidates run side by side.
+  std::vector<mcd_detail::CStepWorkspace> worker_work;
+  std::uint64_t drawn = 0;  // starts drawn so far (each one's index among all starts)
+
+  // Worker k's scratch for C-steps on `rows` x p, sized on the calling thread.
+  mcd_detail::CStepWorkspace& worker(int k, int threads_inside, Index rows) {
+    if (worker_work.size() <= static_cast<std::size_t>(k)) worker_work.resize(static_cast<std::size_t>(k) + 1);
+    mcd_detail::CStepWorkspace& w = worker_work[static_cast<std::size_t>(k)];
+    w.threads = threads_inside;
+    w.reserve(rows, z.cols());
+    return w;
+  }
 };
 
 // The part of the progress range [from, to] a stage reports in. The callback
-// is asked before every start and before every round of C-steps, so that a
-// request to stop is seen after at most one start (a random subset and
-// initial_csteps C-steps) or one round (at most best_kept C-steps): the bound
-// that tests/core/test_mcd_fast.cpp checks and ellipsa.h states.
+// is asked before every round of starts and before every round of C-steps, so
+// that a request to stop is seen after at most one round of starts (one start
+// on one thread; kFastMcdStartsPerThread per thread otherwise: a random subset and
+// initial_csteps C-steps each) or one round of C-steps (at most best_kept
+// C-steps): the bound that tests/core/test_mcd_fast.cpp checks and ellipsa.h
+// states.
 struct Span {
   const char* stage;
   double from, to;
@@ -72,53 +91,117 @@ void note_singular(Search& s, const Eigen::MatrixXd& z_stage, const SubsetFit& f
   if (!s.exact) s.exact = mcd_detail::exact_fit_subset(s.z, z_stage, fit, s.h);
 }
 
-// Random (p+1)-subset of the stage rows, grown by random rows while singular
-// (Rousseeuw & Van Driessen 1999, step 1 of a start).
-std::optional<SubsetFit> random_start(Search& s, const Eigen::MatrixXd& zs, Index hs) {
-  const Index ns = zs.rows(), p = zs.cols();
+// A random (p+1)-subset of the stage's ns rows from the fit's stream, in start
+// order (Rousseeuw & Van Driessen 1999, step 1 of a start).
+std::vector<Index> draw_start(Search& s, Index ns, Index p, std::vector<char>& used) {
   std::vector<Index> rows;
-  std::vector<char> used(static_cast<std::size_t>(ns), 0);
-  auto add_random_row = [&]() {
+  used.assign(static_cast<std::size_t>(ns), 0);
+  for (Index k = 0; k <= p; ++k) {
     Index r;
     do r = static_cast<Index>(s.rng.below(static_cast<std::uint64_t>(ns)));
     while (used[static_cast<std::size_t>(r)]);
     used[static_cast<std::size_t>(r)] = 1;
     rows.push_back(r);
-  };
-  for (Index k = 0; k <= p; ++k) add_random_row();
+  }
+  return rows;
+}
+
+// A stream of its own for a start whose subset must grow, so that the draws
+// of the later starts (taken in order beforehand) do not depend on it: seeded
+// from the fit's seed and the start's index (splitmix64 finaliser, Steele,
+// Lea & Flood 2014).
+PortableRandom growth_stream(std::uint64_t seed, std::uint64_t start) {
+  std::uint64_t v = seed + 0x9e3779b97f4a7c15ULL * (start + 1);
+  v = (v ^ (v >> 30)) * 0xbf58476d1ce4e5b9ULL;
+  v = (v ^ (v >> 27)) * 0x94d049bb133111ebULL;
+  return PortableRandom(v ^ (v >> 31));
+}
+
+// What one start came to: its fit after its C-steps (singular: lost, or an
+// exact fit to check in order), the C-steps taken, or the error it raised.
+struct StartOutcome {
+  SubsetFit fit;
+  int csteps = 0;
+  std::exception_ptr error;
+};
+
+// One start on the stage rows zs: the drawn rows, grown by random rows while
+// singular, then initial_csteps C-steps with hs. Touches nothing shared.
+StartOutcome run_start(const Eigen::MatrixXd& zs, Index hs, std::vector<Index> rows, PortableRandom growth, int csteps,
+                       mcd_detail::CStepWorkspace& work) {
+  StartOutcome out;
+  const Index ns = zs.rows();
+  std::vector<char> used;
   for (;;) {
     std::vector<Index> sorted = rows;
     std::sort(sorted.begin(), sorted.end());
-    SubsetFit f = mcd_detail::fit_subset(zs, std::move(sorted));
-    if (!f.singular) return f;
-    if (static_cast<Index>(rows.size()) >= hs) {
-      note_singular(s, zs, f);
-      return std::nullopt;
+    out.fit = mcd_detail::fit_subset(zs, std::move(sorted));
+    if (!out.fit.singular || static_cast<Index>(rows.size()) >= hs) break;
+    if (used.empty()) {
+      used.assign(static_cast<std::size_t>(ns), 0);
+      for (Index r : rows) used[static_cast<std::size_t>(r)] = 1;
     }
-    add_random_row();
+    Index r;
+    do r = static_cast<Index>(growth.below(static_cast<std::uint64_t>(ns)));
+    while (used[static_cast<std::size_t>(r)]);
+    used[static_cast<std::size_t>(r)] = 1;
+    rows.push_back(r);
   }
+  for (int step = 0; step < csteps && !out.fit.singular; ++step) {
+    ++out.csteps;
+    if (!mcd_detail::c_step(zs, hs, out.fit, work)) break;
+  }
+  return out;
 }
 
 // Starts inside one stage (the full data or a group): each start gets
-// `initial_csteps` C-steps with hs; the best `best_kept` survive.
+// `initial_csteps` C-steps with hs; the best `best_kept` survive. The starts
+// of a round run side by side; their outcomes are taken in start order, as one
+// thread meets them, so an exact fit ends the stage before any later start's
+// outcome or error counts, and the result does not depend on the threads.
 std::vector<Candidate> run_starts(Search& s, const Eigen::MatrixXd& zs, Index hs, int n_starts, int& order,
                                   const Span& span) {
+  const int threads = std::clamp(s.opt.threads, 1, kMaxThreads);
+  const int per_round = threads == 1 ? 1 : threads * kFastMcdStartsPerThread;
   std::vector<Candidate> out;
-  for (int k = 0; k < n_starts && !s.exact; ++k) {
-    mcd_detail::report_progress(s.opt.progress, span.stage, span.at(static_cast<double>(k) / n_starts));
-    std::optional<SubsetFit> f = random_start(s, zs, hs);
-    ++s.starts;
-    if (!f) continue;
-    for (int step = 0; step < s.opt.initial_csteps && !f->singular; ++step) {
-      ++s.iterations;
-      if (!mcd_detail::c_step(zs, hs, *f, s.work)) break;
+  std::vector<char> used;
+  std::vector<std::vector<Index>> drawn;
+  std::vector<std::uint64_t> index;
+  std::vector<StartOutcome> outcomes;
+  for (int k0 = 0; k0 < n_starts && !s.exact; k0 += per_round) {
+    mcd_detail::report_progress(s.opt.progress, span.stage, span.at(static_cast<double>(k0) / n_starts));
+    const int in_round = std::min(per_round, n_starts - k0);
+    drawn.clear();
+    index.clear();
+    for (int i = 0; i < in_round; ++i) {
+      drawn.push_back(draw_start(s, zs.rows(), zs.cols(), used));
+      index.push_back(s.drawn++);
     }
-    if (f->singular) {
-      note_singular(s, zs, *f);
-      continue;
+    outcomes.assign(static_cast<std::size_t>(in_round), StartOutcome{});
+    const int workers = parallel_workers(threads, in_round);
+    for (int w = 0; w < workers; ++w) s.worker(w, 1, zs.rows());
+    parallel_for(threads, in_round, [&](Index i, int worker) {
+      const auto k = static_cast<std::size_t>(i);
+      mcd_detail::CStepWorkspace& work = workers == 1 ? s.work : s.worker_work[static_cast<std::size_t>(worker)];
+      try {
+        outcomes[k] =
+            run_start(zs, hs, std::move(drawn[k]), growth_stream(s.opt.seed, index[k]), s.opt.initial_csteps, work);
+      } catch (...) {
+        outcomes[k].error = std::current_exception();
+      }
+    });
+    for (int i = 0; i < in_round && !s.exact; ++i) {
+      StartOutcome& o = outcomes[static_cast<std::size_t>(i)];
+      ++s.starts;
+      if (o.error) std::rethrow_exception(o.error);
+      s.iterations += o.csteps;
+      if (o.fit.singular) {
+        note_singular(s, zs, o.fit);
+        continue;
+      }
+      out.push_back({std::move(o.fit), order++});
+      if (static_cast<int>(out.size()) >= 4 * s.opt.best_kept) keep_best(out, s.opt.best_kept);
     }
-    out.push_back({std::move(*f), order++});
-    if (static_cast<int>(out.size()) >= 4 * s.opt.best_kept) keep_best(out, s.opt.best_kept);
   }
   keep_best(out, s.opt.best_kept);
   return out;
@@ -129,6 +212,9 @@ std::vector<Candidate> run_starts(Search& s, const Eigen::MatrixXd& zs, Index hs
 // convergence when steps < 0. from_other_stage: the fits were computed on other
 // rows (a group or the pool), so their subsets and determinants do not compare
 // with this stage's; only their mean and scatter are used as the start.
+// The live candidates of a round run side by side, each on its own scratch
+// (the threads left over go to each one's distances); their outcomes are taken
+// in candidate order, as on one thread.
 void refine(Search& s, const Eigen::MatrixXd& zs, Index hs, std::vector<Candidate>& c, int steps, bool from_other_stage,
             const Span& span) {
   const double inf = std::numeric_limits<double>::infinity();
@@ -137,21 +223,51 @@ void refine(Search& s, const Eigen::MatrixXd& zs, Index hs, std::vector<Candidat
       cand.fit.rows.clear();
       cand.fit.log_det = inf;
     }
+  const int threads = std::clamp(s.opt.threads, 1, kMaxThreads);
   const int cap = steps < 0 ? s.opt.max_csteps : steps;
-  std::vector<char> done(c.size(), 0), dropped(c.size(), 0);
+  std::vector<char> done(c.size(), 0), dropped(c.size(), 0), changed(c.size(), 0);
+  std::vector<std::exception_ptr> error(c.size());
+  std::vector<std::size_t> live;
   for (int step = 0; step < cap && !s.exact; ++step) {
     mcd_detail::report_progress(s.opt.progress, span.stage, span.at(static_cast<double>(step) / cap));
+    live.clear();
+    for (std::size_t k = 0; k < c.size(); ++k)
+      if (!done[k]) live.push_back(k);
+    const auto count = static_cast<Index>(live.size());
+    if (threads == 1 || count <= 1) {
+      s.work.reserve(zs.rows(), zs.cols());
+      for (std::size_t k : live) {
+        changed[k] = 0;
+        try {
+          changed[k] = mcd_detail::c_step(zs, hs, c[k].fit, s.work);
+        } catch (...) {
+          error[k] = std::current_exception();
+        }
+      }
+    } else {
+      const int workers = parallel_workers(threads, count);
+      const int inside = std::max(1, threads / static_cast<int>(count));
+      for (int w = 0; w < workers; ++w) s.worker(w, inside, zs.rows());
+      parallel_for(threads, count, [&](Index i, int worker) {
+        const std::size_t k = live[static_cast<std::size_t>(i)];
+        changed[k] = 0;
+        try {
+          changed[k] = mcd_detail::c_step(zs, hs, c[k].fit, s.worker_work[static_cast<std::size_t>(worker)]);
+        } catch (...) {
+          error[k] = std::current_exception();
+        }
+      });
+    }
     bool all_done = true;
-    for (std::size_t k = 0; k < c.size(); ++k) {
-      if (done[k]) continue;
+    for (std::size_t k : live) {
       ++s.iterations;
-      const bool changed = mcd_detail::c_step(zs, hs, c[k].fit, s.work);
+      if (error[k]) std::rethrow_exception(error[k]);
       if (c[k].fit.singular) {
         note_singular(s, zs, c[k].fit);
         done[k] = dropped[k] = 1;
         continue;
       }
-      if (!changed) done[k] = 1;
+      if (!changed[k]) done[k] = 1;
       all_done = all_done && done[k];
     }
     // Merge candidates that now hold the same subset.
@@ -253,6 +369,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   check_options(opt);
   mcd_detail::check_input(x, opt.alpha, true, "FAST-MCD");
   const Index n = x.rows(), p = x.cols();
+  const TeamScope team(opt.threads);  // the fit's loops share one team of threads (parallel.hpp)
   const mcd_detail::FinishRule rule{opt.reweight_level,
                                     small_sample_factors(McdFamily::Fast, opt.small_sample, n, p, opt.alpha),
                                     opt.raw_consistency};
@@ -269,8 +386,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
     return f.singular ? mcd_detail::exact_fit_result(x, st, f, h) : mcd_detail::finish_fit(x, st, f, h, rule);
   }
 
-  Search s{st.z, h, opt, PortableRandom(opt.seed), 0, 0, std::nullopt, {}};
-  s.work.threads = opt.threads;
+  Search s(st.z, h, opt);
   std::vector<Candidate> cands;
   int order = 0;
   if (n <= opt.nested_threshold) {
@@ -326,7 +442,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   } else if (cands.empty()) {
     throw Error(ErrorKind::Data, "FAST-MCD: no start gave a nonsingular subset (internal error)");
   } else {
-    r = mcd_detail::finish_fit(x, st, cands.front().fit, h, rule);
+    r = mcd_detail::finish_fit(x, st, cands.front().fit, h, rule, opt.threads);
   }
   r.iterations = s.iterations;
   r.starts = s.starts;

@@ -452,13 +452,17 @@ std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd&
   };
   const Index chunk_total = chunk_count(n, kChunkRows);
   std::vector<ChunkSums> parts(static_cast<std::size_t>(chunk_total));
+  // Scratch made on the calling thread: memory a worker thread allocates comes
+  // from its own malloc arena, which glibc returns to the system when it
+  // empties (mcd_common.hpp, CStepWorkspace::reserve).
   std::vector<Scratch> scratch(static_cast<std::size_t>(parallel_workers(threads, chunk_total)));
+  for (Scratch& s : scratch) {
+    s.chunks = std::make_unique<ColumnMajorChunks>(x);
+    s.y.resize(std::min(kChunkRows, std::max<Index>(n, 1)), p);
+    s.root.resize(std::min(kChunkRows, std::max<Index>(n, 1)));
+  }
   parallel_for(threads, chunk_total, [&](Index c, int worker) {
     Scratch& s = scratch[static_cast<std::size_t>(worker)];
-    if (!s.chunks) {
-      s.chunks = std::make_unique<ColumnMajorChunks>(x);
-      s.y.resize(std::min(kChunkRows, std::max<Index>(n, 1)), p);
-    }
     ChunkSums& part = parts[static_cast<std::size_t>(c)];
     part.weight = Eigen::VectorXd::Zero(k_count);
     part.sums = Eigen::MatrixXd::Zero(p, k_count);
@@ -471,12 +475,13 @@ std::vector<WeightedMoments> weighted_moments(DataView x, const Eigen::MatrixXd&
       const auto wc = w.col(k).segment(start, m);
       const double ws = wc.sum();
       if (!(ws > 0.0)) continue;
-      s.root = wc.array().sqrt();
+      auto root = s.root.head(m);
+      root = wc.array().sqrt();
       for (Index j = 0; j < p; ++j) {
         const Eigen::Map<const Eigen::ArrayXd> xj(block + j * ld, m);
         auto yj = s.y.col(j).head(m).array();
-        yj = (xj - centre(j, k)) * s.root;
-        part.sums(j, k) = (yj * s.root).sum();
+        yj = (xj - centre(j, k)) * root;
+        part.sums(j, k) = (yj * root).sum();
       }
       Eigen::MatrixXd& gram = part.lower[static_cast<std::size_t>(k)];
       gram = Eigen::MatrixXd::Zero(p, p);  // dsyrk writes its lower triangle only

@@ -17,7 +17,8 @@ jobs=${JOBS:-2}
 
 cmake -S "$root" -B "$build" -DELLIPSA_TSAN=ON -DELLIPSA_BENCHMARKS=OFF \
   -DCMAKE_BUILD_TYPE=RelWithDebInfo >/dev/null
-targets=(ellipsa)
+# core_test_parallel: the thread team itself (core/parallel.hpp).
+targets=(ellipsa core_test_parallel)
 for src in "$root"/tests/capi/test_*.cpp; do
   targets+=("capi_$(basename "$src" .cpp)")
 done
@@ -34,5 +35,7 @@ fi
 # guard test links a static twin of the library and is not built here.
 echo "== TSan: capi_test_concurrency"
 "$build/tests/capi_test_concurrency"
+echo "== TSan: core_test_parallel"
+"$build/tests/core_test_parallel"
 echo "== TSan: all capi contract tests"
 (cd "$build" && ctest --output-on-failure -j"$jobs" -L capi -E 'capi_internal_guard')

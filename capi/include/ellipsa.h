@@ -223,8 +223,9 @@ static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_
  *
  * How promptly a fit stops: the callback is not called again after it asked
  * to stop, and no further unit of work starts. The units between two calls
- * are at most: FAST-MCD (mcd) one random start with its two C-steps, or one
- * round of C-steps of the kept candidates (at most ten C-steps); DetMCD the
+ * are at most: FAST-MCD (mcd) one random start with its two C-steps (50
+ * starts per thread when the fit has more than one thread), or one round of
+ * C-steps of the kept candidates (at most ten C-steps); DetMCD the
  * C-steps of one starting estimate per thread (its six starts run side by
  * side); MRCD the C-steps of one starting estimate; mixtures one EM iteration
  * (after every second one, also the E-step of an acceleration jump) or the

@@ -51,7 +51,10 @@ int count_and_stop(const char*, double, void* user) {
   return c->calls >= c->stop_at ? 1 : 0;
 }
 
-void expect_prompt_cancel(ellipsa_method method, int64_t n, int64_t p, const std::vector<int>& stops) {
+// `threads`: the fit's thread count, fixed so that the calls of each stage are
+// known (the default follows the machine's cores).
+void expect_prompt_cancel(ellipsa_method method, int64_t n, int64_t p, const std::vector<int>& stops,
+                          int32_t threads = 1) {
   const auto x = rows(n, p, 42);
   const ellipsa_matrix view = ellipsa_matrix_row_major(x.data(), n, p);
   for (int stop_at : stops) {
@@ -59,6 +62,7 @@ void expect_prompt_cancel(ellipsa_method method, int64_t n, int64_t p, const std
     ellipsa_fit_options* raw = nullptr;
     ASSERT_EQ(ellipsa_fit_options_create(&raw, method), ELLIPSA_OK);
     Options o(raw);
+    ASSERT_EQ(ellipsa_fit_options_set_threads(o.get(), threads), ELLIPSA_OK);
     if (method == ELLIPSA_METHOD_MIXTURE) {
       ASSERT_EQ(ellipsa_fit_options_set_components(o.get(), 3, 3), ELLIPSA_OK);
       ASSERT_EQ(ellipsa_fit_options_set_restarts(o.get(), 5), ELLIPSA_OK);
@@ -83,6 +87,9 @@ TEST(Cancellation, LargeFastMcdStopsAtTheCallThatAsked) {
   // Nested scheme: 5 groups of 300 rows, 100 starts each, then the pool and
   // the full-data C-steps; stops during each stage.
   expect_prompt_cancel(ELLIPSA_METHOD_MCD, 20000, 10, {1, 2, 30, 250, 502});
+  // On two threads each group's 100 starts are one round (50 per thread, one
+  // call): calls 1-5 the groups, 6-7 the pool, then the full-data C-steps.
+  expect_prompt_cancel(ELLIPSA_METHOD_MCD, 20000, 10, {1, 3, 6, 7, 10}, 2);
 }
 
 TEST(Cancellation, LargeEmStopsAtTheCallThatAsked) {

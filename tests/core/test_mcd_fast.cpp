@@ -4,7 +4,9 @@
 
 #include <Eigen/Eigenvalues>
 #include <algorithm>
+#include <array>
 #include <cmath>
+#include <cstring>
 
 #include "core/error.hpp"
 #include "core/mcd_deterministic.hpp"
@@ -273,9 +275,9 @@ TEST(FastMcd, BadInputAndCancel) {
   EXPECT_NEAR((f.raw_scatter - mc.covariance).norm(), 0.0, 1e-12);
 }
 
-// Cancellation is prompt: the progress callback is asked before every start
-// and every round of C-steps, so the work between two calls is at most one
-// start (initial_csteps C-steps) or one round (best_kept C-steps). Counted,
+// Cancellation is prompt: on one thread the progress callback is asked before
+// every start and every round of C-steps, so the work between two calls is at
+// most one start (initial_csteps C-steps) or one round (best_kept C-steps). Counted,
 // not timed: over a whole fit, starts <= calls and C-steps <= calls *
 // max(initial_csteps, best_kept), on the plain and on the nested scheme.
 // After the callback asks to stop it is never called again.
@@ -310,5 +312,55 @@ TEST(FastMcd, ProgressIsAskedOftenEnoughToStopPromptly) {
       }
       EXPECT_EQ(seen, stop_at);  // no call after the one that said stop
     }
+    // On two threads the starts go in rounds of kFastMcdStartsPerThread per
+    // thread, one call before each round (mcd_fast.hpp).
+    FastMcdOptions two = o;
+    two.threads = 2;
+    calls = 0;
+    last = -1.0;
+    const RobustFit r2 = fast_mcd(make_view(x), two);
+    EXPECT_LE(r2.starts, calls * 2 * kFastMcdStartsPerThread);
+    EXPECT_LE(r2.iterations, calls * std::max(2 * kFastMcdStartsPerThread * o.initial_csteps, o.best_kept));
+    EXPECT_GE(calls, o.starts / (2 * kFastMcdStartsPerThread));
   }
+}
+
+// The starts of a round and the candidates of a C-step round run side by side
+// (mcd_fast.cpp); their outcomes are taken in order, so the fit and the work
+// counted do not depend on the threads. Three cases that reach the ordered
+// bookkeeping: coarse integer data (singular (p+1)-subsets that grow, each
+// from its own stream), a plane holding 70% of the rows (an exact fit found
+// while later starts of the same round ran), and plain continuous data with
+// several candidates on all rows (n = 5000: ten go to the full data).
+TEST(FastMcd, ThreadsDoNotChangeTheFitOrTheWorkCounted) {
+  Eigen::MatrixXd coarse = mcd_test::normal_data(3000, 4, 41);
+  coarse = (coarse * 1.5).array().round();  // about seven distinct values per column
+  Eigen::MatrixXd plane = mcd_test::normal_data(3000, 3, 42);
+  for (Index i = 0; i < 2100; ++i) plane(i, 2) = 0.5 * plane(i, 0) + plane(i, 1) - 1.0;
+  const Eigen::MatrixXd plain = with_outliers(5000, 5, 500, 7.0, 43);
+  int case_index = 0;
+  const std::array<const Eigen::MatrixXd*, 3> cases{&coarse, &plane, &plain};
+  for (const Eigen::MatrixXd* x : cases) {
+    SCOPED_TRACE(case_index++);
+    FastMcdOptions o;
+    o.seed = 9;
+    const RobustFit one = fast_mcd(make_view(*x), o);
+    for (const int t : {2, 3}) {
+      SCOPED_TRACE(t);
+      o.threads = t;
+      const RobustFit many = fast_mcd(make_view(*x), o);
+      EXPECT_EQ(one.exact_fit, many.exact_fit);
+      EXPECT_EQ(one.h_subset, many.h_subset);
+      EXPECT_EQ(one.iterations, many.iterations);
+      EXPECT_EQ(one.starts, many.starts);
+      EXPECT_EQ(one.outlier, many.outlier);
+      ASSERT_EQ(one.scatter.size(), many.scatter.size());
+      EXPECT_EQ(std::memcmp(one.scatter.data(), many.scatter.data(), sizeof(double) * one.scatter.size()), 0);
+      EXPECT_EQ(std::memcmp(one.location.data(), many.location.data(), sizeof(double) * one.location.size()), 0);
+    }
+  }
+  // The plane case really is an exact fit found during the starts.
+  FastMcdOptions o;
+  o.seed = 9;
+  EXPECT_TRUE(fast_mcd(make_view(plane), o).exact_fit);
 }
