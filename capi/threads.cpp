@@ -57,3 +57,15 @@ extern "C" ELLIPSA_API ellipsa_status ellipsa_fit_options_set_threads(ellipsa_fi
     return ELLIPSA_OK;
   });
 }
+
+extern "C" ELLIPSA_API ellipsa_status ellipsa_threads_resolve(int32_t* threads, int32_t requested) {
+  using namespace ellipsa::capi;
+  return guard("ellipsa_threads_resolve", [&] {
+    require_not_null(threads, "threads");
+    if (requested < 0 || requested > ellipsa::core::kMaxThreads)
+      throw Misuse{ELLIPSA_ERR_ARGUMENT,
+                   "requested threads must lie in [0, 256] (0 = ELLIPSA_THREADS or the available cores)"};
+    *threads = static_cast<int32_t>(resolve_threads(requested));
+    return ELLIPSA_OK;
+  });
+}

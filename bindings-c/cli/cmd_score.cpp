@@ -5,6 +5,7 @@
 #include "atomic_output.hpp"
 #include "commands.hpp"
 #include "csv_writer.hpp"
+#include "score_stream.hpp"
 
 namespace ellipsa::cli {
 namespace {
@@ -66,43 +67,15 @@ Command add_score(CLI::App& parent) {
         CsvWriter writer(out.stream(), wo);
         writer.header(header);
 
-        CsvChunk chunk;
-        ScoreBlock block;
         Progress progress(progress_wanted(a->out.quiet || a->out.json));
-        int64_t rows = 0, flagged = 0, unscorable = 0;
-        std::ostringstream first_flags;
-        int listed = 0;
-        while (reader.next_chunk(chunk, kChunkRows)) {
-          refuse_infinite_cells(reader, chunk);
-          const auto x = ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()),
-                                                  static_cast<int64_t>(chunk.cols()));
-          block.score(model.get(), cols, x, a->level, reference);
-          const auto p = static_cast<std::size_t>(cols.p);
-          for (std::size_t r = 0; r < chunk.rows(); ++r) {
-            writer.raw(chunk.row_text(r));
-            if (cols.kind == ELLIPSA_KIND_MIXTURE) {
-              writer.integer(block.component[r] + 1);
-              for (int32_t k = 0; k < cols.components; ++k)
-                writer.number(
-                    block.membership[r * static_cast<std::size_t>(cols.components) + static_cast<std::size_t>(k)]);
-              writer.number(block.log_density[r]).integer(block.low_density[r]);
-            }
-            writer.number(block.d2[r]).number(block.p_value[r]).integer(block.flag[r]).integer(block.observed[r]);
-            for (std::size_t j = 0; j < p; ++j) writer.number(block.contribution[r * p + j]);
-            writer.end_row();
-            const bool is_flagged =
-                block.flag[r] == 1 || (cols.kind == ELLIPSA_KIND_MIXTURE && block.low_density[r] == 1);
-            if (is_flagged) {
-              ++flagged;
-              if (listed++ < 20)
-                first_flags << "  line " << chunk.line(r) << ": squared distance " << block.d2[r] << "; most from "
-                            << top_contributors(block, cols, r, 3) << "\n";
-            }
-            if (block.flag[r] == -1) ++unscorable;
-          }
-          rows += static_cast<int64_t>(chunk.rows());
-          progress.rows("scoring", rows);
-        }
+        ScoreStreamSettings settings;
+        settings.level = a->level;
+        settings.reference = reference;
+        settings.chunk_rows = kChunkRows;
+        check(ellipsa_threads_resolve(&settings.threads, 0), "choosing the thread count");
+        ScoreTally tally;
+        score_stream(reader, writer, model.get(), cols, settings, progress, tally);
+        const int64_t rows = tally.rows, flagged = tally.flagged, unscorable = tally.unscorable;
         progress.finish();
         if (rows == 0) throw CliError(kExitData, reader.source_name() + ": the file has a header but no data rows");
         writer.flush();
@@ -111,7 +84,7 @@ Command add_score(CLI::App& parent) {
         const std::string limit = reference_description(model.get(), reference);
         human << "scored " << rows << " rows; " << flagged << " flagged at level " << a->level << " by the " << limit;
         if (unscorable > 0) human << "; " << unscorable << " rows with no observed value";
-        human << "\n" << first_flags.str();
+        human << "\n" << tally.first_flags.str();
         if (flagged > 20) human << "  ... and " << flagged - 20 << " more\n";
         if (a->output != "-") human << "scores written to " << a->output << "\n";
         ellipsa_method method = ELLIPSA_METHOD_CLASSICAL;

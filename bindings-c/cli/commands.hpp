@@ -88,8 +88,10 @@ ScoreColumns score_columns(const ellipsa_model* m);
 struct ScoreBlock {
   std::vector<double> d2, p_value, contribution, membership, log_density;
   std::vector<int32_t> flag, observed, component, low_density;
-  // reference: an ELLIPSA_REFERENCE_ value (ELLIPSA_REFERENCE_MODEL: the model's own).
-  void score(const ellipsa_model* m, const ScoreColumns& c, const ellipsa_matrix& x, double level, int32_t reference);
+  // reference: an ELLIPSA_REFERENCE_ value (ELLIPSA_REFERENCE_MODEL: the model's own);
+  // threads: as ellipsa_model_score_v3 (0: the library's default rule).
+  void score(const ellipsa_model* m, const ScoreColumns& c, const ellipsa_matrix& x, double level, int32_t reference,
+             int32_t threads = 0);
 };
 
 // --reference NAME for scoring (model, chi2, new-rows, fitting-rows); the

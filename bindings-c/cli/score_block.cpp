@@ -25,7 +25,7 @@ ScoreColumns score_columns(const ellipsa_model* m) {
 }
 
 void ScoreBlock::score(const ellipsa_model* m, const ScoreColumns& c, const ellipsa_matrix& x, double level,
-                       int32_t reference) {
+                       int32_t reference, int32_t threads) {
   const auto n = static_cast<std::size_t>(x.rows);
   const auto p = static_cast<std::size_t>(c.p);
   d2.resize(n);
@@ -49,7 +49,7 @@ void ScoreBlock::score(const ellipsa_model* m, const ScoreColumns& c, const elli
     s.log_density = log_density.data();
     s.low_density = low_density.data();
   }
-  check(ellipsa_model_score_v2(&s, m, &x, level, reference), "scoring");
+  check(ellipsa_model_score_v3(&s, m, &x, level, reference, threads), "scoring");
 }
 
 int32_t parse_reference(const std::string& name) {

@@ -1,5 +1,6 @@
 #include "csv_writer.hpp"
 
+#include <algorithm>
 #include <cerrno>
 #include <charconv>
 #include <cmath>
@@ -24,6 +25,11 @@ std::size_t append_number(char* out, double value, char decimal, int digits) {
 
 }  // namespace
 
+CsvWriter::CsvWriter(std::string* sink, CsvWriteOptions options)
+    : CsvWriter(static_cast<std::FILE*>(nullptr), std::move(options)) {
+  sink_ = sink;
+}
+
 CsvWriter::CsvWriter(std::FILE* out, CsvWriteOptions options) : out_(out), options_(std::move(options)) {
   const char s = options_.separator;
   if (s != ',' && s != ';' && s != '\t') throw std::invalid_argument("CSV separator must be ',', ';' or tab");
@@ -38,6 +44,7 @@ CsvWriter::CsvWriter(std::FILE* out, CsvWriteOptions options) : out_(out), optio
 
 CsvWriter::~CsvWriter() {
   if (used_ > 0 && out_ != nullptr) std::fwrite(buffer_.data(), 1, used_, out_);
+  if (used_ > 0 && sink_ != nullptr) sink_->append(buffer_.data(), used_);
 }
 
 char* CsvWriter::room(std::size_t bytes) {
@@ -131,6 +138,17 @@ void CsvWriter::end_row() {
   drain_if_full();
 }
 
+CsvWriter& CsvWriter::rows(std::string_view formatted) {
+  // In pieces of the buffer's drain size, as rows formatted here would go.
+  while (!formatted.empty()) {
+    const std::size_t n = std::min(formatted.size(), kDrainSize);
+    put(formatted.substr(0, n));
+    formatted.remove_prefix(n);
+    drain_if_full();
+  }
+  return *this;
+}
+
 void CsvWriter::drain_if_full() {
   if (used_ >= kDrainSize) write_buffer();
 }
@@ -139,6 +157,10 @@ void CsvWriter::write_buffer() {
   if (used_ == 0) return;
   const std::size_t n = used_;
   used_ = 0;
+  if (sink_ != nullptr) {
+    sink_->append(buffer_.data(), n);
+    return;
+  }
   if (std::fwrite(buffer_.data(), 1, n, out_) != n) throw OutputError(write_error());
 }
 
@@ -150,7 +172,7 @@ std::string CsvWriter::write_error() const {
 
 void CsvWriter::flush() {
   write_buffer();
-  if (std::fflush(out_) != 0) throw OutputError(write_error());
+  if (out_ != nullptr && std::fflush(out_) != 0) throw OutputError(write_error());
 }
 
 }  // namespace ellipsa::cli

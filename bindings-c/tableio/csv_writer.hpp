@@ -32,6 +32,10 @@ class CsvWriter {
  public:
   /// `out` stays owned by the caller. Throws std::invalid_argument on bad options.
   explicit CsvWriter(std::FILE* out, CsvWriteOptions options = {});
+  /// Appends the text to `sink` instead of writing it (for rows formatted on
+  /// one thread and written on another with rows()); `sink` stays owned by
+  /// the caller and must outlive the writer.
+  explicit CsvWriter(std::string* sink, CsvWriteOptions options = {});
   /// Writes what is still buffered, ignoring errors: call flush() to see them.
   ~CsvWriter();
   CsvWriter(const CsvWriter&) = delete;
@@ -51,10 +55,14 @@ class CsvWriter {
   /// of an input read with the same separator), copied unchanged.
   CsvWriter& raw(std::string_view fields);
   void end_row();
+  /// Whole rows already formatted in this writer's dialect (by a writer with
+  /// the same options and a string sink), copied unchanged. Call between rows.
+  CsvWriter& rows(std::string_view formatted);
   /// Passes everything to the stream and flushes it. Throws OutputError.
   void flush();
 
   char separator() const noexcept { return options_.separator; }
+  const CsvWriteOptions& options() const noexcept { return options_; }
 
  private:
   std::string write_error() const;
@@ -67,7 +75,8 @@ class CsvWriter {
   void put(char c);
   void put(std::string_view text);
 
-  std::FILE* out_;
+  std::FILE* out_ = nullptr;
+  std::string* sink_ = nullptr;
   CsvWriteOptions options_;
   std::string buffer_;  // fixed size; buffer_[0, used_) waits to be written
   std::size_t used_ = 0;

@@ -1511,8 +1511,12 @@ ELLIPSA_API ellipsa_status ellipsa_model_score_v2(ellipsa_scores *out, const ell
  *  your BLAS) so that BLAS does not start its own threads inside ours; results
  *  do not depend on it. Progress callbacks are called from the calling thread
  *  only. Threads parallelise: the classical and shrinkage moments, scoring of
- *  Gaussian models, the full-data C-steps of mcd, and the E-step and weighted
- *  moments of mixtures; other parts run on the calling thread.
+ *  Gaussian models, mcd (its random starts, the C-steps of its candidates side
+ *  by side, the distances of all rows, the standardisation and the
+ *  reweighting), detmcd (its six starts side by side, the standardisation and
+ *  the reweighting), and the E-step and weighted moments of mixtures; other
+ *  parts run on the calling thread. A fit keeps its threads waiting between
+ *  its loops and ends them before it returns.
  *  @{ */
 
 /**
@@ -1528,6 +1532,24 @@ ELLIPSA_API ellipsa_status ellipsa_model_score_v2(ellipsa_scores *out, const ell
  */
 ELLIPSA_API ellipsa_status ellipsa_fit_options_set_threads(ellipsa_fit_options *options,
                                                            int32_t threads);
+
+/**
+ * @brief The thread count a call given `requested` threads uses.
+ *
+ * For callers that arrange their own work around the library's: e.g. a
+ * program that reads and parses the next block of rows on one thread while
+ * the library scores the current block on the others. With `requested` 0 it
+ * reads `ELLIPSA_THREADS` now, as a call would.
+ * @param[out] threads  `requested` itself when positive; for 0,
+ *                      `ELLIPSA_THREADS` when set, else the cores the process
+ *                      may run on (at most 256). Untouched on error.
+ * @param requested     0 or a count in [1, 256].
+ * @return ::ELLIPSA_OK; ::ELLIPSA_ERR_NULL (`threads` NULL);
+ *         ::ELLIPSA_ERR_ARGUMENT (`requested` outside [0, 256]; `requested` 0
+ *         with `ELLIPSA_THREADS` set to anything but a whole number in [1, 256]).
+ *         Thread-safe.
+ */
+ELLIPSA_API ellipsa_status ellipsa_threads_resolve(int32_t *threads, int32_t requested);
 
 /**
  * @brief Scores rows against a model with a chosen scoring reference on a chosen number of threads.

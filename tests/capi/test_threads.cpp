@@ -2,6 +2,9 @@
 // the ELLIPSA_THREADS default, and the promise that models and scores are
 // bit-identical at 1, 2 and 3 threads (fixed row chunks, fixed merge order;
 // ellipsa.h, "Threads"). Bit-identity is checked with memcmp of every output.
+#include <sched.h>
+
+#include <algorithm>
 #include <cstdlib>
 #include <cstring>
 #include <string>
@@ -194,6 +197,36 @@ TEST(ThreadsContract, EnvironmentVariableSetsTheDefaultAndABadValueIsRefused) {
   EXPECT_EQ(ellipsa_model_score(&s, m.get(), &v, 0.975), ELLIPSA_OK) << ellipsa_last_error();
   ASSERT_EQ(unsetenv("ELLIPSA_THREADS"), 0);
   EXPECT_EQ(ellipsa_model_score(&s, m.get(), &v, 0.975), ELLIPSA_OK) << ellipsa_last_error();
+}
+
+TEST(ThreadsContract, ResolveReportsTheCountACallUses) {
+  int32_t t = -1;
+  EXPECT_EQ(ellipsa_threads_resolve(nullptr, 0), ELLIPSA_ERR_NULL);
+  for (const int32_t bad : {-1, 257}) {
+    EXPECT_EQ(ellipsa_threads_resolve(&t, bad), ELLIPSA_ERR_ARGUMENT) << bad;
+    EXPECT_EQ(t, -1);  // untouched on error
+  }
+  EXPECT_EQ(ellipsa_threads_resolve(&t, 3), ELLIPSA_OK);
+  EXPECT_EQ(t, 3);
+  EXPECT_EQ(ellipsa_threads_resolve(&t, 256), ELLIPSA_OK);
+  EXPECT_EQ(t, 256);
+  ASSERT_EQ(setenv("ELLIPSA_THREADS", "5", 1), 0);
+  EXPECT_EQ(ellipsa_threads_resolve(&t, 0), ELLIPSA_OK);
+  EXPECT_EQ(t, 5);
+  EXPECT_EQ(ellipsa_threads_resolve(&t, 2), ELLIPSA_OK);  // an explicit count does not read the variable
+  EXPECT_EQ(t, 2);
+  ASSERT_EQ(setenv("ELLIPSA_THREADS", "3x", 1), 0);
+  t = -1;
+  EXPECT_EQ(ellipsa_threads_resolve(&t, 0), ELLIPSA_ERR_ARGUMENT);
+  EXPECT_NE(std::string(ellipsa_last_error()).find("ELLIPSA_THREADS"), std::string::npos);
+  EXPECT_EQ(t, -1);
+  ASSERT_EQ(unsetenv("ELLIPSA_THREADS"), 0);
+  // Unset: the cores this process may run on (sched_getaffinity), as the library counts them.
+  cpu_set_t set;
+  CPU_ZERO(&set);
+  ASSERT_EQ(sched_getaffinity(0, sizeof(set), &set), 0);
+  EXPECT_EQ(ellipsa_threads_resolve(&t, 0), ELLIPSA_OK);
+  EXPECT_EQ(t, std::min(CPU_COUNT(&set), 256));
 }
 
 }  // namespace

@@ -49,6 +49,66 @@ for method in ("classical", "ledoit-wolf", "mcd", "detmcd"):
     if len(set(scores)) != 1:
         failures.append(f"{method}: scored files differ between 1, 2 and 3 threads")
 
+# Scoring overlaps reading, scoring and writing on more than one thread
+# (bindings-c/cli/score_stream.hpp). A longer file (five chunks of 8192 rows)
+# with many flagged rows: the scored file, the summary on standard error (the
+# first 20 flagged lines) and the JSON summary are the same at 1, 2 and 3
+# threads.
+long_path = os.path.join(tmp, "long.csv")
+with open(long_path, "w") as f:
+    f.write("a,b,c,d\n")
+    for i in range(40000):
+        z = rng.gauss(0, 1)
+        row = [z + rng.gauss(0, 1), 2 * z + rng.gauss(0, 1), rng.gauss(5, 2), z - rng.gauss(0, 0.5)]
+        if i % 997 == 3:
+            row[1] += 30
+        f.write(",".join(f"{v:.6f}" for v in row) + "\n")
+long_model = os.path.join(tmp, "long.json")
+code, _, err = run("fit", "--method", "classical", "--quiet", long_path, "-o", long_model)
+if code != 0:
+    failures.append(f"fit long file: exit {code}: {err.strip()[:200]}")
+seen = []
+scored = os.path.join(tmp, "long-scored.csv")  # one name: the summaries name the file
+for t in ("1", "2", "3"):
+    code_j, out_j, _ = run("score", long_model, long_path, "--threads", t, "--json", "-o", scored)
+    code, out, err = run("score", long_model, long_path, "--threads", t, "-o", scored)
+    if code != 0 or code_j != 0:
+        failures.append(f"score long file --threads {t}: exit {code}/{code_j}: {err.strip()[:200]}")
+        continue
+    seen.append((read(scored), err, out_j))
+if len(seen) == 3:
+    if len({s[0] for s in seen}) != 1:
+        failures.append("long file: scored files differ between 1, 2 and 3 threads")
+    if len({s[1] for s in seen}) != 1:
+        failures.append("long file: the summaries differ between 1, 2 and 3 threads:\n" + "\n--\n".join(s[1] for s in seen))
+    if len({s[2] for s in seen}) != 1:
+        failures.append("long file: the JSON summaries differ between 1, 2 and 3 threads")
+    if "and " not in seen[0][1] or seen[0][1].count("  line ") != 20:
+        failures.append("long file: the summary should list 20 flagged lines and say how many more: " + seen[0][1][:300])
+
+# Errors: an infinite cell on data line 20001 (chunk 3) and a word on line
+# 30001 (chunk 4). On one thread the infinite cell stops the run first; on
+# more, reading runs ahead of scoring and writing, yet the message is the same
+# and no output file is left behind.
+with open(long_path) as f:
+    lines = f.readlines()
+lines[20001] = "1.0,inf,3.0,4.0\n"
+lines[30001] = "1.0,two,3.0,4.0\n"
+bad_path = os.path.join(tmp, "bad.csv")
+with open(bad_path, "w") as f:
+    f.writelines(lines)
+errors = set()
+scored = os.path.join(tmp, "bad-scored.csv")
+for t in ("1", "2", "3"):
+    code, _, err = run("score", long_model, bad_path, "--threads", t, "--quiet", "-o", scored)
+    if code == 0 or os.path.exists(scored):
+        failures.append(f"bad file --threads {t}: exit {code}, output left: {os.path.exists(scored)}")
+    errors.add((code, err))
+if len(errors) != 1:
+    failures.append("bad file: the error differs between 1, 2 and 3 threads: " + repr(errors))
+elif "20002" not in next(iter(errors))[1]:  # line 20002 of the file (the header is line 1)
+    failures.append("bad file: the error should name line 20002: " + repr(errors))
+
 for bad in ("0", "257", "-1", "two"):
     code, _, err = run("fit", "--threads", bad, "--quiet", path, "-o", os.path.join(tmp, "x.json"))
     if code != 2 or "--threads" not in err:
