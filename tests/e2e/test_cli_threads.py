@@ -13,15 +13,23 @@ tmp = scratch()
 # Invented rows, enough for many row chunks of every kernel (4096 rows for the
 # moments, 1024 for the distances), with a few gross outliers.
 rng = random.Random(1515)
+
+
+def write_rows(p, count, every, first, column, shift):
+    """Four correlated invented columns; rows i with i % every == first get
+    `shift` added to `column`."""
+    with open(p, "w") as f:
+        f.write("a,b,c,d\n")
+        for i in range(count):
+            z = rng.gauss(0, 1)
+            row = [z + rng.gauss(0, 1), 2 * z + rng.gauss(0, 1), rng.gauss(5, 2), z - rng.gauss(0, 0.5)]
+            if i % every == first:
+                row[column] += shift
+            f.write(",".join(f"{v:.6f}" for v in row) + "\n")
+
+
 path = os.path.join(tmp, "rows.csv")
-with open(path, "w") as f:
-    f.write("a,b,c,d\n")
-    for i in range(12000):
-        z = rng.gauss(0, 1)
-        row = [z + rng.gauss(0, 1), 2 * z + rng.gauss(0, 1), rng.gauss(5, 2), z - rng.gauss(0, 0.5)]
-        if i % 1000 == 7:
-            row[2] += 40
-        f.write(",".join(f"{v:.6f}" for v in row) + "\n")
+write_rows(path, 12000, 1000, 7, 2, 40)
 
 
 def read(p):
@@ -55,14 +63,7 @@ for method in ("classical", "ledoit-wolf", "mcd", "detmcd"):
 # first 20 flagged lines) and the JSON summary are the same at 1, 2 and 3
 # threads.
 long_path = os.path.join(tmp, "long.csv")
-with open(long_path, "w") as f:
-    f.write("a,b,c,d\n")
-    for i in range(40000):
-        z = rng.gauss(0, 1)
-        row = [z + rng.gauss(0, 1), 2 * z + rng.gauss(0, 1), rng.gauss(5, 2), z - rng.gauss(0, 0.5)]
-        if i % 997 == 3:
-            row[1] += 30
-        f.write(",".join(f"{v:.6f}" for v in row) + "\n")
+write_rows(long_path, 40000, 997, 3, 1, 30)
 long_model = os.path.join(tmp, "long.json")
 code, _, err = run("fit", "--method", "classical", "--quiet", long_path, "-o", long_model)
 if code != 0:
