@@ -51,10 +51,28 @@ measure "score to /dev/null (read, score, format)" "$bytes" "$bin" score --quiet
 null_s=$(cat "$work/last.txt")
 measure "score (read, score, write the file)" "$bytes" "$bin" score --quiet "$work/model.json" "$work/big.csv" -o "$work/scored.csv"
 score_s=$(cat "$work/last.txt")
-out_mb=$(awk -v b="$(stat -c %s "$work/scored.csv")" 'BEGIN {printf "%.1f", b / 1e6}')
+out_bytes=$(stat -c %s "$work/scored.csv")
+out_mb=$(awk -v b="$out_bytes" 'BEGIN {printf "%.1f", b / 1e6}')
 echo "scored output: $out_mb MB (computed columns at the default 10 significant digits)"
-awk -v f="$fit_s" -v n="$null_s" -v s="$score_s" 'BEGIN {
-  printf "split of score time: reading and parsing ~%.0f%% (the streaming fit), scoring and formatting ~%.0f%%, writing to disk ~%.0f%%\n",
+# The disk's own speed for the same bytes: a copy of the scored file (from the
+# page cache), without and with fsync.
+for sync in "" "conv=fsync"; do
+  rm -f "$work/copy.csv"
+  start=$(date +%s.%N)
+  dd if="$work/scored.csv" of="$work/copy.csv" bs=64k $sync 2>/dev/null
+  end=$(date +%s.%N)
+  awk -v b="$out_bytes" -v s="$start" -v e="$end" -v l="${sync:-no sync}" \
+    'BEGIN {printf "disk: writing the same %.1f MB with dd (%s): %.2f s, %.0f MB/s\n", b / 1e6, l, e - s, b / 1e6 / (e - s)}'
+done
+rm -f "$work/copy.csv"
+# On more than one thread reading, scoring and writing overlap
+# (bindings-c/cli/score_stream.hpp), so the split comes from one thread.
+measure "score, one thread (write the file)" "$bytes" "$bin" score --threads 1 --quiet "$work/model.json" "$work/big.csv" -o "$work/scored.csv"
+one_s=$(cat "$work/last.txt")
+measure "score, one thread, to /dev/null" "$bytes" "$bin" score --threads 1 --quiet "$work/model.json" "$work/big.csv" -o -
+one_null_s=$(cat "$work/last.txt")
+awk -v f="$fit_s" -v n="$one_null_s" -v s="$one_s" 'BEGIN {
+  printf "split of the one-thread score time: reading and parsing ~%.0f%% (the streaming fit), scoring and formatting ~%.0f%%, writing to disk ~%.0f%%\n",
          100 * f / s, 100 * (n - f) / s, 100 * (s - n) / s }'
 measure "score --digits exact (write the file)" "$bytes" "$bin" score --quiet --digits exact "$work/model.json" "$work/big.csv" -o "$work/scored.csv"
 # Peak memory must not grow with the file: the same on a file a quarter as long.

@@ -73,6 +73,7 @@ Command add_score(CLI::App& parent) {
         settings.reference = reference;
         settings.chunk_rows = kChunkRows;
         check(ellipsa_threads_resolve(&settings.threads, 0), "choosing the thread count");
+        settings.write_behind = [&out] { out.write_behind(); };
         ScoreTally tally;
         score_stream(reader, writer, model.get(), cols, settings, progress, tally);
         const int64_t rows = tally.rows, flagged = tally.flagged, unscorable = tally.unscorable;

@@ -45,14 +45,35 @@ ellipsa_matrix view_of(const CsvChunk& chunk) {
   return ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()), static_cast<int64_t>(chunk.cols()));
 }
 
+// Counts the output and calls settings.write_behind after every kWriteBehindBytes.
+class WriteBehind {
+ public:
+  WriteBehind(CsvWriter& writer, const ScoreStreamSettings& s) : writer_(writer), s_(s) {}
+  void wrote(std::size_t bytes) {
+    pending_ += bytes;
+    if (pending_ < kWriteBehindBytes || !s_.write_behind) return;
+    pending_ = 0;
+    writer_.flush();
+    s_.write_behind();
+  }
+
+ private:
+  CsvWriter& writer_;
+  const ScoreStreamSettings& s_;
+  std::size_t pending_ = 0;
+};
+
 void score_serially(CsvReader& reader, CsvWriter& writer, const ellipsa_model* model, const ScoreColumns& cols,
                     const ScoreStreamSettings& s, Progress& progress, ScoreTally& tally) {
   CsvChunk chunk;
   ScoreBlock block;
+  WriteBehind behind(writer, s);
   while (reader.next_chunk(chunk, s.chunk_rows)) {
     refuse_infinite_cells(reader, chunk);
     block.score(model, cols, view_of(chunk), s.level, s.reference, s.threads);
     format_chunk(writer, chunk, block, cols, tally);
+    // About the chunk's output (its text plus the numbers); exact counts do not matter here.
+    behind.wrote(chunk.rows() * (chunk.row_text(0).size() + 16 * (cols.names.size())));
     progress.rows("scoring", tally.rows);
   }
 }
@@ -172,10 +193,12 @@ void score_overlapped(CsvReader& reader, CsvWriter& writer, const ellipsa_model*
     st.end_scoring();
   };
   auto writing = [&] {
+    WriteBehind behind(writer, s);
     while (Job* j = st.next_scored()) {
       if (!st.skip(j->index)) {
         try {
           writer.rows(j->text);
+          behind.wrote(j->text.size());
           tally.rows += j->tally.rows;
           tally.flagged += j->tally.flagged;
           tally.unscorable += j->tally.unscorable;

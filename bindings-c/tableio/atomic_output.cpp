@@ -197,4 +197,12 @@ void AtomicOutput::commit() {
   }
 }
 
+void AtomicOutput::write_behind() noexcept {
+  if (to_stdout_ || file_ == nullptr) return;
+  if (std::fflush(file_) != 0) return;  // commit() reports it
+#ifdef SYNC_FILE_RANGE_WRITE
+  (void)::sync_file_range(::fileno(file_), 0, 0, SYNC_FILE_RANGE_WRITE);
+#endif
+}
+
 }  // namespace ellipsa::cli
