@@ -16,6 +16,7 @@
 #include <string>
 
 #include "boundary.hpp"
+#include "core/mcd_fast.hpp"
 #include "threads.hpp"
 
 namespace ellipsa::capi {
@@ -83,6 +84,15 @@ int64_t fit_memory_estimate(const ellipsa_fit_options& o, int64_t n, int64_t p) 
       words = add(words, prod({2, std::min(n, kMcdPooledRows), p}));
       words = add(words, mul(add(val(n), prod({2, p, p})), kMcdCandidates));
       words = add(words, prod({12, n}));
+      // On more than one thread: each worker's C-step scratch (distances,
+      // selection copy, row lists: 5 n, and a block of 1024 rows), and the
+      // finished starts of a round (core::kFastMcdRoundBytes, at least one
+      // start of 3 p^2 + n words per thread).
+      if (threads > 1) {
+        words = add(words, mul(add(prod({5, n}), prod({std::min<int64_t>(n, 1024), p})), threads));
+        words = add(words, val(static_cast<int64_t>(core::kFastMcdRoundBytes / sizeof(double))));
+        words = add(words, mul(add(prod({3, p, p}), val(n)), threads));
+      }
       break;
     case ELLIPSA_METHOD_DETMCD:
       // Standardised copy, six starting estimators (each up to 2 n p and

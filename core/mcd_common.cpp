@@ -249,7 +249,9 @@ void CStepWorkspace::reserve(Index n, Index p) {
   select.reserve(static_cast<std::size_t>(n + kSelectPad));
   below.reserve(static_cast<std::size_t>(n) + 1);
   rows.reserve(static_cast<std::size_t>(n));
-  const std::size_t slots = static_cast<std::size_t>(std::max(1, threads));
+  // One block per thread subset_distances will run on (one below kMinChunksForThreads chunks).
+  const Index chunks = chunk_count(n, kChunk);
+  const auto slots = static_cast<std::size_t>(parallel_workers(chunks >= kMinChunksForThreads ? threads : 1, chunks));
   if (worker_y.size() < slots) worker_y.resize(slots);
   for (auto& y : worker_y)
     if (y.rows() < std::min(kChunk, n) || y.cols() != p) y.resize(std::min(kChunk, n), p);
@@ -497,8 +499,7 @@ RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, I
     w(i) = out ? 0.0 : 1.0;
   }
   MomentAccumulator acc(p);
-  acc.set_threads(threads);
-  acc.add(zv, w);
+  acc.add(zv, w);  // the weighted moments: on the calling thread
   if (auto est = reweighted_estimate(acc, r.reweight_factor * rule.small_sample.reweighted)) {
     r.reweighted = true;
     r.location = s.centre + s.scale.cwiseProduct(est->mean);

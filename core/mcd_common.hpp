@@ -278,8 +278,8 @@ struct FinishRule {
 
 // Final step of a regular fit: back to original units, consistency and
 // small-sample factors, reweighting at chi2q(p, level) with the corrected raw
-// distances. `threads`: the distances and moments on that many threads
-// (parallel.hpp); the result does not depend on it.
+// distances. `threads`: the distances on that many threads (parallel.hpp);
+// the result does not depend on it.
 RobustFit finish_fit(DataView x, const Standardised& s, const SubsetFit& best, Index h, const FinishRule& rule,
                      int threads = 1);
 

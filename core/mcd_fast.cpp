@@ -162,7 +162,10 @@ StartOutcome run_start(const Eigen::MatrixXd& zs, Index hs, std::vector<Index> r
 std::vector<Candidate> run_starts(Search& s, const Eigen::MatrixXd& zs, Index hs, int n_starts, int& order,
                                   const Span& span) {
   const int threads = std::clamp(s.opt.threads, 1, kMaxThreads);
-  const int per_round = threads == 1 ? 1 : threads * kFastMcdStartsPerThread;
+  const std::size_t p = static_cast<std::size_t>(zs.cols());
+  const std::size_t start_bytes = sizeof(double) * (3 * p * p + 2 * p) + sizeof(Index) * static_cast<std::size_t>(hs);
+  const int by_memory = static_cast<int>(std::min<std::size_t>(kFastMcdRoundBytes / start_bytes, 1u << 20));
+  const int per_round = threads == 1 ? 1 : std::clamp(by_memory, threads, threads * kFastMcdStartsPerThread);
   std::vector<Candidate> out;
   std::vector<char> used;
   std::vector<std::vector<Index>> drawn;
@@ -369,7 +372,6 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
   check_options(opt);
   mcd_detail::check_input(x, opt.alpha, true, "FAST-MCD");
   const Index n = x.rows(), p = x.cols();
-  const TeamScope team(opt.threads);  // the fit's loops share one team of threads (parallel.hpp)
   const mcd_detail::FinishRule rule{opt.reweight_level,
                                     small_sample_factors(McdFamily::Fast, opt.small_sample, n, p, opt.alpha),
                                     opt.raw_consistency};
@@ -386,6 +388,7 @@ RobustFit fast_mcd(DataView x, const FastMcdOptions& opt) {
     return f.singular ? mcd_detail::exact_fit_result(x, st, f, h) : mcd_detail::finish_fit(x, st, f, h, rule);
   }
 
+  const TeamScope team(opt.threads);  // the search's loops share one team of threads (parallel.hpp)
   Search s(st.z, h, opt);
   std::vector<Candidate> cands;
   int order = 0;

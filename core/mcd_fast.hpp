@@ -8,6 +8,7 @@
 // libraries); ties at the h-th distance are broken by the values of the rows.
 // The same data and seed give bit-identical results on one platform and BLAS.
 #pragma once
+#include <cstddef>
 #include <cstdint>
 
 #include "mcd_common.hpp"
@@ -22,6 +23,13 @@ namespace ellipsa::core {
 // 16 starts per thread left FAST-MCD's start stage 20% slower than one round
 // per group (100 starts at the defaults, 50 per thread on two).
 constexpr int kFastMcdStartsPerThread = 50;
+// Bytes the finished starts of one round may hold (each keeps its fit: about
+// 3 p^2 + h words) before the round is cut shorter: at most
+// kFastMcdStartsPerThread per thread, at least one per thread. At p = 10 a
+// round of 100 starts holds under 1 MiB; at p = 200 a start holds about 1 MiB,
+// and 100 of them would outgrow the fit's memory estimate (capi/memory_ceiling.cpp
+// adds this budget per fit).
+constexpr std::size_t kFastMcdRoundBytes = std::size_t{16} << 20;
 
 struct FastMcdOptions {
   double alpha = 0.5;  // h = mcd_subset_size(n, p, alpha), alpha in [0.5, 1]
@@ -47,7 +55,7 @@ struct FastMcdOptions {
   ProgressCallback progress;  // optional; false cancels
   // Threads (parallel.hpp): the random starts of a round and the candidates
   // of a round of C-steps side by side, the distances of all rows, the
-  // standardisation and the reweighting. The fit does not depend on it: the
+  // standardisation and the reweighting's distances. The fit does not depend on it: the
   // subsets are drawn in start order beforehand, a subset that must grow
   // draws from a stream of its own (seeded by the seed and the start's
   // index), and outcomes are taken in order.

@@ -570,9 +570,9 @@ Eigen::MatrixXd one_hot(const Eigen::VectorXi& labels, Index k_count) {
 MixtureResult fit_mixture(DataView x, const MixtureOptions& o) {
   const Index n_input = x.rows();
   const Index p = x.cols();
-  const TeamScope team(o.threads);  // the fit's loops share one team of threads (parallel.hpp)
   if (p < 1) throw Error(ErrorKind::Shape, "mixture: the data have no column");
   validate_options(o, n_input);
+  const TeamScope team(o.threads);  // the fit's loops share one team of threads (parallel.hpp)
   const Index k_count = o.components;
 
   // Which rows take part.

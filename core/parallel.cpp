@@ -166,13 +166,19 @@ void parallel_for(int threads, Index count, const std::function<void(Index, int)
     return;
   }
   std::vector<std::thread> pool;
-  pool.reserve(static_cast<std::size_t>(workers - 1));
-  for (int t = 1; t < workers; ++t) {
-    try {
-      pool.emplace_back([&loop, t] { loop.drain(t); });
-    } catch (const std::system_error&) {
-      break;  // run on the threads already started
+  try {
+    pool.reserve(static_cast<std::size_t>(workers - 1));
+    for (int t = 1; t < workers; ++t) {
+      try {
+        pool.emplace_back([&loop, t] { loop.drain(t); });
+      } catch (const std::system_error&) {
+        break;  // run on the threads already started
+      }
     }
+  } catch (...) {  // out of memory: the started threads must finish before `loop` goes
+    loop.stop.store(true, std::memory_order_release);
+    for (auto& th : pool) th.join();
+    throw;
   }
   loop.drain(0);
   for (auto& th : pool) th.join();

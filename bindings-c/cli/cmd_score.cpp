@@ -49,6 +49,8 @@ Command add_score(CLI::App& parent) {
         if (a->out.json && a->output == "-")
           throw CliError(kExitUsage, "--json prints the summary on standard output: give the scores a file with -o");
         if (!(a->level > 0.0 && a->level < 1.0)) throw CliError(kExitUsage, "--level must lie in (0, 1)");
+        int32_t threads = 1;  // before any output: a bad ELLIPSA_THREADS leaves nothing behind
+        check(ellipsa_threads_resolve(&threads, 0), "choosing the thread count");
         const ModelPtr model = load_model_file(a->model);
         const ScoreColumns cols = score_columns(model.get());
         CsvOptions options = a->dialect.to_options();
@@ -72,7 +74,7 @@ Command add_score(CLI::App& parent) {
         settings.level = a->level;
         settings.reference = reference;
         settings.chunk_rows = kChunkRows;
-        check(ellipsa_threads_resolve(&settings.threads, 0), "choosing the thread count");
+        settings.threads = threads;
         settings.write_behind = [&out] { out.write_behind(); };
         ScoreTally tally;
         score_stream(reader, writer, model.get(), cols, settings, progress, tally);
@@ -85,7 +87,8 @@ Command add_score(CLI::App& parent) {
         const std::string limit = reference_description(model.get(), reference);
         human << "scored " << rows << " rows; " << flagged << " flagged at level " << a->level << " by the " << limit;
         if (unscorable > 0) human << "; " << unscorable << " rows with no observed value";
-        human << "\n" << tally.first_flags.str();
+        human << "\n";
+        for (const std::string& entry : tally.first_flags) human << entry;
         if (flagged > 20) human << "  ... and " << flagged - 20 << " more\n";
         if (a->output != "-") human << "scores written to " << a->output << "\n";
         ellipsa_method method = ELLIPSA_METHOD_CLASSICAL;

@@ -4,6 +4,7 @@
 #include <deque>
 #include <exception>
 #include <limits>
+#include <sstream>
 #include <mutex>
 #include <string>
 #include <system_error>
@@ -30,10 +31,11 @@ void format_chunk(CsvWriter& w, const CsvChunk& chunk, const ScoreBlock& block, 
     const bool is_flagged = block.flag[r] == 1 || (cols.kind == ELLIPSA_KIND_MIXTURE && block.low_density[r] == 1);
     if (is_flagged) {
       ++tally.flagged;
-      if (tally.listed < 20) {
-        tally.first_flags << "  line " << chunk.line(r) << ": squared distance " << block.d2[r] << "; most from "
-                          << top_contributors(block, cols, r, 3) << "\n";
-        ++tally.listed;
+      if (tally.first_flags.size() < 20) {
+        std::ostringstream entry;
+        entry << "  line " << chunk.line(r) << ": squared distance " << block.d2[r] << "; most from "
+              << top_contributors(block, cols, r, 3) << "\n";
+        tally.first_flags.push_back(entry.str());
       }
     }
     if (block.flag[r] == -1) ++tally.unscorable;
@@ -202,11 +204,10 @@ void score_overlapped(CsvReader& reader, CsvWriter& writer, const ellipsa_model*
           tally.rows += j->tally.rows;
           tally.flagged += j->tally.flagged;
           tally.unscorable += j->tally.unscorable;
-          // The first 20 flagged rows of the file: this chunk's lines until 20 are listed.
-          std::istringstream lines(j->tally.first_flags.str());
-          for (std::string line; tally.listed < 20 && std::getline(lines, line);) {
-            tally.first_flags << line << "\n";
-            ++tally.listed;
+          // The first 20 flagged rows of the file: this chunk's until 20 are listed.
+          for (std::string& entry : j->tally.first_flags) {
+            if (tally.first_flags.size() >= 20) break;
+            tally.first_flags.push_back(std::move(entry));
           }
           progress.rows("scoring", tally.rows);
         } catch (...) {
@@ -220,12 +221,28 @@ void score_overlapped(CsvReader& reader, CsvWriter& writer, const ellipsa_model*
   try {
     scorer = std::thread(scoring);
     writer_thread = std::thread(writing);
-  } catch (const std::system_error&) {  // the system refused a thread: nothing is read yet
+  } catch (...) {  // nothing is read yet: end the thread that started, then one thread or the error
+    const std::exception_ptr e = std::current_exception();
     st.end_reading();
     if (scorer.joinable()) scorer.join();
-    score_serially(reader, writer, model, cols, s, progress, tally);
-    return;
+    try {
+      std::rethrow_exception(e);
+    } catch (const std::system_error&) {  // the system refused a thread
+      score_serially(reader, writer, model, cols, s, progress, tally);
+      return;
+    }
   }
+  // Whatever leaves the reading loop, the two threads end before the stages go.
+  struct JoinAtExit {
+    Stages& st;
+    std::thread& a;
+    std::thread& b;
+    ~JoinAtExit() {
+      st.end_reading();
+      if (a.joinable()) a.join();
+      if (b.joinable()) b.join();
+    }
+  } join_at_exit{st, scorer, writer_thread};
   for (std::int64_t index = 0;; ++index) {
     Job* j = st.take_free();
     if (j == nullptr) break;  // a later stage failed: stop reading

@@ -11,7 +11,8 @@
 #pragma once
 #include <cstdint>
 #include <functional>
-#include <sstream>
+#include <string>
+#include <vector>
 
 #include "commands.hpp"
 #include "csv_reader.hpp"
@@ -26,8 +27,7 @@ inline constexpr int kStreamChunksInFlight = 4;
 // first 20 flagged rows described one per line.
 struct ScoreTally {
   int64_t rows = 0, flagged = 0, unscorable = 0;
-  int listed = 0;
-  std::ostringstream first_flags;
+  std::vector<std::string> first_flags;  // one entry per row (a variable's name may hold a line break)
 };
 
 struct ScoreStreamSettings {

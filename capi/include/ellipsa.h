@@ -223,8 +223,8 @@ static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_
  *
  * How promptly a fit stops: the callback is not called again after it asked
  * to stop, and no further unit of work starts. The units between two calls
- * are at most: FAST-MCD (mcd) one random start with its two C-steps (50
- * starts per thread when the fit has more than one thread), or one round of
+ * are at most: FAST-MCD (mcd) one random start with its two C-steps (with
+ * more than one thread asked for: 50 starts per thread asked for), or one round of
  * C-steps of the kept candidates (at most ten C-steps); DetMCD the
  * C-steps of one starting estimate per thread (its six starts run side by
  * side); MRCD the C-steps of one starting estimate; mixtures one EM iteration
@@ -1513,10 +1513,10 @@ ELLIPSA_API ellipsa_status ellipsa_model_score_v2(ellipsa_scores *out, const ell
  *  only. Threads parallelise: the classical and shrinkage moments, scoring of
  *  Gaussian models, mcd (its random starts, the C-steps of its candidates side
  *  by side, the distances of all rows, the standardisation and the
- *  reweighting), detmcd (its six starts side by side, the standardisation and
- *  the reweighting), and the E-step and weighted moments of mixtures; other
- *  parts run on the calling thread. A fit keeps its threads waiting between
- *  its loops and ends them before it returns.
+ *  reweighting's distances), detmcd (its six starts side by side, the
+ *  standardisation and the reweighting's distances), and the E-step and weighted moments of mixtures; other
+ *  parts run on the calling thread. An mcd, detmcd or mixture fit keeps its
+ *  threads waiting between its loops and ends them before it returns.
  *  @{ */
 
 /**

@@ -359,6 +359,20 @@ TEST(FastMcd, ThreadsDoNotChangeTheFitOrTheWorkCounted) {
       EXPECT_EQ(std::memcmp(one.location.data(), many.location.data(), sizeof(double) * one.location.size()), 0);
     }
   }
+  // 1e5 rows: more than 16 chunks, so the distances of all rows run on
+  // threads too, and with two candidates on the full data four threads give
+  // each candidate two (refine's nested loops).
+  {
+    const Eigen::MatrixXd big = with_outliers(100000, 4, 10000, 7.0, 44);
+    FastMcdOptions o;
+    o.seed = 3;
+    const RobustFit one = fast_mcd(make_view(big), o);
+    o.threads = 4;
+    const RobustFit four = fast_mcd(make_view(big), o);
+    EXPECT_EQ(one.h_subset, four.h_subset);
+    EXPECT_EQ(one.iterations, four.iterations);
+    EXPECT_EQ(std::memcmp(one.scatter.data(), four.scatter.data(), sizeof(double) * one.scatter.size()), 0);
+  }
   // The plane case really is an exact fit found during the starts.
   FastMcdOptions o;
   o.seed = 9;

@@ -5,7 +5,9 @@
 // contract is the header's; the checks are exact (counts, indices, messages).
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <atomic>
+#include <chrono>
 #include <stdexcept>
 #include <string>
 #include <thread>
@@ -58,6 +60,36 @@ TEST(Parallel, EveryTaskRunsOnceWithAndWithoutATeam) {
       EXPECT_EQ(run_counts(2, count), std::vector<int>(static_cast<std::size_t>(count), 1));
     }
   }
+}
+
+// Tasks a thread other than the caller ran: a team's thread serves every
+// loop, a thread started for one loop serves that loop only.
+thread_local int loops_served = 0;
+
+TEST(Parallel, ATeamsThreadServesLoopAfterLoop) {
+  const TeamScope team(2);
+  const auto caller = std::this_thread::get_id();
+  int most = 0;
+  for (int loop = 0; loop < 20; ++loop) {
+    // Two tasks: the caller takes task 0 and waits (at most 2 s) until another
+    // thread has taken task 1, so every loop has one task off the caller.
+    std::atomic<bool> other_ran{false};
+    std::atomic<int> served{0};
+    parallel_for(2, 2, [&](Index, int) {
+      if (std::this_thread::get_id() != caller) {
+        served = ++loops_served;
+        other_ran = true;
+        return;
+      }
+      const auto until = std::chrono::steady_clock::now() + std::chrono::seconds(2);
+      while (!other_ran && std::chrono::steady_clock::now() < until) std::this_thread::yield();
+    });
+    EXPECT_TRUE(other_ran.load()) << loop;
+    most = std::max(most, served.load());
+  }
+  // One thread took tasks in all 20 loops (it may take both tasks of a loop
+  // when it comes first); threads started per loop would each count 1 or 2.
+  EXPECT_GE(most, 20);
 }
 
 TEST(Parallel, TheLowestFailingTaskIsTheErrorRethrown) {
