@@ -91,18 +91,21 @@ void note_singular(Search& s, const Eigen::MatrixXd& z_stage, const SubsetFit& f
   if (!s.exact) s.exact = mcd_detail::exact_fit_subset(s.z, z_stage, fit, s.h);
 }
 
+// Appends a row of [0, used.size()) not yet used, drawn uniformly, and marks it.
+void add_unused_row(PortableRandom& rng, std::vector<char>& used, std::vector<Index>& rows) {
+  Index r;
+  do r = static_cast<Index>(rng.below(static_cast<std::uint64_t>(used.size())));
+  while (used[static_cast<std::size_t>(r)]);
+  used[static_cast<std::size_t>(r)] = 1;
+  rows.push_back(r);
+}
+
 // A random (p+1)-subset of the stage's ns rows from the fit's stream, in start
 // order (Rousseeuw & Van Driessen 1999, step 1 of a start).
 std::vector<Index> draw_start(Search& s, Index ns, Index p, std::vector<char>& used) {
   std::vector<Index> rows;
   used.assign(static_cast<std::size_t>(ns), 0);
-  for (Index k = 0; k <= p; ++k) {
-    Index r;
-    do r = static_cast<Index>(s.rng.below(static_cast<std::uint64_t>(ns)));
-    while (used[static_cast<std::size_t>(r)]);
-    used[static_cast<std::size_t>(r)] = 1;
-    rows.push_back(r);
-  }
+  for (Index k = 0; k <= p; ++k) add_unused_row(s.rng, used, rows);
   return rows;
 }
 
@@ -141,11 +144,7 @@ StartOutcome run_start(const Eigen::MatrixXd& zs, Index hs, std::vector<Index> r
       used.assign(static_cast<std::size_t>(ns), 0);
       for (Index r : rows) used[static_cast<std::size_t>(r)] = 1;
     }
-    Index r;
-    do r = static_cast<Index>(growth.below(static_cast<std::uint64_t>(ns)));
-    while (used[static_cast<std::size_t>(r)]);
-    used[static_cast<std::size_t>(r)] = 1;
-    rows.push_back(r);
+    add_unused_row(growth, used, rows);
   }
   for (int step = 0; step < csteps && !out.fit.singular; ++step) {
     ++out.csteps;

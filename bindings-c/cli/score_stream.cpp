@@ -47,22 +47,22 @@ ellipsa_matrix view_of(const CsvChunk& chunk) {
   return ellipsa_matrix_row_major(chunk.data(), static_cast<int64_t>(chunk.rows()), static_cast<int64_t>(chunk.cols()));
 }
 
-// Counts the output and calls settings.write_behind after every kWriteBehindBytes.
+// Calls settings.write_behind once the writer has passed on another
+// kWriteBehindBytes since the last call (checked after every chunk).
 class WriteBehind {
  public:
   WriteBehind(CsvWriter& writer, const ScoreStreamSettings& s) : writer_(writer), s_(s) {}
-  void wrote(std::size_t bytes) {
-    pending_ += bytes;
-    if (pending_ < kWriteBehindBytes || !s_.write_behind) return;
-    pending_ = 0;
+  void check() {
+    if (!s_.write_behind || writer_.bytes_passed() - mark_ < kWriteBehindBytes) return;
     writer_.flush();
+    mark_ = writer_.bytes_passed();
     s_.write_behind();
   }
 
  private:
   CsvWriter& writer_;
   const ScoreStreamSettings& s_;
-  std::size_t pending_ = 0;
+  std::uint64_t mark_ = 0;
 };
 
 void score_serially(CsvReader& reader, CsvWriter& writer, const ellipsa_model* model, const ScoreColumns& cols,
@@ -74,8 +74,7 @@ void score_serially(CsvReader& reader, CsvWriter& writer, const ellipsa_model* m
     refuse_infinite_cells(reader, chunk);
     block.score(model, cols, view_of(chunk), s.level, s.reference, s.threads);
     format_chunk(writer, chunk, block, cols, tally);
-    // About the chunk's output (its text plus the numbers); exact counts do not matter here.
-    behind.wrote(chunk.rows() * (chunk.row_text(0).size() + 16 * (cols.names.size())));
+    behind.check();
     progress.rows("scoring", tally.rows);
   }
 }
@@ -200,7 +199,7 @@ void score_overlapped(CsvReader& reader, CsvWriter& writer, const ellipsa_model*
       if (!st.skip(j->index)) {
         try {
           writer.rows(j->text);
-          behind.wrote(j->text.size());
+          behind.check();
           tally.rows += j->tally.rows;
           tally.flagged += j->tally.flagged;
           tally.unscorable += j->tally.unscorable;

@@ -157,6 +157,7 @@ void CsvWriter::write_buffer() {
   if (used_ == 0) return;
   const std::size_t n = used_;
   used_ = 0;
+  passed_ += n;
   if (sink_ != nullptr) {
     sink_->append(buffer_.data(), n);
     return;

@@ -63,6 +63,8 @@ class CsvWriter {
 
   char separator() const noexcept { return options_.separator; }
   const CsvWriteOptions& options() const noexcept { return options_; }
+  /// Bytes passed to the stream or sink so far (not counting what is buffered).
+  std::uint64_t bytes_passed() const noexcept { return passed_; }
 
  private:
   std::string write_error() const;
@@ -80,6 +82,7 @@ class CsvWriter {
   CsvWriteOptions options_;
   std::string buffer_;  // fixed size; buffer_[0, used_) waits to be written
   std::size_t used_ = 0;
+  std::uint64_t passed_ = 0;
   std::size_t fields_in_row_ = 0;
   bool last_field_empty_ = false;
 };
