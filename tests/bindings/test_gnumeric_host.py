@@ -43,8 +43,11 @@ def recalc(book, plugin_parent, out_csv):
     """ssconvert --recalc in a clean environment (no DISPLAY, scratch HOME)."""
     home = tempfile.mkdtemp(prefix="ellipsa-gnumeric-home-")
     env = {"PATH": "/usr/bin:/bin", "HOME": home, "GNUMERIC_PLUGIN_PATH": plugin_parent, "OPENBLAS_NUM_THREADS": "1"}
-    p = subprocess.run([SSCONVERT, "--recalc", book, out_csv], env=env, capture_output=True, text=True,
-                       timeout=600)
+    try:
+        p = subprocess.run([SSCONVERT, "--recalc", book, out_csv], env=env, capture_output=True, text=True,
+                           timeout=600)
+    finally:
+        shutil.rmtree(home, ignore_errors=True)
     if not os.path.exists(out_csv):
         raise SystemExit("ssconvert wrote nothing (exit %d): %s" % (p.returncode, p.stderr[-2000:]))
     with open(out_csv, newline="") as f:

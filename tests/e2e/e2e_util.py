@@ -1,8 +1,10 @@
 """Helpers for the end-to-end tests: run the built tool, read CSV and JSON."""
+import atexit
 import csv
 import io
 import json
 import os
+import shutil
 import subprocess
 import tempfile
 
@@ -28,7 +30,12 @@ def read_csv(path_or_text, from_text=False):
 
 
 def scratch():
-    return tempfile.mkdtemp(prefix="ellipsa-e2e-")
+    """A scratch folder, removed when the test process ends (kept when
+    ELLIPSA_KEEP_SCRATCH is set, to look at a failure's files)."""
+    path = tempfile.mkdtemp(prefix="ellipsa-e2e-")
+    if not os.environ.get("ELLIPSA_KEEP_SCRATCH"):
+        atexit.register(shutil.rmtree, path, True)
+    return path
 
 
 def write(path, text):
