@@ -258,27 +258,50 @@ void CStepWorkspace::reserve(Index n, Index p) {
 }
 
 void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, CStepWorkspace& w) {
+  const SubsetFit* const fits[] = {&fit};
+  Eigen::VectorXd* const out[] = {&w.d2};
+  subset_distances(z, fits, out, w);
+}
+
+void subset_distances(const Eigen::MatrixXd& z, std::span<const SubsetFit* const> fits,
+                      std::span<Eigen::VectorXd* const> d2, CStepWorkspace& w) {
   const Index n = z.rows(), p = z.cols();
+  const auto m = static_cast<Index>(fits.size());
+  if (d2.size() != fits.size()) throw Error(ErrorKind::Argument, "subset distances: one output per fit");
   constexpr Index kChunk = 1024;  // rows; a chunk of y stays in cache
-  w.linv_t = fit.linv.transpose();
-  w.shift.noalias() = fit.linv * fit.mean;
-  w.d2.resize(n);
+  // The fits side by side: one GEMM per chunk whitens the rows for all of
+  // them, so each chunk of z is read once however many fits there are (a
+  // wider product also runs nearer the BLAS kernel's speed: 6 fits at
+  // p = 10 took 0.87 ms per fit against 1.12 ms one by one, measured here).
+  w.linv_t.resize(p, p * m);
+  w.shift.resize(p * m);
+  for (Index f = 0; f < m; ++f) {
+    const SubsetFit& fit = *fits[static_cast<std::size_t>(f)];
+    w.linv_t.middleCols(f * p, p) = fit.linv.transpose();
+    w.shift.segment(f * p, p).noalias() = fit.linv * fit.mean;
+    d2[static_cast<std::size_t>(f)]->resize(n);
+  }
   // Fixed chunks of rows, each row's distance from its own row only: the same
   // values on any number of threads.
   const Index chunks = chunk_count(n, kChunk);
   const int threads = chunks >= kMinChunksForThreads ? w.threads : 1;
   const int workers = parallel_workers(threads, chunks);
   if (static_cast<int>(w.worker_y.size()) < workers) w.worker_y.resize(static_cast<std::size_t>(workers));
+  // Blocks sized here, on the calling thread (CStepWorkspace::reserve says why).
+  for (int k = 0; k < workers; ++k) {
+    Eigen::MatrixXd& buffer = w.worker_y[static_cast<std::size_t>(k)];
+    if (buffer.rows() < std::min(kChunk, n) || buffer.cols() < p * m) buffer.resize(std::min(kChunk, n), p * m);
+  }
   parallel_for(threads, chunks, [&](Index c, int worker) {
     const Index s = c * kChunk;
-    const Index m = std::min(kChunk, n - s);
-    Eigen::MatrixXd& buffer = w.worker_y[static_cast<std::size_t>(worker)];
-    if (buffer.rows() < m || buffer.cols() != p) buffer.resize(std::min(kChunk, n), p);
-    auto y = buffer.topRows(m);
-    y.noalias() = z.middleRows(s, m) * w.linv_t;  // plain GEMM: faster than a triangular product
-    auto d = w.d2.segment(s, m).array();
-    d = (y.col(0).array() - w.shift(0)).square();
-    for (Index j = 1; j < p; ++j) d += (y.col(j).array() - w.shift(j)).square();
+    const Index rows = std::min(kChunk, n - s);
+    auto y = w.worker_y[static_cast<std::size_t>(worker)].topLeftCorner(rows, p * m);
+    y.noalias() = z.middleRows(s, rows) * w.linv_t;  // plain GEMM: faster than a triangular product
+    for (Index f = 0; f < m; ++f) {
+      auto d = d2[static_cast<std::size_t>(f)]->segment(s, rows).array();
+      d = (y.col(f * p).array() - w.shift(f * p)).square();
+      for (Index j = 1; j < p; ++j) d += (y.col(f * p + j).array() - w.shift(f * p + j)).square();
+    }
   });
 }
 
@@ -333,7 +356,12 @@ std::vector<Index> smallest_h(const Eigen::VectorXd& d2, Index h, const Eigen::M
 
 bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, CStepWorkspace& w) {
   subset_distances(z, fit, w);
-  smallest_h_into(w.d2, h, z, w);
+  return c_step_from_distances(z, h, fit, w.d2, w);
+}
+
+bool c_step_from_distances(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, const Eigen::VectorXd& d2,
+                           CStepWorkspace& w) {
+  smallest_h_into(d2, h, z, w);
   if (w.rows == fit.rows) return false;
   // The new rows travel by swapping buffers (w.rows <-> next.rows <-> the old
   // fit's rows), so no step allocates a row list.

@@ -11,6 +11,7 @@
 #include <cstdint>
 #include <functional>
 #include <optional>
+#include <span>
 #include <string>
 #include <vector>
 
@@ -233,6 +234,13 @@ bool update_fit(const Eigen::MatrixXd& z, const SubsetFit& old, SubsetFit& f, CS
 // triangular solves at small p), then the shift per column. For choosing rows;
 // the distances reported in a RobustFit are computed with centring first.
 void subset_distances(const Eigen::MatrixXd& z, const SubsetFit& fit, CStepWorkspace& w);
+// The same for several fits in one pass over z (the chains of DetMCD's
+// starts): distances under fits[f] into *d2[f] (resized to n). The values
+// for a fit do not depend on the thread count; against the one-fit call they
+// may differ by the BLAS product's rounding for a wider right-hand side (a
+// test bounds it). Throws Error(Argument) when the spans differ in length.
+void subset_distances(const Eigen::MatrixXd& z, std::span<const SubsetFit* const> fits,
+                      std::span<Eigen::VectorXd* const> d2, CStepWorkspace& w);
 
 // The h rows with the smallest d2, ascending by row, into w.rows (d2 may be
 // w.d2). Rows tied at the cut are taken in lexicographic order of their
@@ -249,6 +257,10 @@ std::vector<Index> smallest_h(const Eigen::VectorXd& d2, Index h, const Eigen::M
 // equal determinant). fit must not be singular; a singular new fit is always
 // recomputed from its rows before it is accepted.
 bool c_step(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, CStepWorkspace& w);
+// The same C-step given the distances d2 of all rows under fit (from
+// subset_distances); c_step() is subset_distances() then this. d2 may be w.d2.
+bool c_step_from_distances(const Eigen::MatrixXd& z, Index h, SubsetFit& fit, const Eigen::VectorXd& d2,
+                           CStepWorkspace& w);
 
 // C-steps until the subset repeats, the fit turns singular, or max_steps.
 // Returns the number of steps taken. A fit changed by the steps is recomputed

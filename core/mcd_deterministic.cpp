@@ -12,7 +12,9 @@
 
 #include "error.hpp"
 #include "mcd_fast.hpp"
+#include "order_statistics.hpp"
 #include "parallel.hpp"
+#include "ranks.hpp"
 #include "robust_scale.hpp"
 
 namespace ellipsa::core {
@@ -27,28 +29,6 @@ Eigen::MatrixXd correlation(const Eigen::MatrixXd& y) {
     for (Index i = 0; i < s.rows(); ++i)
       s(i, j) = (sd(i) > 0.0 && sd(j) > 0.0) ? s(i, j) / (sd(i) * sd(j)) : (i == j ? 1.0 : 0.0);
   return s;
-}
-
-// Ranks 1..n with average ranks for ties (a function of the values only),
-// into r; returns the number of tied pairs (i < j with v_i == v_j).
-long long ranks(const Eigen::Ref<const Eigen::VectorXd>& v, Eigen::Ref<Eigen::VectorXd> r) {
-  const Index n = v.size();
-  // Sort (value, row) pairs rather than row indices by an indirect
-  // comparison: the values travel with the rows, so the sort reads
-  // contiguous memory.
-  std::vector<std::pair<double, Index>> order(static_cast<std::size_t>(n));
-  for (Index i = 0; i < n; ++i) order[static_cast<std::size_t>(i)] = {v(i), i};
-  std::sort(order.begin(), order.end());
-  long long tied_pairs = 0;
-  for (Index i = 0; i < n;) {
-    Index j = i;
-    while (j + 1 < n && order[static_cast<std::size_t>(j + 1)].first == order[static_cast<std::size_t>(i)].first) ++j;
-    const double avg = 0.5 * static_cast<double>(i + j) + 1.0;
-    for (Index k = i; k <= j; ++k) r(order[static_cast<std::size_t>(k)].second) = avg;
-    tied_pairs += static_cast<long long>(j - i) * (j - i + 1) / 2;
-    i = j + 1;
-  }
-  return tied_pairs;
 }
 
 // Spatial median by Weiszfeld iterations from the coordinatewise median.
@@ -93,8 +73,10 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
   const long long qn_h = n / 2 + 1, qn_k = qn_h * (qn_h - 1) / 2;
   std::vector<char> zero_qn(static_cast<std::size_t>(p));
   // One column per task (each writes its own column and flag).
-  parallel_for(threads, p, [&](Index j, int) {
-    zero_qn[static_cast<std::size_t>(j)] = ranks(z.col(j), r.col(j)) >= qn_k;
+  std::vector<RankWorkspace> rank_work(static_cast<std::size_t>(parallel_workers(threads, p)));
+  parallel_for(threads, p, [&](Index j, int worker) {
+    zero_qn[static_cast<std::size_t>(j)] =
+        average_ranks(z.col(j), r.col(j), rank_work[static_cast<std::size_t>(worker)]) >= qn_k;
     for (Index i = 0; i < n; ++i) {
       const double rk = r(i, j);
       const double whole = std::floor(rk);
@@ -173,34 +155,30 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
   return s;
 }
 
-Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s) {
-  ScaleWorkspace workspace;
-  return start_distances(z, s, workspace, ColumnScale::Qn);
-}
-
-Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s, ScaleWorkspace& workspace,
-                                ColumnScale scale) {
+bool start_distances(Eigen::VectorXd& d2, const Eigen::MatrixXd& z, const Eigen::MatrixXd& s, ColumnScale scale,
+                     StartScratch& scratch) {
   const Index p = z.cols();
   Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(s);
-  const Eigen::MatrixXd& e = es.eigenvectors();
-  const Eigen::MatrixXd b = z * e;
+  scratch.projected.noalias() = z * es.eigenvectors();
   Eigen::VectorXd root(p);  // robust scales of the projections: the re-estimated sqrt eigenvalues
-  for (Index l = 0; l < p; ++l) root(l) = column_scale(scale, b.col(l), workspace);
-  return start_distances(z, StartBasis{e, root});
+  for (Index l = 0; l < p; ++l) root(l) = column_scale(scale, scratch.projected.col(l), scratch.scale);
+  return start_distances(d2, z, StartBasis{es.eigenvectors(), root}, scratch);
 }
 
-Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const StartBasis& basis) {
-  const Index p = z.cols();
+bool start_distances(Eigen::VectorXd& d2, const Eigen::MatrixXd& z, const StartBasis& basis, StartScratch& scratch) {
+  const Index n = z.rows(), p = z.cols();
   for (Index l = 0; l < p; ++l)
-    if (!(basis.root(l) > 0.0)) return {};
+    if (!(basis.root(l) > 0.0)) return false;
   // Centre Sigma^{1/2} med(z Sigma^{-1/2}) with the symmetric square root;
   // distances |(z_i - centre) Sigma^{-1/2}|^2 in those coordinates.
   const Eigen::MatrixXd& e = basis.vectors;
   const Eigen::MatrixXd inv_root = e * basis.root.cwiseInverse().asDiagonal() * e.transpose();
-  const Eigen::MatrixXd y = z * inv_root;
+  Eigen::MatrixXd& y = scratch.projected;
+  y.noalias() = z * inv_root;
   Eigen::RowVectorXd med(p);
-  for (Index j = 0; j < p; ++j) med(j) = median(y.col(j));
-  return (y.rowwise() - med).rowwise().squaredNorm();
+  for (Index j = 0; j < p; ++j) med(j) = median_of(y.col(j).data(), n, scratch.select);
+  d2 = (y.rowwise() - med).rowwise().squaredNorm();
+  return true;
 }
 
 }  // namespace mcd_detail
@@ -241,70 +219,132 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   mcd_detail::StartBasis ogk;
   const std::vector<Eigen::MatrixXd> starts =
       mcd_detail::deterministic_starts(z, true, workspace, &ogk, scale, opt.threads);
-  std::optional<mcd_detail::SubsetFit> best;
-  int iterations = 0, usable = 0;
   const Index half = (n + 1) / 2;
   const Index start_count = static_cast<Index>(starts.size());
-  // The starts run side by side, `threads` at a time (each start's C-steps on
-  // one thread: their result does not depend on it), and their outcomes are
-  // taken in the starts' fixed order, so the fit is the one-thread fit. The
-  // progress callback is asked between rounds, on the calling thread.
-  const int per_round = std::clamp(opt.threads, 1, static_cast<int>(start_count));
-  struct Outcome {
+  // Each start's chain of C-steps. The chains run in lockstep: one pass over
+  // the rows computes every live chain's distances (chunks of rows on the
+  // threads), then each chain selects and refits on its own (chains on the
+  // threads). A chain's steps are those c_steps_to_convergence() takes, and
+  // nothing depends on the thread count; the outcomes are taken in the
+  // starts' fixed order, as one thread running the starts one by one would.
+  struct Chain {
     bool usable = false;  // distances defined (no projection of zero scale)
+    bool live = false;    // C-steps still to take
+    bool changed = false;
     mcd_detail::SubsetFit fit;
-    int iterations = 0;
+    int steps = 0;
+    Eigen::VectorXd d2;        // the chain's distances of all rows
     std::exception_ptr error;  // what the start threw, raised when its turn comes
   };
-  std::vector<Outcome> outcomes(starts.size());
-  std::vector<ScaleWorkspace> workspaces(static_cast<std::size_t>(per_round));
-  std::vector<mcd_detail::CStepWorkspace> c_step_work(static_cast<std::size_t>(per_round));  // threads 1 each
-  for (auto& w : c_step_work) w.reserve(n, p);  // on this thread (CStepWorkspace::reserve says why)
-  for (Index round = 0; round < start_count; round += per_round) {
+  std::vector<Chain> chains(starts.size());
+  const int workers = parallel_workers(opt.threads, start_count);
+  // Per-thread scratch, sized on this thread (CStepWorkspace::reserve says why).
+  std::vector<mcd_detail::StartScratch> start_work(static_cast<std::size_t>(workers));
+  std::vector<mcd_detail::CStepWorkspace> chain_work(static_cast<std::size_t>(workers));  // threads 1 each
+  for (auto& w : chain_work) w.reserve(n, p);
+  for (auto& s : start_work) {
+    s.projected.resize(n, p);
+    s.select.reserve(static_cast<std::size_t>(n) + 2048);  // order_statistics' sample rides behind the copy
+  }
+  for (auto& c : chains) c.d2.resize(n);
+  mcd_detail::CStepWorkspace shared;  // the lockstep distances, chunks of rows on the threads
+  shared.threads = opt.threads;
+  shared.reserve(n, p);
+  // Step 3 and the first h-subset of each start, side by side.
+  mcd_detail::report_progress(opt.progress, "starting subsets", 0.15);
+  parallel_for(opt.threads, start_count, [&](Index k, int worker) {
+    Chain& c = chains[static_cast<std::size_t>(k)];
+    try {
+      mcd_detail::StartScratch& scratch = start_work[static_cast<std::size_t>(worker)];
+      // The last start is the OGK one, whose eigenbasis and scales are known.
+      c.usable = k + 1 == start_count
+                     ? mcd_detail::start_distances(c.d2, z, ogk, scratch)
+                     : mcd_detail::start_distances(c.d2, z, starts[static_cast<std::size_t>(k)], scale, scratch);
+      if (!c.usable) return;
+      mcd_detail::CStepWorkspace& w = chain_work[static_cast<std::size_t>(worker)];
+      mcd_detail::smallest_h_into(c.d2, half, z, w);
+      c.fit = mcd_detail::fit_subset(z, w.rows);
+      c.live = !c.fit.singular && opt.max_csteps > 0;
+    } catch (...) {
+      c.error = std::current_exception();
+    }
+  });
+  std::vector<Index> live;
+  std::vector<const mcd_detail::SubsetFit*> live_fits;
+  std::vector<Eigen::VectorXd*> live_d2;
+  for (;;) {
+    live.clear();
+    live_fits.clear();
+    live_d2.clear();
+    for (Index k = 0; k < start_count; ++k) {
+      Chain& c = chains[static_cast<std::size_t>(k)];
+      if (!c.live) continue;
+      live.push_back(k);
+      live_fits.push_back(&c.fit);
+      live_d2.push_back(&c.d2);
+    }
+    // Asked between steps, on the calling thread: the fraction of chains done.
     mcd_detail::report_progress(opt.progress, "C-steps",
-                                0.2 + 0.7 * static_cast<double>(round) / static_cast<double>(start_count));
-    const Index in_round = std::min<Index>(per_round, start_count - round);
-    parallel_for(per_round, in_round, [&](Index i, int worker) {
-      const Index k = round + i;
-      Outcome& o = outcomes[static_cast<std::size_t>(k)];
+                                0.2 + 0.7 * static_cast<double>(start_count - static_cast<Index>(live.size())) /
+                                          static_cast<double>(start_count));
+    if (live.empty()) break;
+    try {
+      mcd_detail::subset_distances(z, live_fits, live_d2, shared);
+    } catch (...) {  // the earliest live chain meets it (its turn comes first)
+      chains[static_cast<std::size_t>(live.front())].error = std::current_exception();
+      for (Index k : live) chains[static_cast<std::size_t>(k)].live = false;
+      continue;
+    }
+    parallel_for(opt.threads, static_cast<Index>(live.size()), [&](Index i, int worker) {
+      Chain& c = chains[static_cast<std::size_t>(live[static_cast<std::size_t>(i)])];
       try {
-        // The last start is the OGK one, whose eigenbasis and scales are known.
-        const Eigen::VectorXd d2 =
-            k + 1 == start_count ? mcd_detail::start_distances(z, ogk)
-                                 : mcd_detail::start_distances(z, starts[static_cast<std::size_t>(k)],
-                                                               workspaces[static_cast<std::size_t>(worker)], scale);
-        if (d2.size() == 0) return;
-        o.usable = true;
-        o.fit = mcd_detail::fit_subset(z, mcd_detail::smallest_h(d2, half, z));
-        if (!o.fit.singular)
-          o.iterations = mcd_detail::c_steps_to_convergence(z, h, o.fit, opt.max_csteps,
-                                                            c_step_work[static_cast<std::size_t>(worker)]);
+        // One step of c_steps_to_convergence() (mcd_common.cpp), same stopping rules.
+        ++c.steps;
+        if (!mcd_detail::c_step_from_distances(z, h, c.fit, c.d2, chain_work[static_cast<std::size_t>(worker)])) {
+          c.live = false;
+          return;
+        }
+        c.changed = true;
+        c.live = !c.fit.singular && c.steps < opt.max_csteps;
       } catch (...) {
-        o.error = std::current_exception();
+        c.error = std::current_exception();
+        c.live = false;
       }
     });
-    // The round's outcomes in the starts' order, as one thread would meet
-    // them: an exact fit returns before any later start's error or round.
-    for (Index k = round; k < round + in_round; ++k) {
-      Outcome& o = outcomes[static_cast<std::size_t>(k)];
-      if (o.error) std::rethrow_exception(o.error);
-      if (!o.usable) continue;
-      mcd_detail::SubsetFit& f = o.fit;
-      iterations += o.iterations;
-      if (f.singular) {
-        const auto ex = mcd_detail::exact_fit_subset(z, z, f, h);
-        if (ex) {
-          RobustFit r = mcd_detail::exact_fit_result(x, st, *ex, h);
-          r.iterations = iterations;
-          r.starts = usable + 1;
-          return r;
-        }
-        continue;
-      }
-      ++usable;
-      // Strictly lower only: on a tie the earlier start (fixed order) wins.
-      if (!best || f.log_det < best->log_det) best = std::move(f);
+  }
+  // A fit changed by the steps is recomputed from its rows, as
+  // c_steps_to_convergence() ends, so it depends on the set of rows only.
+  parallel_for(opt.threads, start_count, [&](Index k, int) {
+    Chain& c = chains[static_cast<std::size_t>(k)];
+    if (c.error || !c.changed || c.fit.singular) return;
+    try {
+      c.fit = mcd_detail::fit_subset(z, std::move(c.fit.rows));
+    } catch (...) {
+      c.error = std::current_exception();
     }
+  });
+  std::optional<mcd_detail::SubsetFit> best;
+  int iterations = 0, usable = 0;
+  // The outcomes in the starts' order, as one thread would meet them: an
+  // exact fit returns before any later start's error.
+  for (Chain& c : chains) {
+    if (c.error) std::rethrow_exception(c.error);
+    if (!c.usable) continue;
+    mcd_detail::SubsetFit& f = c.fit;
+    iterations += c.steps;
+    if (f.singular) {
+      const auto ex = mcd_detail::exact_fit_subset(z, z, f, h);
+      if (ex) {
+        RobustFit r = mcd_detail::exact_fit_result(x, st, *ex, h);
+        r.iterations = iterations;
+        r.starts = usable + 1;
+        return r;
+      }
+      continue;
+    }
+    ++usable;
+    // Strictly lower only: on a tie the earlier start (fixed order) wins.
+    if (!best || f.log_det < best->log_det) best = std::move(f);
   }
   if (!best) throw Error(ErrorKind::Data, "DetMCD: no starting estimate gave a nonsingular subset");
   mcd_detail::report_progress(opt.progress, "reweighting", 0.95);

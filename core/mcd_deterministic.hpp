@@ -38,8 +38,10 @@ struct DetMcdOptions {
   RawConsistency raw_consistency = RawConsistency::NormalFactor;
   ProgressCallback progress;  // optional; false cancels
   // Threads (parallel.hpp) for the starting estimates' rank columns and OGK
-  // scales and for the six starts, which run side by side; the fit does not
-  // depend on it.
+  // scales, the six starts' first subsets (side by side), and the C-steps:
+  // the chains run in lockstep, their distances in one pass over row chunks
+  // on the threads, their selections and refits side by side. The fit does
+  // not depend on it.
   int threads = 1;
 };
 
@@ -74,15 +76,23 @@ struct StartBasis {
 // (parallel.hpp; the result does not depend on it).
 std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool with_ogk, ScaleWorkspace& workspace,
                                                   StartBasis* ogk_basis, ColumnScale scale, int threads = 1);
-// Step 3 of DetMCD for one start: eigenvalues re-estimated as Qn^2 of the
-// projections on the eigenvectors of s; returns the squared distances of all
-// rows to the centre Sigma^{1/2} med(z Sigma^{-1/2}), or an empty vector when
-// a projection has zero scale.
-Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s);
-Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const Eigen::MatrixXd& s, ScaleWorkspace& workspace,
-                                ColumnScale scale);
-// Distances for a start whose basis is already known (empty when a root is 0).
-Eigen::VectorXd start_distances(const Eigen::MatrixXd& z, const StartBasis& basis);
+// Scratch of step 3 for one start: one per thread, kept for the whole fit,
+// so that the six starts do not allocate and fault in O(n p) memory each
+// (with glibc's heap trimming that doubled the time of a start, measured).
+struct StartScratch {
+  ScaleWorkspace scale;        // for the robust scales of the projections
+  Eigen::MatrixXd projected;   // z times the eigenvectors, then z Sigma^{-1/2}
+  std::vector<double> select;  // order-statistic scratch of the medians
+};
+// Step 3 of DetMCD for one start: eigenvalues re-estimated as the squared
+// robust scale (`scale`: the one z was standardised with) of the projections
+// on the eigenvectors of s; d2 receives the squared distances of all rows to
+// the centre Sigma^{1/2} med(z Sigma^{-1/2}). Returns false (d2 untouched)
+// when a projection has zero scale.
+bool start_distances(Eigen::VectorXd& d2, const Eigen::MatrixXd& z, const Eigen::MatrixXd& s, ColumnScale scale,
+                     StartScratch& scratch);
+// The same for a start whose basis is already known (false when a root is 0).
+bool start_distances(Eigen::VectorXd& d2, const Eigen::MatrixXd& z, const StartBasis& basis, StartScratch& scratch);
 }  // namespace mcd_detail
 
 }  // namespace ellipsa::core

@@ -517,25 +517,22 @@ double tau_scale(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace& wor
   // Location: mu0 plus the weighted mean of the deviations (offset-safe: no
   // sum of raw values), weights (1 - (u / c1)^2)^2 for |u| <= c1. At least
   // half the values lie within one MAD of mu0, so the weights sum above 0.
+  // Written without a branch (a weight below 0 is clamped to 0, which adds
+  // nothing, as skipping the value did) so that it runs on vector units:
+  // each u is the same correctly rounded quotient as before; only the order
+  // of the sums is Eigen's. A quotient that overflows (s0 subnormal) gives
+  // u = inf, t = 0, as it was skipped before.
+  const Eigen::Map<const Eigen::ArrayXd> a(v, n);
   const double c1 = kTauLocationCutoff;
-  double weight = 0.0, shift = 0.0;
-  for (Index i = 0; i < n; ++i) {
-    const double d = v[i] - mu0, u = d / s0;
-    if (std::abs(u) <= c1) {
-      const double t = 1.0 - (u / c1) * (u / c1);
-      weight += t * t;
-      shift += t * t * d;
-    }
-  }
+  const auto d = a - mu0;
+  const auto t = (1.0 - ((d / s0) / c1).square()).max(0.0);
+  const double weight = (t * t).sum();
+  const double shift = (t * t * d).sum();
   const double mu = mu0 + shift / weight;
   // Scale: s0^2 mean(min(((x - mu) / s0)^2, c2^2)), divided by its normal
   // expectation so that it estimates sigma^2 at the normal.
   const double c2 = kTauScaleCutoff * kTauScaleCutoff;
-  double sum = 0.0;
-  for (Index i = 0; i < n; ++i) {
-    const double u = (v[i] - mu) / s0;
-    sum += std::min(u * u, c2);
-  }
+  const double sum = ((a - mu) / s0).square().min(c2).sum();
   static const double expectation = tau_normal_expectation();
   return s0 * std::sqrt(sum / static_cast<double>(n) / expectation);
 }

@@ -225,9 +225,10 @@ static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_
  * to stop, and no further unit of work starts. The units between two calls
  * are at most: FAST-MCD (mcd) one random start with its two C-steps (with
  * more than one thread asked for: 50 starts per thread asked for), or one round of
- * C-steps of the kept candidates (at most ten C-steps); DetMCD the
- * C-steps of one starting estimate per thread (its six starts run side by
- * side); MRCD the C-steps of one starting estimate; mixtures one EM iteration
+ * C-steps of the kept candidates (at most ten C-steps); DetMCD the first
+ * h-subsets of its six starting estimates, or one C-step of each start whose
+ * C-steps have not converged (the six run in lockstep); MRCD the C-steps of
+ * one starting estimate; mixtures one EM iteration
  * (after every second one, also the E-step of an acceleration jump) or the
  * k-means++ seeding of one restart. Each unit costs O(n p^2) (C-step)
  * or O(n K p^2) (EM iteration); the measured wall-clock latency is in
@@ -1513,8 +1514,11 @@ ELLIPSA_API ellipsa_status ellipsa_model_score_v2(ellipsa_scores *out, const ell
  *  only. Threads parallelise: the classical and shrinkage moments, scoring of
  *  Gaussian models, mcd (its random starts, the C-steps of its candidates side
  *  by side, the distances of all rows, the standardisation and the
- *  reweighting's distances), detmcd (its six starts side by side, the
- *  standardisation and the reweighting's distances), and the E-step and weighted moments of mixtures; other
+ *  reweighting's distances), detmcd (the first h-subsets of its six starts
+ *  side by side; in each lockstep C-step the distances of all rows for every
+ *  start in one pass over row chunks, then the starts' selections and refits
+ *  side by side; the standardisation and the reweighting's distances), and
+ *  the E-step and weighted moments of mixtures; other
  *  parts run on the calling thread. An mcd, detmcd or mixture fit keeps its
  *  threads waiting between its loops and ends them before it returns.
  *  @{ */

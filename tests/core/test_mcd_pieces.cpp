@@ -7,6 +7,7 @@
 #include <Eigen/Core>
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <string>
 #include <limits>
 #include <random>
@@ -274,6 +275,45 @@ TEST(McdPieces, SubsetDistancesMatchTriangularSolves) {
   mcd_detail::subset_distances(z, f, w);
   const Eigen::VectorXd ref = f.chol.squared_distances(make_view(z), f.mean);
   EXPECT_LE(((w.d2 - ref).array().abs() / (1.0 + ref.array())).maxCoeff(), 1e-12);
+}
+
+// Several fits in one pass (DetMCD's lockstep chains): each fit's distances
+// agree with its own one-fit pass to rounding (the same triangular-solve
+// reference as above), and are the same bits on 1, 2 and 3 threads (20000
+// rows: enough chunks for the threads to run).
+TEST(McdPieces, ManyFitDistancesMatchOneByOneAndAnyThreadCount) {
+  const Eigen::MatrixXd z = mcd_test::normal_data(20000, 7, 29);
+  std::vector<mcd_detail::SubsetFit> fits;
+  for (Index start = 0; start < 3; ++start) {
+    std::vector<Index> rows;
+    for (Index i = start; i < 20000; i += 3 + start) rows.push_back(i);
+    fits.push_back(mcd_detail::fit_subset(z, rows));
+  }
+  const std::vector<const mcd_detail::SubsetFit*> ptrs = {&fits[0], &fits[1], &fits[2]};
+  std::vector<Eigen::VectorXd> first(3);
+  for (int threads : {1, 2, 3}) {
+    mcd_detail::CStepWorkspace w;
+    w.threads = threads;
+    std::vector<Eigen::VectorXd> d2(3);
+    const std::vector<Eigen::VectorXd*> out = {&d2[0], &d2[1], &d2[2]};
+    mcd_detail::subset_distances(z, ptrs, out, w);
+    for (std::size_t f = 0; f < 3; ++f) {
+      if (threads == 1) {
+        first[f] = d2[f];
+        mcd_detail::CStepWorkspace one;
+        mcd_detail::subset_distances(z, fits[f], one);
+        const Eigen::VectorXd ref = fits[f].chol.squared_distances(make_view(z), fits[f].mean);
+        EXPECT_LE(((d2[f] - ref).array().abs() / (1.0 + ref.array())).maxCoeff(), 1e-12);
+        EXPECT_LE(((d2[f] - one.d2).array().abs() / (1.0 + one.d2.array())).maxCoeff(), 1e-14);
+      } else {
+        EXPECT_EQ(std::memcmp(d2[f].data(), first[f].data(), sizeof(double) * 20000), 0) << threads << " threads";
+      }
+    }
+  }
+  mcd_detail::CStepWorkspace w;
+  std::vector<Eigen::VectorXd> d2(2);
+  const std::vector<Eigen::VectorXd*> two = {&d2[0], &d2[1]};
+  EXPECT_THROW(mcd_detail::subset_distances(z, ptrs, two, w), Error);
 }
 
 // A C-step's result does not depend on what the workspace held before, and
