@@ -21,8 +21,10 @@ namespace ellipsa::core {
 namespace mcd_detail {
 namespace {
 
-Eigen::MatrixXd correlation(const Eigen::MatrixXd& y) {
-  Eigen::MatrixXd c = y.rowwise() - y.colwise().mean();
+// Correlation matrix of the columns of c, centring c in place (c is scratch).
+Eigen::MatrixXd correlation_of_scratch(Eigen::MatrixXd& c) {
+  const Eigen::RowVectorXd mean = c.colwise().mean();
+  c.rowwise() -= mean;
   Eigen::MatrixXd s = c.transpose() * c;
   const Eigen::VectorXd sd = s.diagonal().cwiseSqrt();
   for (Index j = 0; j < s.cols(); ++j)
@@ -58,15 +60,22 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
                                                   StartBasis* ogk_basis, ColumnScale scale, int threads) {
   const Index n = z.rows(), p = z.cols();
   std::vector<Eigen::MatrixXd> s;
-  // 1. Correlation of the tanh-transformed data.
-  s.push_back(correlation(z.array().tanh().matrix()));
-  // 2. Spearman correlation, 3. normal-scores correlation.
-  Eigen::MatrixXd r(n, p), t(n, p);
+  // Two n x p scratch tables serve the starts below in turn: a fresh table
+  // for each (eight of them) is faulted in page by page on every fit, which
+  // cost more than the arithmetic of the starts it held (docs/performance.md).
+  Eigen::MatrixXd a(n, p), b(n, p);
+  // 1. Correlation of the tanh-transformed data (columns on the threads).
+  parallel_for(threads, p, [&](Index j, int) { a.col(j) = z.col(j).array().tanh().matrix(); });
+  s.push_back(correlation_of_scratch(a));
+  // 2. Spearman correlation (ranks in a), 3. normal-scores correlation (in b).
   const boost::math::normal_distribution<double> normal;
   std::vector<double> score(static_cast<std::size_t>(n));  // by integer rank
-  for (Index k = 0; k < n; ++k)
-    score[static_cast<std::size_t>(k)] =
-        boost::math::quantile(normal, (static_cast<double>(k + 1) - 1.0 / 3.0) / (static_cast<double>(n) + 1.0 / 3.0));
+  constexpr Index kScoreBlock = 4096;                      // n normal quantiles, each on its own: blocks on the threads
+  parallel_for(threads, chunk_count(n, kScoreBlock), [&](Index c, int) {
+    for (Index k = c * kScoreBlock; k < std::min(n, (c + 1) * kScoreBlock); ++k)
+      score[static_cast<std::size_t>(k)] = boost::math::quantile(
+          normal, (static_cast<double>(k + 1) - 1.0 / 3.0) / (static_cast<double>(n) + 1.0 / 3.0));
+  });
   // Qn of column j of z is 0 exactly when at least k = C(floor(n/2)+1, 2)
   // pairs of its values coincide (differences of unequal doubles are never
   // 0); the tied pairs come with the ranks.
@@ -76,24 +85,24 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
   std::vector<RankWorkspace> rank_work(static_cast<std::size_t>(parallel_workers(threads, p)));
   parallel_for(threads, p, [&](Index j, int worker) {
     zero_qn[static_cast<std::size_t>(j)] =
-        average_ranks(z.col(j), r.col(j), rank_work[static_cast<std::size_t>(worker)]) >= qn_k;
+        average_ranks(z.col(j), a.col(j), rank_work[static_cast<std::size_t>(worker)]) >= qn_k;
     for (Index i = 0; i < n; ++i) {
-      const double rk = r(i, j);
+      const double rk = a(i, j);
       const double whole = std::floor(rk);
-      t(i, j) = rk == whole ? score[static_cast<std::size_t>(whole) - 1]
+      b(i, j) = rk == whole ? score[static_cast<std::size_t>(whole) - 1]
                             : boost::math::quantile(normal, (rk - 1.0 / 3.0) / (static_cast<double>(n) + 1.0 / 3.0));
     }
   });
-  s.push_back(correlation(r));
-  s.push_back(correlation(t));
-  // 4. Spatial-sign covariance around the spatial median.
+  s.push_back(correlation_of_scratch(a));
+  s.push_back(correlation_of_scratch(b));
+  // 4. Spatial-sign covariance around the spatial median (signs in a).
   {
-    Eigen::MatrixXd k = z.rowwise() - spatial_median(z).transpose();
+    a = z.rowwise() - spatial_median(z).transpose();
     for (Index i = 0; i < n; ++i) {
-      const double nr = k.row(i).norm();
-      if (nr > 0.0) k.row(i) /= nr;
+      const double nr = a.row(i).norm();
+      if (nr > 0.0) a.row(i) /= nr;
     }
-    s.push_back((k.transpose() * k) / static_cast<double>(n));
+    s.push_back((a.transpose() * a) / static_cast<double>(n));
   }
   // 5. Covariance of the ceil(n/2) rows nearest the coordinatewise median (0).
   {
@@ -136,14 +145,14 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
       Eigen::VectorXd& diff = diffs[static_cast<std::size_t>(worker)];
       sum = z.col(j) + z.col(k);
       diff = z.col(j) - z.col(k);
-      const double a = column_scale(scale, sum, ws);
-      const double b = column_scale(scale, diff, ws);
-      u(j, k) = u(k, j) = 0.25 * (a * a - b * b);
+      const double sum_scale = column_scale(scale, sum, ws);
+      const double diff_scale = column_scale(scale, diff, ws);
+      u(j, k) = u(k, j) = 0.25 * (sum_scale * sum_scale - diff_scale * diff_scale);
     });
     Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(u);
-    const Eigen::MatrixXd v = z * es.eigenvectors();
+    a.noalias() = z * es.eigenvectors();  // the projections
     Eigen::VectorXd root(p);
-    parallel_for(threads, p, [&](Index l, int worker) { root(l) = column_scale(scale, v.col(l), buffers_of(worker)); });
+    parallel_for(threads, p, [&](Index l, int worker) { root(l) = column_scale(scale, a.col(l), buffers_of(worker)); });
     s.push_back(es.eigenvectors() * root.cwiseAbs2().asDiagonal() * es.eigenvectors().transpose());
     // Step 3 of DetMCD applied to this start would find the same eigenvectors
     // and the same projection scales again: hand them over instead.

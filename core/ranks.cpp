@@ -59,8 +59,7 @@ void radix_sort(RankWorkspace& w, std::size_t n) {
 
 }  // namespace
 
-long long average_ranks(const Eigen::Ref<const Eigen::VectorXd>& v, Eigen::Ref<Eigen::VectorXd> r,
-                        RankWorkspace& w) {
+long long average_ranks(const Eigen::Ref<const Eigen::VectorXd>& v, Eigen::Ref<Eigen::VectorXd> r, RankWorkspace& w) {
   const Eigen::Index n = v.size();
   if (r.size() != n) throw Error(ErrorKind::Argument, "ranks: the output has another length than the sample");
   if (n >= (Eigen::Index{1} << 32)) throw Error(ErrorKind::Argument, "ranks: more than 2^32 - 1 values");
