@@ -2,10 +2,13 @@
 (the library's fixed chunks and merge order); bad counts are usage errors."""
 import os
 import random
+import resource
+import signal
+import subprocess
 import sys
 
 sys.path.insert(0, os.path.dirname(__file__))
-from e2e_util import run, scratch  # noqa: E402
+from e2e_util import BIN, run, scratch  # noqa: E402
 
 failures = []
 tmp = scratch()
@@ -112,6 +115,37 @@ if len(errors) != 1:
     failures.append("bad file: the error differs between 1, 2 and 3 threads: " + repr(errors))
 elif "20002" not in next(iter(errors))[1]:  # line 20002 of the file (the header is line 1)
     failures.append("bad file: the error should name line 20002: " + repr(errors))
+
+# A writing error before a later reading error: the file-size limit (256 KiB,
+# RLIMIT_FSIZE) stops the writes within the first chunk's output, and a word
+# sits on line 30002 (chunk 4). On one thread the run never reaches line
+# 30002; on more, reading runs ahead, yet the earliest chunk's error, the
+# writing one, is the one reported, with the same message and exit code, and
+# no output is left behind.
+lines[20001] = lines[20000]  # only the word on line 30002 is left planted
+late_path = os.path.join(tmp, "late-bad.csv")
+with open(late_path, "w") as f:
+    f.writelines(lines)
+
+
+def limit_file_size():
+    signal.signal(signal.SIGXFSZ, signal.SIG_IGN)  # write() then fails with EFBIG
+    resource.setrlimit(resource.RLIMIT_FSIZE, (256 * 1024, 256 * 1024))
+
+
+errors = set()
+scored = os.path.join(tmp, "late-scored.csv")
+for t in ("1", "2", "3"):
+    p = subprocess.run([BIN, "score", long_model, late_path, "--threads", t, "--quiet", "-o", scored],
+                       capture_output=True, text=True, preexec_fn=limit_file_size, timeout=600)
+    if p.returncode != 3 or os.path.exists(scored):
+        failures.append(f"write error first --threads {t}: exit {p.returncode} (want 3), output left: "
+                        f"{os.path.exists(scored)}: {p.stderr.strip()[:200]}")
+    errors.add((p.returncode, p.stderr))
+if len(errors) != 1:
+    failures.append("write error first: the error differs between 1, 2 and 3 threads: " + repr(errors))
+elif "File too large" not in next(iter(errors))[1] or "30002" in next(iter(errors))[1]:
+    failures.append("write error first: the writing error should be reported, not line 30002: " + repr(errors))
 
 for bad in ("0", "257", "-1", "two"):
     code, _, err = run("fit", "--threads", bad, "--quiet", path, "-o", os.path.join(tmp, "x.json"))
