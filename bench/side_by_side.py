@@ -5,9 +5,14 @@ R (cov, mahalanobis), on the same data, at 1 and 2 library threads.
 
   /usr/bin/python3 bench/side_by_side.py BUILD_DIR [--quick]
 
-Every time is the best of REPEATS runs in a fresh process per thread setting;
+Every time is the best of REPEATS runs. The Python measurements run in one
+process that alternates the library's thread count (ELLIPSA_THREADS, which the
+library reads at each call) between 1 and 2 from one run to the next, so that
+a drift of the shared machine's speed over the minutes of the benchmark falls
+on both counts alike (run one after the other, the two halves once gave
+speed-ups from 0.85 to 2.77 on two cores). R runs once per thread setting.
 OPENBLAS_NUM_THREADS=1 everywhere, so NumPy, R and the library's BLAS calls use
-one core each and only the library's own threads differ (ELLIPSA_THREADS).
+one core each and only the library's own threads differ.
 Ratios are printed beside the times; docs/performance.md keeps the table.
 """
 import ctypes as c
@@ -26,17 +31,24 @@ SRC = os.path.dirname(HERE)
 REPEATS = 3
 
 
+THREADS = (1, 2)
+
+
 def best(f, repeats=REPEATS):
-    times = []
+    """Best time of f at each library thread count in THREADS, the counts
+    alternating run by run; a tuple in the order of THREADS."""
+    times = {t: [] for t in THREADS}
     for _ in range(repeats):
-        t0 = time.perf_counter()
-        f()
-        times.append(time.perf_counter() - t0)
-    return min(times)
+        for t in THREADS:
+            os.environ["ELLIPSA_THREADS"] = str(t)
+            t0 = time.perf_counter()
+            f()
+            times[t].append(time.perf_counter() - t0)
+    return tuple(min(times[t]) for t in THREADS)
 
 
 def python_worker(build, shapes):
-    """Times one thread setting (ELLIPSA_THREADS from the environment)."""
+    """Times every thread count of THREADS; each row's values are tuples."""
     sys.path.insert(0, os.path.join(SRC, "bindings-c", "python"))
     os.environ.setdefault("ELLIPSA_LIBRARY", os.path.join(build, "lib", "libellipsa.so"))
     import ellipsa  # noqa: E402
@@ -48,7 +60,7 @@ def python_worker(build, shapes):
     for n, p in shapes:
         x = np.random.default_rng(15).standard_normal((n, p))  # C-ordered
         xf = np.asfortranarray(x)
-        r = {"n": n, "p": p}
+        r = {"n": (n,) * len(THREADS), "p": (p,) * len(THREADS)}
         # Bounds: one read of the data (a vectorised sum) and one write of n doubles.
         r["read"] = best(lambda: x.sum())
         out = np.empty(n)
@@ -69,7 +81,7 @@ def python_worker(build, shapes):
         r["np_d2"] = best(np_d2)
         d2_np = np_d2()
         d2_el = model.score(x, fields=("squared_distance",)).squared_distance
-        r["d2_max_rel_diff"] = float(np.max(np.abs(d2_el - d2_np) / np.maximum(d2_np, 1e-300)))
+        r["d2_max_rel_diff"] = (float(np.max(np.abs(d2_el - d2_np) / np.maximum(d2_np, 1e-300))),) * len(THREADS)
         # The C interface itself: ellipsa_model_score_v3 with only the distance buffer.
         d2 = np.empty(n)
         scores = _lib.ScoresBuffers()
@@ -158,14 +170,15 @@ def main():
         return
     print("machine:", machine())
     print("OPENBLAS_NUM_THREADS=1 for every row; ELLIPSA_THREADS as stated\n")
+    env = dict(os.environ, OPENBLAS_NUM_THREADS="1")
+    args = [sys.executable, __file__, build, "--worker"] + (["--quick"] if quick else [])
+    out = subprocess.run(args, capture_output=True, text=True, env=env, timeout=1800)
+    if out.returncode != 0:
+        sys.exit("python worker failed: " + out.stderr[-2000:])
+    paired = json.loads(out.stdout.strip().splitlines()[-1])
     results = {}
-    for threads in (1, 2):
-        env = dict(os.environ, OPENBLAS_NUM_THREADS="1", ELLIPSA_THREADS=str(threads))
-        args = [sys.executable, __file__, build, "--worker"] + (["--quick"] if quick else [])
-        out = subprocess.run(args, capture_output=True, text=True, env=env, timeout=900)
-        if out.returncode != 0:
-            sys.exit("python worker failed: " + out.stderr[-2000:])
-        rows = json.loads(out.stdout.strip().splitlines()[-1])
+    for i, threads in enumerate(THREADS):
+        rows = [{key: v[i] for key, v in r.items()} for r in paired]
         for r in rows:
             r.update(r_times(build, r["n"], r["p"], threads))
         results[threads] = rows

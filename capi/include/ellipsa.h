@@ -225,9 +225,10 @@ static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_
  * to stop, and no further unit of work starts. The units between two calls
  * are at most: FAST-MCD (mcd) one random start with its two C-steps (with
  * more than one thread asked for: 50 starts per thread asked for), or one round of
- * C-steps of the kept candidates (at most ten C-steps); DetMCD the first
- * h-subsets of its six starting estimates, or one C-step of each start whose
- * C-steps have not converged (the six run in lockstep); MRCD the C-steps of
+ * C-steps of the kept candidates (at most ten C-steps); DetMCD its six
+ * starting estimates (computed together), their first h-subsets, or one
+ * C-step of each start whose C-steps have not converged (the six run in
+ * lockstep); MRCD the C-steps of
  * one starting estimate; mixtures one EM iteration
  * (after every second one, also the E-step of an acceleration jump) or the
  * k-means++ seeding of one restart. Each unit costs O(n p^2) (C-step)
