@@ -101,12 +101,13 @@ int64_t fit_memory_estimate(const ellipsa_fit_options& o, int64_t n, int64_t p) 
       words = add(words, prod({30, p, p}));
       words = add(words, prod({20, n}));
       // The six chains' distances (6 n), and on more than one thread each
-      // further thread's start scratch and C-step scratch (n p + 8 n) and
+      // further thread's start scratch, robust-scale and rank buffers and
+      // C-step scratch (n p + 14 n) and
       // everyone's block of whitened rows for the six chains (1024 x 6 p).
       words = add(words, prod({6, n}));
       if (threads > 1) {
         const int64_t workers = std::min<int64_t>(threads, 6);
-        words = add(words, mul(add(prod({n, p}), prod({8, n})), workers - 1));
+        words = add(words, mul(add(prod({n, p}), prod({14, n})), workers - 1));
         words = add(words, mul(prod({std::min<int64_t>(n, 1024), 6, p}), threads));
       }
       break;

@@ -83,6 +83,7 @@ std::vector<Eigen::MatrixXd> deterministic_starts(const Eigen::MatrixXd& z, bool
   std::vector<char> zero_qn(static_cast<std::size_t>(p));
   // One column per task (each writes its own column and flag).
   std::vector<RankWorkspace> rank_work(static_cast<std::size_t>(parallel_workers(threads, p)));
+  for (auto& w : rank_work) w.reserve(n);  // on this thread (CStepWorkspace::reserve says why)
   parallel_for(threads, p, [&](Index j, int worker) {
     zero_qn[static_cast<std::size_t>(j)] =
         average_ranks(z.col(j), a.col(j), rank_work[static_cast<std::size_t>(worker)]) >= qn_k;
@@ -233,9 +234,13 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
   // Each start's chain of C-steps. The chains run in lockstep: one pass over
   // the rows computes every live chain's distances (chunks of rows on the
   // threads), then each chain selects and refits on its own (chains on the
-  // threads). A chain's steps are those c_steps_to_convergence() takes, and
-  // nothing depends on the thread count; the outcomes are taken in the
-  // starts' fixed order, as one thread running the starts one by one would.
+  // threads). A chain's steps are those c_steps_to_convergence() takes, up
+  // to the rounding of the distances (one wide product for all live chains
+  // instead of one per chain: the rows chosen differ only where two
+  // distances tie within it), and nothing depends on the thread count; the
+  // outcomes are taken in the starts' fixed order, as one thread running the
+  // starts one by one would. Unlike that one thread, every chain runs to its
+  // end even when an earlier start turns out an exact fit.
   struct Chain {
     bool usable = false;  // distances defined (no projection of zero scale)
     bool live = false;    // C-steps still to take
@@ -255,7 +260,10 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
     s.projected.resize(n, p);
     s.select.reserve(static_cast<std::size_t>(n) + 2048);  // order_statistics' sample rides behind the copy
   }
-  for (auto& c : chains) c.d2.resize(n);
+  for (auto& c : chains) {
+    c.d2.resize(n);
+    c.fit.rows.reserve(static_cast<std::size_t>(n));  // recycled through the C-steps' row lists
+  }
   mcd_detail::CStepWorkspace shared;  // the lockstep distances, chunks of rows on the threads
   shared.threads = opt.threads;
   shared.reserve(n, p);
@@ -272,7 +280,9 @@ RobustFit det_mcd(DataView x, const DetMcdOptions& opt) {
       if (!c.usable) return;
       mcd_detail::CStepWorkspace& w = chain_work[static_cast<std::size_t>(worker)];
       mcd_detail::smallest_h_into(c.d2, half, z, w);
-      c.fit = mcd_detail::fit_subset(z, w.rows);
+      std::vector<Index> rows = std::move(c.fit.rows);  // the capacity sized on the calling thread
+      rows.assign(w.rows.begin(), w.rows.end());
+      c.fit = mcd_detail::fit_subset(z, std::move(rows));
       c.live = !c.fit.singular && opt.max_csteps > 0;
     } catch (...) {
       c.error = std::current_exception();

@@ -37,8 +37,8 @@ struct DetMcdOptions {
   // Scaling of the raw scatter (mcd_common.hpp): the normal-consistency factor or the median rule.
   RawConsistency raw_consistency = RawConsistency::NormalFactor;
   ProgressCallback progress;  // optional; false cancels
-  // Threads (parallel.hpp) for the starting estimates' rank columns and OGK
-  // scales, the six starts' first subsets (side by side), and the C-steps:
+  // Threads (parallel.hpp) for the starting estimates' tanh, rank and
+  // normal-score columns and OGK scales, the six starts' first subsets (side by side), and the C-steps:
   // the chains run in lockstep, their distances in one pass over row chunks
   // on the threads, their selections and refits side by side. The fit does
   // not depend on it.

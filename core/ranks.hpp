@@ -1,20 +1,26 @@
 // Ranks of a sample with average ranks for ties: the Spearman and
 // normal-scores starts of DetMCD rank every column of n rows, and at
 // n = 1e5 a comparison sort of (value, row) pairs took 9 ms per column, a
-// sixth of the whole fit (docs/performance.md). A radix sort on the values'
-// bit patterns gives the same order in a few linear passes.
+// sixth of the whole fit (docs/performance.md). The radix sort of
+// radix_sort.hpp gives the same order in a few linear passes.
 #pragma once
 #include <cstdint>
 #include <vector>
 
 #include "data_view.hpp"
+#include "radix_sort.hpp"
 
 namespace ellipsa::core {
 
 // Scratch of average_ranks(); keeping it between calls saves the allocations.
 struct RankWorkspace {
-  std::vector<std::uint64_t> keys, keys2;
-  std::vector<std::uint32_t> rows, rows2;
+  std::vector<std::uint64_t> keys;
+  std::vector<std::uint32_t> rows;
+  RadixScratch radix;
+  // Sizes the buffers for samples of n values. Call it on the thread that
+  // starts a parallel loop (memory first allocated on a worker thread comes
+  // from an arena glibc empties between fits: CStepWorkspace::reserve).
+  void reserve(Eigen::Index n);
 };
 
 // r(i) = the rank of v(i) among v(0..n-1), 1-based, ties given the average

@@ -15,6 +15,7 @@
 
 #include "error.hpp"
 #include "order_statistics.hpp"
+#include "radix_sort.hpp"
 
 namespace ellipsa::core {
 namespace {
@@ -39,8 +40,8 @@ double qn_consistency_constant() {
 }
 
 struct ScaleWorkspace::Buffers {
-  std::vector<std::uint64_t> key, tmp;  // radix sort
-  std::vector<std::uint32_t> count;
+  std::vector<std::uint64_t> key;  // order keys of the sample (radix_sort.hpp)
+  RadixScratch radix;
   std::vector<double> y;  // sorted sample + NaN sentinels
   std::vector<Index> lo, hi, cut_lo, cut_hi;
   std::vector<double> sample, candidates;
@@ -59,12 +60,10 @@ namespace {
 constexpr std::size_t kPad = 4;
 
 // b.y = the values of x in ascending order followed by kPad NaN sentinels.
-// Below a few hundred values std::sort; above, an LSD radix sort on
-// order-preserving 64-bit keys (the IEEE bit pattern with the sign bit flipped
-// for non-negative values and all bits flipped for negative ones), 11 bits per
-// pass, passes whose digit is the same for every key skipped. -0.0 sorts
-// before +0.0; both compare equal, so the sorted sequence of values is the one
-// std::sort gives. The values must not be NaN (the callers demand finite data).
+// Below a few hundred values std::sort; above, the radix sort of
+// radix_sort.hpp on order keys. -0.0 sorts before +0.0; both compare equal,
+// so the sorted sequence of values is the one std::sort gives. The values
+// must not be NaN (the callers demand finite data).
 void sorted_copy(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace::Buffers& b) {
   const std::size_t n = static_cast<std::size_t>(x.size());
   std::vector<double>& v = b.y;
@@ -73,40 +72,10 @@ void sorted_copy(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace::Buf
     for (std::size_t i = 0; i < n; ++i) v[i] = x(static_cast<Index>(i));
     std::sort(v.begin(), v.begin() + static_cast<std::ptrdiff_t>(n));
   } else {
-    constexpr int kBits = 11, kPasses = 6;  // 6 * 11 >= 64
-    constexpr std::size_t kBuckets = std::size_t{1} << kBits;
     b.key.resize(n);
-    b.tmp.resize(n);
-    b.count.assign(kPasses * kBuckets, 0);
-    std::uint64_t* key = b.key.data();
-    std::uint64_t* tmp = b.tmp.data();
-    std::uint32_t* count = b.count.data();
-    for (std::size_t i = 0; i < n; ++i) {
-      const double value = x(static_cast<Index>(i));
-      std::uint64_t k;
-      std::memcpy(&k, &value, sizeof k);
-      k = (k >> 63) ? ~k : (k | (std::uint64_t{1} << 63));
-      key[i] = k;
-      for (int d = 0; d < kPasses; ++d) ++count[d * kBuckets + ((k >> (d * kBits)) & (kBuckets - 1))];
-    }
-    for (int d = 0; d < kPasses; ++d) {
-      std::uint32_t* c = count + d * kBuckets;
-      const int shift = d * kBits;
-      if (c[(key[0] >> shift) & (kBuckets - 1)] == n) continue;  // one digit value: no-op pass
-      std::uint32_t sum = 0;
-      for (std::size_t k = 0; k < kBuckets; ++k) {
-        const std::uint32_t t = c[k];
-        c[k] = sum;
-        sum += t;
-      }
-      for (std::size_t i = 0; i < n; ++i) tmp[c[(key[i] >> shift) & (kBuckets - 1)]++] = key[i];
-      std::swap(key, tmp);
-    }
-    for (std::size_t i = 0; i < n; ++i) {
-      std::uint64_t k = key[i];
-      k = (k >> 63) ? (k & ~(std::uint64_t{1} << 63)) : ~k;
-      std::memcpy(&v[i], &k, sizeof k);
-    }
+    for (std::size_t i = 0; i < n; ++i) b.key[i] = order_key(x(static_cast<Index>(i)));
+    radix_sort(b.key, nullptr, b.radix);
+    for (std::size_t i = 0; i < n; ++i) v[i] = from_order_key(b.key[i]);
   }
   for (std::size_t i = n; i < n + kPad; ++i) v[i] = std::numeric_limits<double>::quiet_NaN();
 }
@@ -521,13 +490,15 @@ double tau_scale(const Eigen::Ref<const Eigen::VectorXd>& x, ScaleWorkspace& wor
   // nothing, as skipping the value did) so that it runs on vector units:
   // each u is the same correctly rounded quotient as before; only the order
   // of the sums is Eigen's. A quotient that overflows (s0 subnormal) gives
-  // u = inf, t = 0, as it was skipped before.
+  // u = inf, t = 0, as it was skipped before; so does a deviation d that
+  // overflows (values near +-1e308 on both sides of the median), where
+  // t * t * d would be 0 * inf: the product is taken only where t > 0.
   const Eigen::Map<const Eigen::ArrayXd> a(v, n);
   const double c1 = kTauLocationCutoff;
   const auto d = a - mu0;
   const auto t = (1.0 - ((d / s0) / c1).square()).max(0.0);
   const double weight = (t * t).sum();
-  const double shift = (t * t * d).sum();
+  const double shift = (t > 0.0).select(t * t * d, 0.0).sum();
   const double mu = mu0 + shift / weight;
   // Scale: s0^2 mean(min(((x - mu) / s0)^2, c2^2)), divided by its normal
   // expectation so that it estimates sigma^2 at the normal.

@@ -106,8 +106,8 @@ double pairwise_difference_order_statistic(const Eigen::Ref<const Eigen::VectorX
 // read here); whether they apply them to the raw or the normalised MAD was
 // not verified either: here the normalised one. 0 when s0 is 0 (more than
 // half the values equal the median). Values must be finite; an empty sample
-// throws Error(Data). The sums run in sample order, so a permutation of the
-// sample may change the last bits.
+// throws Error(Data). The sums run in Eigen's vectorised order, so a
+// permutation of the sample may change the last bits.
 inline constexpr double kTauLocationCutoff = 4.5;
 inline constexpr double kTauScaleCutoff = 3.0;
 double tau_normal_expectation();

@@ -231,8 +231,9 @@ static inline ellipsa_matrix ellipsa_matrix_col_major(const double *data, int64_
  * lockstep); MRCD the C-steps of
  * one starting estimate; mixtures one EM iteration
  * (after every second one, also the E-step of an acceleration jump) or the
- * k-means++ seeding of one restart. Each unit costs O(n p^2) (C-step)
- * or O(n K p^2) (EM iteration); the measured wall-clock latency is in
+ * k-means++ seeding of one restart. Each unit costs O(n p^2) (C-step),
+ * O(n K p^2) (EM iteration) or, for DetMCD's starting estimates, about
+ * p(p+1)/2 robust scale evaluations on n values; the measured wall-clock latency is in
  * docs/robustness.md.
  */
 typedef int (*ellipsa_progress_fn)(const char *stage, double fraction, void *user);
@@ -1518,7 +1519,9 @@ ELLIPSA_API ellipsa_status ellipsa_model_score_v2(ellipsa_scores *out, const ell
  *  reweighting's distances), detmcd (the first h-subsets of its six starts
  *  side by side; in each lockstep C-step the distances of all rows for every
  *  start in one pass over row chunks, then the starts' selections and refits
- *  side by side; the standardisation and the reweighting's distances), and
+ *  side by side; the tanh, rank and normal-score columns and the OGK scales
+ *  of its starting estimates; the standardisation and the reweighting's
+ *  distances), and
  *  the E-step and weighted moments of mixtures; other
  *  parts run on the calling thread. An mcd, detmcd or mixture fit keeps its
  *  threads waiting between its loops and ends them before it returns.

@@ -137,33 +137,38 @@ TEST(DetMcd, LockstepChainsEqualChainsRunOneByOne) {
     mcd_detail::StartBasis ogk;
     const auto starts = mcd_detail::deterministic_starts(st.z, true, ws, &ogk, scale);
     const Index h = mcd_subset_size(n, p, 0.5);
-    double best = std::numeric_limits<double>::infinity();
-    std::vector<Index> best_rows;
-    int steps = 0;
-    mcd_detail::StartScratch scratch;
-    for (std::size_t k = 0; k < starts.size(); ++k) {
-      Eigen::VectorXd d2;
-      const bool ok = k + 1 == starts.size() ? mcd_detail::start_distances(d2, st.z, ogk, scratch)
-                                             : mcd_detail::start_distances(d2, st.z, starts[k], scale, scratch);
-      ASSERT_TRUE(ok);
-      mcd_detail::SubsetFit f = mcd_detail::fit_subset(st.z, mcd_detail::smallest_h(d2, (n + 1) / 2, st.z));
-      steps += mcd_detail::c_steps_to_convergence(st.z, h, f, 200);
-      if (f.log_det < best) {
-        best = f.log_det;
-        best_rows = f.rows;
+    for (const int max_csteps : {200, 1, 2}) {
+      double best = std::numeric_limits<double>::infinity();
+      std::vector<Index> best_rows;
+      int steps = 0;
+      mcd_detail::StartScratch scratch;
+      for (std::size_t k = 0; k < starts.size(); ++k) {
+        Eigen::VectorXd d2;
+        const bool ok = k + 1 == starts.size() ? mcd_detail::start_distances(d2, st.z, ogk, scratch)
+                                               : mcd_detail::start_distances(d2, st.z, starts[k], scale, scratch);
+        ASSERT_TRUE(ok);
+        mcd_detail::SubsetFit f = mcd_detail::fit_subset(st.z, mcd_detail::smallest_h(d2, (n + 1) / 2, st.z));
+        steps += mcd_detail::c_steps_to_convergence(st.z, h, f, max_csteps);
+        if (f.log_det < best) {
+          best = f.log_det;
+          best_rows = f.rows;
+        }
       }
-    }
-    for (int threads : {1, 2}) {
-      DetMcdOptions o;
-      o.qn_max_rows = qn_max_rows;
-      o.threads = threads;
-      const RobustFit fit = det_mcd(make_view(x), o);
-      EXPECT_EQ(fit.h_subset, best_rows) << "qn_max_rows " << qn_max_rows << ", " << threads << " threads";
-      // raw_log_det is in the caller's units: the standardised one plus 2 sum log scale.
-      const double in_units = best + 2.0 * st.scale.array().log().sum();
-      EXPECT_NEAR(fit.raw_log_det, in_units, 1e-12 * std::abs(in_units) + 1e-12);
-      EXPECT_EQ(fit.iterations, steps);
-      EXPECT_EQ(fit.starts, 6);
+      for (int threads : {1, 2}) {
+        DetMcdOptions o;
+        o.qn_max_rows = qn_max_rows;
+        o.threads = threads;
+        o.max_csteps = max_csteps;
+        const RobustFit fit = det_mcd(make_view(x), o);
+        EXPECT_EQ(fit.h_subset, best_rows)
+            << "qn_max_rows " << qn_max_rows << ", " << threads << " threads, " << max_csteps << " C-steps at most";
+        // raw_log_det is in the caller's units: the standardised one plus 2 sum log scale.
+        // Both sides end in fit_subset() of the same rows: the same bits.
+        EXPECT_EQ(fit.raw_log_det, best + 2.0 * st.scale.array().log().sum());
+        EXPECT_EQ(fit.iterations, steps);
+        EXPECT_EQ(fit.starts, 6);
+      }
+      if (max_csteps == 200) EXPECT_GT(steps, 12);  // the chains took several steps each
     }
   }
 }

@@ -310,7 +310,26 @@ TEST(McdPieces, ManyFitDistancesMatchOneByOneAndAnyThreadCount) {
       }
     }
   }
+  // One workspace reused as DetMCD uses it (reserved, then 1, 3 and 2 live
+  // fits, threads 2): the same bits as fresh workspaces.
   mcd_detail::CStepWorkspace w;
+  w.threads = 2;
+  w.reserve(20000, 7);
+  for (const std::vector<std::size_t>& live : std::vector<std::vector<std::size_t>>{{1}, {0, 1, 2}, {0, 2}}) {
+    std::vector<const mcd_detail::SubsetFit*> some;
+    std::vector<Eigen::VectorXd> d2(live.size());
+    std::vector<Eigen::VectorXd*> out;
+    for (std::size_t k = 0; k < live.size(); ++k) {
+      some.push_back(&fits[live[k]]);
+      out.push_back(&d2[k]);
+    }
+    mcd_detail::subset_distances(z, some, out, w);
+    for (std::size_t k = 0; k < live.size(); ++k)
+      EXPECT_LE(((d2[k] - first[live[k]]).array().abs() / (1.0 + first[live[k]].array())).maxCoeff(), 1e-14);
+    if (live.size() == 3)
+      for (std::size_t k = 0; k < 3; ++k)
+        EXPECT_EQ(std::memcmp(d2[k].data(), first[k].data(), sizeof(double) * 20000), 0);
+  }
   std::vector<Eigen::VectorXd> d2(2);
   const std::vector<Eigen::VectorXd*> two = {&d2[0], &d2[1]};
   EXPECT_THROW(mcd_detail::subset_distances(z, ptrs, two, w), Error);

@@ -256,6 +256,20 @@ TEST(RobustScale, TauConsistentEquivariantAndBounded) {
     far(i) = 1e9 + static_cast<double>(i);
   }
   EXPECT_EQ(tau_scale(near), tau_scale(far));
+  // The same far out where the deviation from the median overflows (the
+  // median near -1e308, the outliers at +1.5e308: x - median = inf): still
+  // no weight and a capped term, not 0 * inf = NaN. Against outliers at
+  // +1e307 (a finite deviation, as far out in MADs), bit for bit.
+  const Eigen::VectorXd noise = mcd_test::normal_data(200, 1, 77).col(0);
+  Eigen::VectorXd low = (-1e308 * (1.0 + 1e-3 * noise.array())).matrix();
+  Eigen::VectorXd overflowing = low;
+  for (Index i = 0; i < 40; ++i) {
+    low(i) = 1e307 + 1e300 * static_cast<double>(i);
+    overflowing(i) = 1.5e308 + 1e300 * static_cast<double>(i);
+  }
+  ASSERT_TRUE(std::isinf(overflowing(0) - median(overflowing)));
+  EXPECT_TRUE(std::isfinite(tau_scale(overflowing)));
+  EXPECT_EQ(tau_scale(overflowing), tau_scale(low));
   // Each term of the mean is at most c2^2, so tau <= s0 c2 / sqrt(E) (from
   // the definition), s0 the normalised MAD.
   EXPECT_LE(tau_scale(far), mcd_test::mad_of(far) * kTauScaleCutoff / std::sqrt(tau_normal_expectation()));
