@@ -155,8 +155,8 @@ std::vector<FunctionSpec> build() {
                kLimits,
                "F quantile: the x with P(X <= x) = probability",
                {{"probability", "in [0, 1)", kNumber, false, ""},
-                {"df1", "numerator degrees of freedom, > 0", kNumber, false, ""},
-                {"df2", "denominator degrees of freedom, > 0", kNumber, false, ""}},
+                {"df1", "numerator degrees of freedom, in [1e-100, 1e12]", kNumber, false, ""},
+                {"df2", "denominator degrees of freedom, in [1e-100, 1e12]", kNumber, false, ""}},
                ELLIPSA_SHEET_SHAPE_SCALAR,
                shape_scalar,
                eval_f_quantile});
@@ -164,8 +164,8 @@ std::vector<FunctionSpec> build() {
                kLimits,
                "F upper tail P(X > x)",
                {{"x", "the value", kNumber, false, ""},
-                {"df1", "numerator degrees of freedom, > 0", kNumber, false, ""},
-                {"df2", "denominator degrees of freedom, > 0", kNumber, false, ""}},
+                {"df1", "numerator degrees of freedom, in [1e-100, 1e12]", kNumber, false, ""},
+                {"df2", "denominator degrees of freedom, in [1e-100, 1e12]", kNumber, false, ""}},
                ELLIPSA_SHEET_SHAPE_SCALAR,
                shape_scalar,
                eval_f_tail});
@@ -173,8 +173,8 @@ std::vector<FunctionSpec> build() {
                kLimits,
                "Beta quantile: the x with P(X <= x) = probability",
                {{"probability", "in [0, 1]", kNumber, false, ""},
-                {"a", "first shape, > 0", kNumber, false, ""},
-                {"b", "second shape, > 0", kNumber, false, ""}},
+                {"a", "first shape, in [1e-100, 1e12]", kNumber, false, ""},
+                {"b", "second shape, in [1e-100, 1e12]", kNumber, false, ""}},
                ELLIPSA_SHEET_SHAPE_SCALAR,
                shape_scalar,
                eval_beta_quantile});
@@ -182,8 +182,8 @@ std::vector<FunctionSpec> build() {
                kLimits,
                "Beta upper tail P(X > x)",
                {{"x", "the value", kNumber, false, ""},
-                {"a", "first shape, > 0", kNumber, false, ""},
-                {"b", "second shape, > 0", kNumber, false, ""}},
+                {"a", "first shape, in [1e-100, 1e12]", kNumber, false, ""},
+                {"b", "second shape, in [1e-100, 1e12]", kNumber, false, ""}},
                ELLIPSA_SHEET_SHAPE_SCALAR,
                shape_scalar,
                eval_beta_tail});

@@ -6,8 +6,10 @@
 # needs no second full build: the table I/O sources are compiled in (and
 # instrumented), the C interface is called as a foreign caller calls it. Each
 # target starts from a copy of its committed corpus (tests/fuzz/corpus/<name>)
-# and runs for the given seconds; a crash or a failed oracle fails the script
-# (the input is left in build-dir/fuzz-ci/). Coverage-guided runs inside the
+# and runs for the given seconds; a crash, a failed oracle or one input
+# running longer than 30 s (a hang: Boost's inverse incomplete beta once
+# looped for half an hour on huge shapes) fails the script (the input is left
+# in build-dir/fuzz-ci/). Coverage-guided runs inside the
 # library use the fuzzing build (-DELLIPSA_FUZZ=ON, DEVELOPERS.md).
 set -euo pipefail
 root="$(cd "$(dirname "$0")/.." && pwd)"
@@ -32,7 +34,7 @@ for t in csv_reader model_load fit_score accumulator sheet_evaluate; do
   cp -r "$root/tests/fuzz/corpus/$corpus/." "$work/"
   extra=()
   [ "$t" = model_load ] && extra=(-dict="$root/tests/fuzz/model_format.dict" -max_len=8192)
-  if OPENBLAS_NUM_THREADS=1 "$out/fuzz_$t" "${extra[@]}" -max_total_time="$seconds" \
+  if OPENBLAS_NUM_THREADS=1 "$out/fuzz_$t" "${extra[@]}" -max_total_time="$seconds" -timeout=30 \
        -artifact_prefix="$out/$t-" "$work" > "$out/$t.log" 2>&1; then
     echo "fuzz_$t: $(grep -E '^#[0-9]+' "$out/$t.log" | tail -n 1 | awk '{print $1}' | tr -d '#') executions in ${seconds} s, no finding"
   else

@@ -385,6 +385,36 @@ std::vector<Row> rows() {
                    return ellipsa_chi2_quantile(&o, 0.5, -1);
                  },
                  {ELLIPSA_ERR_ARGUMENT}});
+  // The F and Beta range [1e-100, 1e12] (ellipsa.h, "Distributions"); the
+  // first case is the fuzzer's input that hung inside Boost before the check.
+  out.push_back({"ellipsa_beta_quantile",
+                 "shapes 5e250 and 1e150",
+                 [] {
+                   double o = 0;
+                   return ellipsa_beta_quantile(&o, 0.0041, 4.9778176961711737e250, 1e150);
+                 },
+                 {ELLIPSA_ERR_ARGUMENT}});
+  out.push_back({"ellipsa_beta_tail",
+                 "shapes 1e20 and 1e20",
+                 [] {
+                   double o = 0;
+                   return ellipsa_beta_tail(&o, 0.5, 1e20, 1e20);
+                 },
+                 {ELLIPSA_ERR_ARGUMENT}});
+  out.push_back({"ellipsa_f_quantile",
+                 "df1 below 1e-100",
+                 [] {
+                   double o = 0;
+                   return ellipsa_f_quantile(&o, 0.5, 1e-300, 3.0);
+                 },
+                 {ELLIPSA_ERR_ARGUMENT}});
+  out.push_back({"ellipsa_f_tail",
+                 "df2 above 1e12",
+                 [] {
+                   double o = 0;
+                   return ellipsa_f_tail(&o, 1.0, 3.0, 1e13);
+                 },
+                 {ELLIPSA_ERR_ARGUMENT}});
   out.push_back({"ellipsa_hotelling_limit",
                  "m <= p",
                  [] {

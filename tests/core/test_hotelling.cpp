@@ -106,3 +106,23 @@ TEST(HotellingLimits, LargeMApproachesChiSquareAndArgumentsAreChecked) {
   EXPECT_THROW(t2_phase2_limit(10, 3, 1.0), Error);
   EXPECT_THROW(t2_phase1_limit(10, 0, 0.05), Error);
 }
+
+TEST(HotellingLimits, BeyondATrillionRowsTheChiSquareLimitIsUsed) {
+  // The F and Beta functions stop at 1e12 degrees of freedom; above 1e12
+  // reference rows both phases give chi2(p) (the large-sample limit, common
+  // practice), and just below it the exact laws agree with that limit to
+  // O(p / m). 0.95 quantile of chi2(3) = 7.815 (NIST e-Handbook table).
+  const Index big = 2'000'000'000'000, edge = 1'000'000'000'000;
+  const double chi = chi2_quantile(0.95, 3.0);
+  EXPECT_NEAR(chi, 7.815, 1e-3);
+  EXPECT_EQ(t2_phase1_limit(big, 3, 0.05), chi);
+  EXPECT_EQ(t2_phase2_limit(big, 3, 0.05), chi);
+  EXPECT_NEAR(t2_phase1_limit(edge, 3, 0.05) / chi, 1.0, 1e-9);
+  EXPECT_NEAR(t2_phase2_limit(edge, 3, 0.05) / chi, 1.0, 1e-9);
+  for (double t2 : {0.5, 7.815, 40.0}) {
+    EXPECT_EQ(t2_phase2_sf(t2, 2e12, 3), chi2_sf(t2, 3.0)) << t2;
+    EXPECT_EQ(t2_phase1_sf(t2, 2e12, 4), chi2_sf(t2, 4.0)) << t2;
+    EXPECT_NEAR(t2_phase2_sf(t2, 1e12, 3) / chi2_sf(t2, 3.0), 1.0, 1e-9) << t2;
+    EXPECT_NEAR(t2_phase1_sf(t2, 1e12, 4) / chi2_sf(t2, 4.0), 1.0, 1e-9) << t2;
+  }
+}
