@@ -3,6 +3,7 @@
 #include <Eigen/Cholesky>
 #include <algorithm>
 #include <cmath>
+#include <string>
 
 #include "error.hpp"
 
@@ -66,6 +67,13 @@ Eigen::VectorXd CholeskyFactor::squared_distances(DataView x, const Eigen::Vecto
     y.colwise() -= centre;
     lower_.triangularView<Eigen::Lower>().solveInPlace(y);
     d2.segment(start, m) = y.colwise().squaredNorm().transpose();
+    for (Index k = 0; k < m; ++k)
+      if (!std::isfinite(d2(start + k))) {
+        d2(start + k) = whiten_scaled(lower_, x.row(start + k).transpose(), centre).squared_distance;
+        if (std::isnan(d2(start + k)))
+          throw Error(ErrorKind::Data, "distances: row " + std::to_string(start + k) +
+                                           " overflows even in scaled units (a scatter too ill-conditioned for it)");
+      }
   }
   return d2;
 }
@@ -78,6 +86,29 @@ Eigen::VectorXd CholeskyFactor::whiten(const Eigen::VectorXd& b) const {
 Eigen::VectorXd CholeskyFactor::solve(const Eigen::VectorXd& b) const {
   const Eigen::VectorXd z = whiten(b);
   return lower_.transpose().triangularView<Eigen::Upper>().solve(z);
+}
+
+int scale_shift(const Eigen::VectorXd& v) {
+  int e = 0;
+  std::frexp(v.size() ? v.cwiseAbs().maxCoeff() : 0.0, &e);
+  return std::max(e, 0);
+}
+
+ScaledWhitening whiten_scaled(const Eigen::MatrixXd& lower, const Eigen::VectorXd& x, const Eigen::VectorXd& centre) {
+  return whiten_scaled(lower, x, centre, std::max(scale_shift(x), scale_shift(centre)));
+}
+
+ScaledWhitening whiten_scaled(const Eigen::MatrixXd& lower, const Eigen::VectorXd& x, const Eigen::VectorXd& centre,
+                              int shift) {
+  const Index q = x.size();
+  ScaledWhitening r;
+  r.shift = shift;
+  r.d.resize(q);
+  for (Index a = 0; a < q; ++a) r.d(a) = std::ldexp(x(a), -shift) - std::ldexp(centre(a), -shift);
+  r.w = r.d;
+  lower.transpose().triangularView<Eigen::Upper>().solveInPlace<Eigen::OnTheRight>(r.w);
+  r.squared_distance = std::ldexp(r.w.squaredNorm(), 2 * shift);
+  return r;
 }
 
 }  // namespace ellipsa::core

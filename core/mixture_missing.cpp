@@ -1,6 +1,8 @@
 #include "mixture_missing.hpp"
 
+#include <algorithm>
 #include <cmath>
+#include <limits>
 #include <numbers>
 #include <string>
 
@@ -51,6 +53,39 @@ Eigen::MatrixXd observed_weighted_log_densities(const MixtureModel& model, const
     }
   }
   return out;
+}
+
+Eigen::VectorXd far_row_memberships(const MixtureModel& model, DataView x, Index row) {
+  const Index k_count = model.components(), p = x.cols();
+  std::vector<Index> observed;
+  for (Index j = 0; j < p; ++j)
+    if (!std::isnan(x(row, j))) observed.push_back(j);
+  const Eigen::VectorXd xo = sub_vector(x.row(row).transpose(), observed);
+  int shift = scale_shift(xo);
+  for (Index k = 0; k < k_count; ++k)
+    shift = std::max(shift, scale_shift(sub_vector(model.means.row(k).transpose(), observed)));
+  const double log_2pi = std::log(2.0 * std::numbers::pi), q = static_cast<double>(observed.size());
+  Eigen::VectorXd u(k_count), offset(k_count);
+  for (Index k = 0; k < k_count; ++k) {
+    const CholeskyFactor f =
+        factor_or_throw(sub_matrix(model.covariances[static_cast<std::size_t>(k)], observed, observed), k);
+    const ScaledWhitening w = whiten_scaled(f.lower(), xo, sub_vector(model.means.row(k).transpose(), observed), shift);
+    u(k) = w.w.squaredNorm();
+    offset(k) = std::log(model.weights(k)) - 0.5 * (q * log_2pi + f.log_determinant());
+  }
+  // log t_k up to a constant, relative to the nearest component m: the
+  // difference of scaled distances is formed before it is scaled back.
+  Index m = 0;
+  for (Index k = 1; k < k_count; ++k)
+    if (u(k) < u(m)) m = k;
+  Eigen::VectorXd log_t(k_count);
+  for (Index k = 0; k < k_count; ++k) {
+    const double gap = std::ldexp(u(k) - u(m), 2 * shift);  // +inf beyond double precision
+    log_t(k) = std::isfinite(u(m)) ? offset(k) - offset(m) - 0.5 * gap : offset(k) - offset(m);
+  }
+  const double top = log_t.maxCoeff();
+  Eigen::VectorXd t = (log_t.array() - top).exp().matrix();
+  return t / t.sum();
 }
 
 ComponentMoments missing_component_moments(const MixtureModel& current, Index k, const MissingLayout& layout,

@@ -17,6 +17,16 @@ namespace ellipsa::core {
 // definite.
 Eigen::MatrixXd observed_weighted_log_densities(const MixtureModel& model, const MissingLayout& layout, DataView x);
 
+// Memberships (K, summing to 1) of row `row` of x when its weighted
+// log-density is -inf under every component: the row lies so far beyond the
+// model's scale that every density underflows (a mean of 1e308 against rows
+// near 0). The posterior's limit is taken in one scaled unit s = 2^e shared by
+// the components (whiten_scaled, core/cholesky.hpp): with d2_k = s^2 u_k,
+// log t_k = c + log pi_k - log phi-normaliser_k - s^2 u_k / 2, so the
+// component with the smallest u takes the row unless another is within
+// reach in double precision. Uses the row's observed coordinates.
+Eigen::VectorXd far_row_memberships(const MixtureModel& model, DataView x, Index row);
+
 // Sufficient statistics of one component for the M-step: the summed
 // responsibility, the weighted mean and the weighted centred scatter
 // sum_i t_ik E[(x_i - mean)(x_i - mean)' | x_O, component k].

@@ -119,9 +119,19 @@ MixtureScores score_mixture(const MixtureModel& model, DataView x) {
                                       " columns, the model " + std::to_string(model.dimension()));
   const MissingLayout layout = group_missing_patterns(x, "mixture scoring");  // also rejects infinite values
   Eigen::MatrixXd lj = observed_weighted_log_densities(model, layout, x);
+  // Rows whose density underflows under every component (all terms -inf) are
+  // beyond the model's scale: log-density -inf, memberships from the scaled
+  // limit (far_row_memberships). The normalisation would give them NaN.
+  std::vector<Index> far;
+  for (Index i = 0; i < lj.rows(); ++i)
+    if ((lj.row(i).array() == -std::numeric_limits<double>::infinity()).all()) far.push_back(i);
   MixtureScores s;
   // Rows without any observed value stay NaN through the normalisation.
   s.log_density = normalise_posterior(lj).log_density;
+  for (Index i : far) {
+    lj.row(i) = far_row_memberships(model, x, i).transpose();
+    s.log_density(i) = -std::numeric_limits<double>::infinity();
+  }
   s.responsibilities = std::move(lj);
   s.labels = hard_labels(s.responsibilities);
   return s;

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <functional>
 #include <limits>
 #include <numbers>
 #include <string>
@@ -62,6 +63,33 @@ void row_squared_norms(const double* w, Index ld, Index m, Index q, double* d2) 
   }
 }
 
+// A finite row whose squared norm came out NaN or infinite is scored again
+// in scaled units (whiten_scaled, core/cholesky.hpp): d2, and when asked the
+// contributions d_j z_j and conditional drops z_j^2 / (S^-1)_jj (z = S^-1 d)
+// of output row `row`. A row still NaN is refused (ErrorKind::Data).
+ScaledWhitening checked_whiten_scaled(const Model& model, const Eigen::VectorXd& raw, const Eigen::VectorXd& mu,
+                                      Index row) {
+  ScaledWhitening r = whiten_scaled(*model.lower, raw, mu);
+  if (std::isnan(r.squared_distance))
+    throw Error(ErrorKind::Data, "scoring: the squared distance of row " + std::to_string(row) +
+                                     " overflows even in scaled units (a scatter too ill-conditioned for it)");
+  return r;
+}
+
+void rescore_scaled(const Model& model, const Eigen::VectorXd& raw, const Eigen::VectorXd& mu, Index row,
+                    const ScoringOptions& opt, RowScores& out) {
+  ScaledWhitening r = checked_whiten_scaled(model, raw, mu, row);
+  out.d2(row) = r.squared_distance;
+  if (!(opt.contributions || opt.conditional_drops)) return;
+  model.lower->triangularView<Eigen::Lower>().solveInPlace<Eigen::OnTheRight>(r.w);  // w = (S^-1 d / s)'
+  for (Index a = 0; a < r.w.size(); ++a) {
+    const Index j = model.columns ? (*model.columns)[static_cast<std::size_t>(a)] : a;
+    if (opt.contributions) out.contributions(row, j) = std::ldexp(r.d(a) * r.w(a), 2 * r.shift);
+    if (opt.conditional_drops)
+      out.conditional_drops(row, j) = std::ldexp(r.w(a) * r.w(a) / model.inverse_diagonal(a), 2 * r.shift);
+  }
+}
+
 // block(k, j) = x(start + k, j) - location(j) for k < m, block column-major
 // with leading dimension block.rows(). Row-major sources are read a row at a
 // time, column-major ones a column at a time (both in memory order).
@@ -85,16 +113,31 @@ void copy_centred(DataView x, Index start, Index m, const Eigen::VectorXd& locat
   }
 }
 
+// The uncentred observed coordinates of output row `row` and their location
+// entries, for rescore_scaled (called only for a row that overflowed).
+using RawRowFetch = std::function<void(Index row, Eigen::VectorXd& raw, Eigen::VectorXd& mu)>;
+
+void rescore_overflowed(const Model& model, const double* norms, Index m, const Index* rows, const RawRowFetch& fetch,
+                        const ScoringOptions& opt, RowScores& out) {
+  for (Index k = 0; k < m; ++k) {
+    if (std::isfinite(norms[k])) continue;
+    Eigen::VectorXd raw, mu;
+    fetch(rows[k], raw, mu);
+    rescore_scaled(model, raw, mu, rows[k], opt, out);
+  }
+}
+
 // Scores `block` (m x q, already centred; overwritten) whose rows are output
 // rows rows[0..m). `work` is scratch of at least m x q, used only when z is
 // needed; `norms` of at least m.
 void score_block(const Model& model, Eigen::Ref<Eigen::MatrixXd> block, Eigen::MatrixXd& work, double* norms,
-                 const Index* rows, const ScoringOptions& opt, RowScores& out) {
+                 const Index* rows, const RawRowFetch& fetch, const ScoringOptions& opt, RowScores& out) {
   const Index m = block.rows(), q = block.cols();
   if (!(opt.contributions || opt.conditional_drops)) {
     whiten_rows(block.data(), block.outerStride(), m, *model.lower);
     row_squared_norms(block.data(), block.outerStride(), m, q, norms);
     for (Index k = 0; k < m; ++k) out.d2(rows[k]) = norms[k];
+    rescore_overflowed(model, norms, m, rows, fetch, opt, out);
     return;
   }
   auto w = work.topLeftCorner(m, q);
@@ -112,6 +155,7 @@ void score_block(const Model& model, Eigen::Ref<Eigen::MatrixXd> block, Eigen::M
       if (opt.conditional_drops) out.conditional_drops(rows[k], j) = z * z / model.inverse_diagonal(a);
     }
   }
+  rescore_overflowed(model, norms, m, rows, fetch, opt, out);
 }
 
 [[noreturn]] void throw_infinite(Index row, Index col, double v) { throw_infinite_cell("scoring", row, col, v); }
@@ -158,6 +202,10 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
   const Eigen::MatrixXd& lower = factor_.lower();
   Model full{&lower, {}, nullptr};
   if (opt.conditional_drops) full.inverse_diagonal = inverse_diagonal(lower);
+  const RawRowFetch fetch_full = [&](Index i, Eigen::VectorXd& raw, Eigen::VectorXd& mu) {
+    raw = x.row(i).transpose();
+    mu = location_;
+  };
 
   // Complete rows: block copy, centre, one triangular solve per block. Rows
   // with a NaN are set aside by pattern and scored afterwards. Blocks are fixed
@@ -199,7 +247,7 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
     }
     if (kept == 0) return;
     block.topRows(kept).rowwise() -= location_.transpose();
-    score_block(full, block.topRows(kept), s.work, s.norms.data(), s.rows.data(), opt, out);
+    score_block(full, block.topRows(kept), s.work, s.norms.data(), s.rows.data(), fetch_full, opt, out);
   });
   std::vector<Index> incomplete;
   for (const auto& aside : set_aside) incomplete.insert(incomplete.end(), aside.begin(), aside.end());
@@ -241,7 +289,16 @@ RowScores MahalanobisScorer::score(DataView x, const ScoringOptions& opt) const 
         out.df(i) = q;
         for (Index a = 0; a < q; ++a) sub_block(k, a) = x(i, observed[a]) - location_(observed[a]);
       }
-      score_block(marginal, sub_block.topRows(m), sub_work, sub_norms.data(), members.data() + first, opt, out);
+      const RawRowFetch fetch_observed = [&](Index i, Eigen::VectorXd& raw, Eigen::VectorXd& mu) {
+        raw.resize(q);
+        mu.resize(q);
+        for (Index a = 0; a < q; ++a) {
+          raw(a) = x(i, observed[a]);
+          mu(a) = location_(observed[a]);
+        }
+      };
+      score_block(marginal, sub_block.topRows(m), sub_work, sub_norms.data(), members.data() + first, fetch_observed,
+                  opt, out);
     }
   }
 
@@ -287,6 +344,7 @@ bool MahalanobisScorer::score_finite(DataView x, const ScoringOptions& opt, cons
   const double log_2pi = std::log(2.0 * std::numbers::pi);
   const double log_det = factor_.log_determinant();
   const Eigen::MatrixXd& lower = factor_.lower();
+  const Model full{&lower, {}, nullptr};
 
   const Index chunks = chunk_count(n, kChunkRows);
   const Index block_rows = std::min(kChunkRows, std::max<Index>(n, 1));
@@ -308,6 +366,9 @@ bool MahalanobisScorer::score_finite(DataView x, const ScoringOptions& opt, cons
     row_squared_norms(block.data(), block.outerStride(), m, p, d2);
     for (Index k = 0; k < m; ++k) {
       const Index i = start + k;
+      // The same rescaled arithmetic as score() for a row that overflowed.
+      if (!std::isfinite(d2[k]))
+        d2[k] = checked_whiten_scaled(full, x.row(i).transpose(), location_, i).squared_distance;
       if (out.flag) out.flag[i] = d2[k] > cutoff ? 1 : 0;
       if (out.p_value) out.p_value[i] = reference_sf(opt.reference, p, d2[k]);
       if (out.log_density) out.log_density[i] = -0.5 * (static_cast<double>(p) * log_2pi + log_det + d2[k]);

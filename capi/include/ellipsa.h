@@ -1434,7 +1434,11 @@ typedef struct ellipsa_scores {
  * the chi-square rule above to that distance (with that component's location
  * and scatter); `low_density` applies the mixture-aware rule: the row's
  * log-density is below the cutoff calibrated on the fitting rows at fit time
- * (their lower 2.5% quantile; diagnostic "log_density_cutoff").
+ * (their lower 2.5% quantile; diagnostic "log_density_cutoff"). A row so far
+ * beyond the model's scale that its density underflows under every component
+ * gets log-density -inf, distance +inf and the limit of the memberships: the
+ * component nearest in the Mahalanobis sense takes it (the weights decide
+ * between equally near ones); never NaN.
  *
  * @param[out] out  Buffers to fill (see ::ellipsa_scores); on failure their
  *                  contents are unspecified.

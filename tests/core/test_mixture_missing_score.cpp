@@ -178,3 +178,46 @@ TEST(MixtureScore, MissingCoordinatesUseTheMarginal) {
   wrong.setZero();
   EXPECT_THROW(score_mixture(m, make_view(wrong)), Error);
 }
+
+// A row whose density underflows under every component (a fuzzed model file
+// with a mean of 1e308 gave NaN log-densities and memberships): log-density
+// -inf, memberships summing to 1 from the posterior's limit, which gives the
+// row to the component whose mean is nearest in the Mahalanobis sense
+// (derived here: log t_k differs by s^2 (u_m - u_k) / 2 with s = 2^1024).
+TEST(MixtureScore, RowsBeyondDoublePrecisionGoToTheNearestComponent) {
+  MixtureModel m;
+  m.structure = CovarianceStructure::Full;
+  m.weights = Eigen::Vector2d(0.9, 0.1);
+  m.means.resize(2, 2);
+  m.means << 0.0, 0.0, 1e308, 0.0;
+  Eigen::Matrix2d c;
+  c << 1.0, 0.3, 0.3, 2.0;
+  m.covariances = {c, c};
+  Eigen::MatrixXd x(5, 2);
+  x << 1.0, 1.0,     // an ordinary row near component 0
+      -1e308, 0.0,   // beyond double precision, nearer component 0
+      1.7e308, 0.0,  // beyond double precision, nearer component 1 (weight 0.1)
+      kNaN, -1e308,  // one coordinate observed, equally far in mean: the weights decide
+      1e308, 0.0;    // on component 1's mean: an ordinary row
+  const MixtureScores s = score_mixture(m, make_view(x));
+  const double inf = std::numeric_limits<double>::infinity();
+  EXPECT_TRUE(std::isfinite(s.log_density(0)));
+  EXPECT_EQ(s.log_density(1), -inf);
+  EXPECT_EQ(s.log_density(2), -inf);
+  EXPECT_EQ(s.log_density(3), -inf);
+  EXPECT_TRUE(std::isfinite(s.log_density(4)));
+  for (Index i = 0; i < x.rows(); ++i) {
+    EXPECT_FALSE(s.responsibilities.row(i).hasNaN()) << i;
+    EXPECT_NEAR(s.responsibilities.row(i).sum(), 1.0, 1e-15) << i;
+  }
+  EXPECT_EQ(s.responsibilities(1, 0), 1.0);
+  EXPECT_EQ(s.labels(1), 0);
+  EXPECT_EQ(s.responsibilities(2, 1), 1.0);
+  EXPECT_EQ(s.labels(2), 1);
+  // Row 3 observes column 1 only, where both means are 0: equal distances, so
+  // the memberships are the weights.
+  EXPECT_NEAR(s.responsibilities(3, 0), 0.9, 1e-15);
+  EXPECT_NEAR(s.responsibilities(3, 1), 0.1, 1e-15);
+  EXPECT_EQ(s.labels(3), 0);
+  EXPECT_EQ(s.labels(4), 1);
+}
