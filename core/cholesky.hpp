@@ -33,7 +33,8 @@ class CholeskyFactor {
   double smallest_residual_fraction() const;
 
   // d2_i = |L^-1 (x_i - centre)|^2 for every row of x; +inf where it exceeds
-  // double precision (see whiten_scaled).
+  // double precision (see whiten_scaled); NaN only for a NaN input or a solve
+  // that fails even in scaled units.
   Eigen::VectorXd squared_distances(DataView x, const Eigen::VectorXd& centre) const;
   // s^-1 b by two triangular solves.
   Eigen::VectorXd solve(const Eigen::VectorXd& b) const;
